@@ -1,0 +1,40 @@
+#!/usr/bin/env bash
+# Installs the Debian 12 packages habcast needs to build and test.
+# Idempotent: packages already present are skipped, so re-running is cheap.
+# Usage: scripts/install-deps.sh [--with-reference-tools]
+#   --with-reference-tools also installs R, vegan and statsmodels, which are
+#   only needed to regenerate reference numbers in tests/reference/.
+set -euo pipefail
+
+packages=(
+  build-essential cmake ninja-build pkg-config
+  libgdal-dev gdal-bin libproj-dev proj-data libeigen3-dev
+  libcli11-dev catch2 libtomlplusplus-dev nlohmann-json3-dev
+  libqhull-dev libtbb-dev
+  python3 python3-gdal python3-numpy
+)
+if [[ "${1:-}" == "--with-reference-tools" ]]; then
+  packages+=(r-base-core r-cran-vegan python3-statsmodels)
+fi
+
+missing=()
+for p in "${packages[@]}"; do
+  if ! dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed"; then
+    missing+=("$p")
+  fi
+done
+
+if ((${#missing[@]} == 0)); then
+  exit 0
+fi
+
+echo "habcast: installing Debian packages: ${missing[*]}" >&2
+sudo_cmd=()
+if [[ $(id -u) -ne 0 ]]; then
+  if command -v sudo >/dev/null; then sudo_cmd=(sudo); else
+    echo "habcast: need root (or sudo) to install: ${missing[*]}" >&2; exit 1
+  fi
+fi
+export DEBIAN_FRONTEND=noninteractive
+"${sudo_cmd[@]}" apt-get update -qq
+"${sudo_cmd[@]}" apt-get install -y -qq --no-install-recommends "${missing[@]}"

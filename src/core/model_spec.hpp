@@ -1,0 +1,78 @@
+#pragma once
+// The parsed, validated model file. Knows nothing of rasters; the TOML reader (model_file.hpp)
+// builds it, the term plan compiles its terms, and the pipeline reads raster paths from it.
+#include <Eigen/Core>
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <vector>
+
+namespace habcast {
+
+enum class Family { binomial, poisson, gaussian };
+enum class Link { logit, probit, cloglog, log, identity };
+
+/// Monotone transform applied to a continuous covariate's raw value before standardisation.
+enum class Transform { none, log, log1p, sqrt };
+
+/// One level of a categorical covariate: the integer code stored in rasters and training tables.
+struct Level {
+  std::int64_t code = 0;
+  std::string name;
+};
+
+struct Covariate {
+  std::string name;
+  bool categorical = false;
+  std::string units;
+  std::string description;
+  // Continuous covariates: model value = (transform(raw) - center) / scale.
+  Transform transform = Transform::none;
+  double center = 0.0;
+  double scale = 1.0;
+  // Categorical covariates: levels known to the model, and the one absorbed by the intercept.
+  std::vector<Level> levels;
+  std::string reference_level;
+  // Optional default raster (already resolved relative to the model file) and band.
+  std::optional<std::string> raster;
+  int band = 1;
+  long line = 0;  ///< line of the covariate's table in the model file, for messages
+
+  /// Index into `levels` of the level with this code, or -1 when the model never saw it.
+  [[nodiscard]] int level_index(std::int64_t code) const;
+};
+
+struct ModelSpec {
+  std::string path;  ///< the model file, as given
+  int format_version = 1;
+  std::string name;
+  std::string description;
+  std::string response;
+  Family family = Family::binomial;
+  Link link = Link::logit;
+
+  std::vector<Covariate> covariates;
+
+  // Terms in the order of `estimates` and of the covariance matrix's rows and columns.
+  std::vector<std::string> terms;
+  std::vector<long> term_lines;  ///< line of each term label, for messages
+  std::vector<double> estimates;
+  std::optional<Eigen::MatrixXd> covariance;
+
+  // Offset added to the linear predictor: a term expression (coefficient 1) or a constant.
+  std::optional<std::string> offset_term;
+  double offset_constant = 0.0;
+
+  std::optional<std::string> training_samples;  ///< resolved relative to the model file
+  long training_line = 0;
+
+  /// Index of the covariate with this name, or -1.
+  [[nodiscard]] int covariate_index(const std::string& covariate_name) const;
+  [[nodiscard]] std::size_t continuous_count() const;
+};
+
+const char* to_string(Family family);
+const char* to_string(Link link);
+const char* to_string(Transform transform);
+
+}  // namespace habcast

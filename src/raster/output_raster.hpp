@@ -1,0 +1,78 @@
+#pragma once
+// A GeoTIFF output written under a temporary name in its destination folder and renamed onto its
+// final name only by commit(). If the object is destroyed without commit() (an error, an interrupt),
+// the temporary file is deleted, so no partial output ever carries a final name.
+#include <cstdint>
+#include <memory>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "raster/raster_grid.hpp"
+#include "raster/window.hpp"
+
+namespace habcast {
+
+enum class OutputType { float32, uint8 };
+
+struct ColourEntry {
+  int value = 0;
+  std::uint8_t r = 0, g = 0, b = 0, a = 255;
+  std::string name;  ///< category name for this value (GDAL category names), may be empty
+};
+
+struct OutputBandInfo {
+  std::string description;  ///< GDAL band description, e.g. "suitability (probability of presence)"
+  std::string units;        ///< GDAL unit type, may be empty
+};
+
+struct OutputSpec {
+  std::string final_path;
+  OutputType type = OutputType::float32;
+  std::vector<OutputBandInfo> bands;  ///< one entry per band
+  double nodata = -9999.0;
+  std::vector<ColourEntry> colours;   ///< colour table + category names (band 1), uint8 only
+  std::vector<std::string> creation_options;  ///< "KEY=VALUE", applied over habcast's defaults
+  std::vector<std::pair<std::string, std::string>> metadata;  ///< dataset metadata items
+};
+
+class OutputRaster {
+ public:
+  /// Creates the temporary file next to spec.final_path on `grid` (size, geotransform, CRS).
+  /// Defaults: TILED=YES, BLOCKXSIZE=BLOCKYSIZE=256, COMPRESS=DEFLATE, PREDICTOR=3 for float32 and
+  /// 2 for uint8, BIGTIFF=IF_SAFER, NUM_THREADS=ALL_CPUS; spec.creation_options override them.
+  /// Throws IoError naming the path when creation fails, UsageError for a malformed option.
+  OutputRaster(const OutputSpec& spec, const RasterGrid& grid);
+  ~OutputRaster();
+  OutputRaster(const OutputRaster&) = delete;
+  OutputRaster& operator=(const OutputRaster&) = delete;
+
+  void write(int band, const Window& window, const float* values);
+  void write(int band, const Window& window, const std::uint8_t* values);
+
+  /// Builds internal overviews (AVERAGE for float32, NEAREST for uint8) at factors 2,4,8,...
+  /// while the smaller side stays >= 256 pixels.
+  void build_overviews();
+
+  /// Flushes and closes the dataset, checking GDALClose()'s result (write errors surface there).
+  /// After close() the file is complete but still under its temporary name.
+  void close();
+  /// Renames the closed temporary file onto final_path (atomic within a filesystem).
+  void commit();
+
+  [[nodiscard]] const std::string& temporary_path() const;
+  [[nodiscard]] const std::string& final_path() const;
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
+/// Temporary name used for `final_path`: ".<name>.<pid>.partial" in the same folder.
+std::string temporary_path_for(const std::string& final_path);
+
+/// Deletes leftover "*.partial" files in `folder` for `final_names` whose writer process is gone
+/// (after a SIGKILL). Returns how many were removed.
+int remove_stale_partials(const std::string& folder, const std::vector<std::string>& final_names);
+
+}  // namespace habcast
