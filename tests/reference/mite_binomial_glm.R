@@ -140,9 +140,11 @@ model_toml <- c(
 writeLines(model_toml, file.path(out_dir, "model.toml"))
 
 # ---- training.csv ------------------------------------------------------------------------------
-# No comment lines here: the model format reads the first line of the samples table as its header.
-# Provenance is in model.toml and tests/reference/README.md. `present` is ignored by habcast.
+# habcast skips lines starting with "#" in the samples table; `present` (the response) is an
+# extra column, which habcast ignores. Read it in R with read.csv(..., comment.char = "#").
 training_csv <- c(
+  paste("#", header_lines),
+  "# Raw WatrCont and SubsDens (g/L); Topo: 1 = Blanket, 2 = Hummock; present: 1 if count > 0.",
   "WatrCont,SubsDens,Topo,present",
   paste(fmt_exact(mite.env$WatrCont), fmt_exact(mite.env$SubsDens),
         as.integer(mite.env$Topo), y, sep = ",")
