@@ -1,0 +1,20 @@
+#pragma once
+// Link functions of the supported GLM families: the inverse link (linear predictor -> response
+// scale) and its derivative, written to be finite and exact-as-possible for any eta, including the
+// tails where the naive formulas overflow, underflow to NaN or cancel.
+#include "core/model_spec.hpp"
+
+namespace habcast {
+
+/// g^-1(eta). logit/probit/cloglog stay in [0, 1] for every finite eta; log may return +inf when
+/// exp(eta) exceeds the largest double (eta > ~709.78), never NaN.
+double link_inverse(Link link, double eta);
+
+/// d g^-1 / d eta at eta, >= 0 for every supported link; finite for every finite eta except the
+/// log link beyond overflow (+inf).
+double link_inverse_derivative(Link link, double eta);
+
+/// g(mu): the link itself, for fitting and for tests. mu must lie in the link's domain.
+double link_function(Link link, double mu);
+
+}  // namespace habcast
