@@ -1,0 +1,100 @@
+#include "core/block_predictor.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "core/extrapolation_flags.hpp"
+
+namespace habcast {
+
+void PredictionTally::merge(const PredictionTally& other) {
+  if (other.predicted > 0) {
+    min_response = predicted > 0 ? std::min(min_response, other.min_response) : other.min_response;
+    max_response = predicted > 0 ? std::max(max_response, other.max_response) : other.max_response;
+  }
+  pixels += other.pixels;
+  missing_input += other.missing_input;
+  outside_transform += other.outside_transform;
+  unknown_level += other.unknown_level;
+  undefined_term += other.undefined_term;
+  not_representable += other.not_representable;
+  predicted += other.predicted;
+  sum_response += other.sum_response;
+  domain.merge(other.domain);
+}
+
+BlockPredictor::BlockPredictor(const ModelSpec& spec, const TermPlan& plan, const Evaluator& evaluator,
+                               const TrainingDomain* domain)
+    : spec_(spec), plan_(plan), evaluator_(evaluator), domain_(domain) {}
+
+namespace {
+
+bool representable(double v) {
+  return std::isfinite(v) && std::fabs(v) <= static_cast<double>(std::numeric_limits<float>::max());
+}
+
+float to_output(double v) { return representable(v) ? static_cast<float>(v) : kFloatNodata; }
+
+}  // namespace
+
+void BlockPredictor::run(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows,
+                         BlockOutputs& out, PredictionTally& tally) {
+  const auto n = static_cast<std::size_t>(rows);
+  out.suitability.assign(n, kFloatNodata);
+  const bool with_se = evaluator_.has_covariance();
+  out.se.assign(with_se ? n : 0, kFloatNodata);
+  out.lower.assign(with_se ? n : 0, kFloatNodata);
+  out.upper.assign(with_se ? n : 0, kFloatNodata);
+  out.flags.assign(domain_ ? n : 0, flag::nodata);
+
+  predict_valid_.assign(valid.begin(), valid.begin() + static_cast<std::ptrdiff_t>(n));
+  tally.pixels += rows;
+  for (std::size_t i = 0; i < n; ++i) tally.missing_input += valid[i] ? 0 : 1;
+  if (domain_) domain_->flag(raw, rows, valid.data(), out.flags.data(), tally.domain);
+
+  raw_ = &raw;
+  for (Eigen::Index first = 0; first < rows; first += kChunk)
+    run_chunk(first, std::min(kChunk, rows - first), out, tally);
+  raw_ = nullptr;
+}
+
+void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally) {
+  std::uint8_t* ok = predict_valid_.data() + first;
+  ModelValueCounts counts;
+  to_model_values(spec_, plan_, *raw_, first, rows, values_, ok, counts);
+  tally.outside_transform += counts.outside_transform;
+  tally.unknown_level += counts.unknown_level;
+
+  tally.undefined_term += plan_.fill(values_, rows, X_, ok);
+  plan_.fill_offset(values_, rows, offset_, ok);
+  evaluator_.evaluate(X_, rows, offset_, prediction_);
+
+  const bool with_se = evaluator_.has_covariance();
+  for (Eigen::Index i = 0; i < rows; ++i) {
+    if (!ok[i]) continue;
+    const auto o = static_cast<std::size_t>(first + i);
+    const double mu = prediction_.mu[i];
+    if (!representable(mu)) {
+      ++tally.not_representable;
+      continue;
+    }
+    out.suitability[o] = static_cast<float>(mu);
+    if (tally.predicted == 0) {
+      tally.min_response = mu;
+      tally.max_response = mu;
+    } else {
+      tally.min_response = std::min(tally.min_response, mu);
+      tally.max_response = std::max(tally.max_response, mu);
+    }
+    ++tally.predicted;
+    tally.sum_response += mu;
+    if (with_se) {
+      out.se[o] = to_output(prediction_.se_mu[i]);
+      out.lower[o] = to_output(prediction_.lower[i]);
+      out.upper[o] = to_output(prediction_.upper[i]);
+    }
+  }
+}
+
+}  // namespace habcast

@@ -1,0 +1,35 @@
+#pragma once
+// Bit flags of extrapolation.tif. Each bit is one reason a pixel lies outside what the model saw in
+// training; a pixel may carry several. Documented in docs/extrapolation-flags.md.
+#include <cstdint>
+#include <string>
+#include <vector>
+
+namespace habcast {
+
+namespace flag {
+constexpr std::uint8_t outside_range = 1;       ///< a continuous covariate beyond its training min/max
+constexpr std::uint8_t outside_hull = 2;        ///< reserved: outside the convex hull of training points
+constexpr std::uint8_t unseen_level = 4;        ///< a categorical level absent from the training samples
+constexpr std::uint8_t novel_combination = 8;   ///< reserved: in range, but a combination never seen
+constexpr std::uint8_t nodata = 255;            ///< some covariate has no data here
+constexpr int cause_count = 4;
+}  // namespace flag
+
+/// Short name of flag bit `bit` (0..3), as used in reports: "outside_range", ...
+const char* flag_name(int bit);
+
+/// A plain-language description of a flag value (0..15), e.g. "outside range + unseen level".
+std::string flag_label(std::uint8_t value);
+
+struct FlagColour {
+  int value;
+  std::uint8_t r, g, b, a;
+  std::string label;
+};
+
+/// Colour and category name for every value 0..15 plus nodata (255): 0 is transparent-ish grey
+/// ("within training domain"), range extrapolation warm, level problems purple, combinations blue.
+std::vector<FlagColour> flag_colour_table();
+
+}  // namespace habcast

@@ -1,0 +1,94 @@
+#include "core/training_domain.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "core/error.hpp"
+#include "core/extrapolation_flags.hpp"
+
+namespace habcast {
+
+void DomainTally::merge(const DomainTally& other) {
+  if (below.size() < other.below.size()) {
+    below.resize(other.below.size());
+    above.resize(other.above.size());
+    unseen.resize(other.unseen.size());
+    unseen_codes.resize(other.unseen_codes.size());
+  }
+  for (std::size_t c = 0; c < other.below.size(); ++c) {
+    below[c] += other.below[c];
+    above[c] += other.above[c];
+    unseen[c] += other.unseen[c];
+    for (const auto& [code, n] : other.unseen_codes[c]) unseen_codes[c][code] += n;
+  }
+  for (int b = 0; b < 4; ++b) cause[b] += other.cause[b];
+  flagged += other.flagged;
+  checked += other.checked;
+}
+
+TrainingDomain::TrainingDomain(const ModelSpec& spec, const TrainingSamples& samples)
+    : spec_(spec), ranges_(spec.covariates.size()), seen_(spec.covariates.size()), samples_(samples.raw.rows()) {
+  for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
+    const auto col = samples.raw.col(static_cast<Eigen::Index>(c));
+    CovariateRange r{std::numeric_limits<double>::infinity(), -std::numeric_limits<double>::infinity(), 0};
+    for (Eigen::Index i = 0; i < col.size(); ++i) {
+      const double v = col[i];
+      if (std::isnan(v)) continue;
+      r.min = std::min(r.min, v);
+      r.max = std::max(r.max, v);
+      ++r.samples;
+      if (spec.covariates[c].categorical) seen_[c].push_back(static_cast<std::int64_t>(v));
+    }
+    if (r.samples == 0)
+      throw InputError(located(samples.path, 0, "no sample records covariate \"" + spec.covariates[c].name +
+                                                    "\"; its training range is unknown"));
+    ranges_[c] = r;
+    std::sort(seen_[c].begin(), seen_[c].end());
+    seen_[c].erase(std::unique(seen_[c].begin(), seen_[c].end()), seen_[c].end());
+  }
+}
+
+void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid,
+                          std::uint8_t* flags, DomainTally& tally) const {
+  for (Eigen::Index r = 0; r < rows; ++r) flags[r] = valid[r] ? 0 : flag::nodata;
+  for (std::size_t c = 0; c < spec_.covariates.size(); ++c) {
+    const double* v = raw.col(static_cast<Eigen::Index>(c)).data();
+    if (spec_.covariates[c].categorical) {
+      const std::vector<std::int64_t>& seen = seen_[c];
+      for (Eigen::Index r = 0; r < rows; ++r) {
+        if (!valid[r]) continue;
+        const double code = v[r];
+        const bool known = code == std::floor(code) && std::binary_search(seen.begin(), seen.end(), static_cast<std::int64_t>(code));
+        if (!known) {
+          flags[r] |= flag::unseen_level;
+          ++tally.unseen[c];
+          ++tally.unseen_codes[c][static_cast<std::int64_t>(std::floor(code))];
+        }
+      }
+    } else {
+      const double lo = ranges_[c].min;
+      const double hi = ranges_[c].max;
+      for (Eigen::Index r = 0; r < rows; ++r) {
+        if (!valid[r]) continue;
+        if (v[r] < lo) {
+          flags[r] |= flag::outside_range;
+          ++tally.below[c];
+        } else if (v[r] > hi) {
+          flags[r] |= flag::outside_range;
+          ++tally.above[c];
+        }
+      }
+    }
+  }
+  for (Eigen::Index r = 0; r < rows; ++r) {
+    if (!valid[r]) continue;
+    ++tally.checked;
+    const std::uint8_t f = flags[r];
+    if (f) ++tally.flagged;
+    for (int b = 0; b < flag::cause_count; ++b)
+      if (f & (1u << b)) ++tally.cause[b];
+  }
+}
+
+}  // namespace habcast
