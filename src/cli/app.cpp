@@ -1,0 +1,75 @@
+#include "cli/app.hpp"
+
+#include <CLI/CLI.hpp>
+#include <algorithm>
+#include <exception>
+#include <ostream>
+
+#include "cli/commands.hpp"
+#include "core/error.hpp"
+
+namespace habcast::cli {
+
+namespace {
+
+constexpr const char* kAbout =
+    "habcast turns a fitted habitat or niche model (a GLM written as a plain-text model file)\n"
+    "into maps of a whole region: suitability, its uncertainty, and where the map extrapolates\n"
+    "beyond the conditions the model was trained on.\n\n"
+    "Start with:  habcast predict --help\n"
+    "Model file:  docs/model-format.md      Exit codes: docs/exit-codes.md";
+
+}  // namespace
+
+int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err) {
+  CLI::App app{kAbout, "habcast"};
+  app.set_version_flag("--version", std::string("habcast ") + HABCAST_VERSION);
+  app.require_subcommand(1);
+  app.fallthrough(false);
+
+  CommandRegistry registry;
+  register_commands(app, registry);
+
+  // CLI11 parses argv in reverse order of a vector.
+  std::vector<std::string> reversed(args.rbegin(), args.rend());
+  try {
+    app.parse(reversed);
+  } catch (const CLI::CallForHelp&) {
+    out << app.help();
+    return 0;
+  } catch (const CLI::CallForAllHelp&) {
+    out << app.help("", CLI::AppFormatMode::All);
+    return 0;
+  } catch (const CLI::CallForVersion&) {
+    out << "habcast " << HABCAST_VERSION << "\n";
+    return 0;
+  } catch (const CLI::ParseError& e) {
+    // Help requested on a subcommand arrives here too (as a CallForHelp raised from it).
+    if (e.get_exit_code() == 0) {
+      for (const CLI::App* sub : app.get_subcommands()) {
+        out << sub->help();
+        return 0;
+      }
+      out << app.help();
+      return 0;
+    }
+    err << "habcast: " << e.what() << "\n";
+    err << "Run 'habcast --help' or 'habcast COMMAND --help' for usage.\n";
+    return static_cast<int>(ExitCode::usage);
+  }
+
+  try {
+    return registry.run_selected(app, out, err);
+  } catch (const Error& e) {
+    err << "habcast: error: " << e.what() << "\n";
+    return static_cast<int>(e.code());
+  } catch (const std::bad_alloc&) {
+    err << "habcast: error: out of memory; try fewer --threads or a smaller --block-size\n";
+    return static_cast<int>(ExitCode::io);
+  } catch (const std::exception& e) {
+    err << "habcast: internal error: " << e.what() << "\nThis is a bug in habcast; please report it.\n";
+    return static_cast<int>(ExitCode::internal);
+  }
+}
+
+}  // namespace habcast::cli

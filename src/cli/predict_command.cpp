@@ -1,0 +1,119 @@
+// `habcast predict`: options -> PredictOptions -> run_predict -> summary on stdout.
+#include <unistd.h>
+
+#include <iostream>
+#include <memory>
+
+#include "cli/commands.hpp"
+#include "core/error.hpp"
+#include "pipeline/predict_run.hpp"
+#include "pipeline/prediction_report.hpp"
+#include "pipeline/stop_signal.hpp"
+
+namespace habcast::cli {
+
+namespace {
+
+constexpr const char* kPredictHelp =
+    "Apply a fitted model to covariate rasters and write, into the output folder:\n"
+    "  suitability.tif    Float32, the prediction on the response scale (probability, count, ...)\n"
+    "  uncertainty.tif    Float32, 3 bands: standard error, lower and upper confidence limit\n"
+    "                     (delta method from the model's covariance; limits formed on the link scale)\n"
+    "  extrapolation.tif  UInt8 flags: 1 = a covariate outside its training range,\n"
+    "                     4 = a category not seen in training, 255 = no data (legend included)\n"
+    "  report.json        counts, shares of extrapolated pixels per covariate, warnings, timing\n"
+    "All covariate rasters must share one grid (size, geotransform, CRS). A pixel where any covariate\n"
+    "is nodata is nodata in every output. Outputs appear only when complete; an interrupted run\n"
+    "leaves nothing behind.\n\n"
+    "Example:\n"
+    "  habcast predict sample-rasters/demo-model.toml -o out/\n"
+    "  habcast predict model.toml -c tmin=tmin_2050.tif -c precip=precip_2050.tif -o out-2050/ \\\n"
+    "      --max-extrapolated 10 --co COMPRESS=ZSTD --overviews\n\n"
+    "Exit codes: 0 ok, 2 usage, 3 bad input, 4 read/write failure,\n"
+    "            5 outputs written but more extrapolation than --max-extrapolated, 130/143 interrupted.";
+
+struct PredictArgs {
+  PredictOptions options;
+  std::vector<std::string> covariates;
+  std::string log_format = "text";
+  bool quiet = false;
+  double max_extrapolated = -1.0;
+};
+
+void parse_covariate_args(PredictArgs& args) {
+  for (const std::string& item : args.covariates) {
+    const auto eq = item.find('=');
+    if (eq == std::string::npos || eq == 0 || eq + 1 == item.size())
+      throw UsageError("-c expects NAME=FILE (for example -c tmin=tmin.tif), got \"" + item + "\"");
+    const std::string name = item.substr(0, eq);
+    if (!args.options.covariate_rasters.emplace(name, item.substr(eq + 1)).second)
+      throw UsageError("-c " + name + "=... is given twice");
+  }
+}
+
+int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err) {
+  parse_covariate_args(args);
+  if (args.max_extrapolated >= 0.0) args.options.max_extrapolated_percent = args.max_extrapolated;
+  if (args.log_format == "json") args.options.progress = ProgressStyle::json;
+  else if (args.quiet) args.options.progress = ProgressStyle::quiet;
+  const bool terminal = &err == &std::cerr && isatty(STDERR_FILENO) != 0;
+  std::unique_ptr<Progress> progress = make_progress(args.options.progress, err, terminal);
+
+  StopSignalGuard guard;
+  const PredictSummary summary = run_predict(args.options, *progress, HABCAST_VERSION);
+  for (const std::string& w : summary.warnings) progress->message("warning", w);
+
+  if (args.log_format == "json") {
+    out << summary.report.dump() << "\n";
+  } else if (!args.quiet) {
+    const auto& px = summary.report["pixels"];
+    out << "Predicted " << px["predicted"].get<long long>() << " of " << px["total"].get<long long>() << " pixels";
+    if (summary.report.contains("response"))
+      out << "; response mean " << format_value(summary.report["response"]["mean"].get<double>()) << ", range "
+          << format_value(summary.report["response"]["min"].get<double>()) << " to "
+          << format_value(summary.report["response"]["max"].get<double>());
+    out << ".\n";
+    if (!summary.report["extrapolation"].is_null())
+      out << "Extrapolated: " << format_percent(summary.report["extrapolation"]["flagged_share"].get<double>())
+          << " of valid pixels (see extrapolation.tif).\n";
+    out << "Outputs:\n";
+    for (const std::string& p : summary.outputs) out << "  " << p << "\n";
+  }
+  return static_cast<int>(summary.exit_code);
+}
+
+}  // namespace
+
+void register_predict(CLI::App& app, CommandRegistry& registry) {
+  auto args = std::make_shared<PredictArgs>();
+  CLI::App* cmd = app.add_subcommand("predict", "Map a fitted model over covariate rasters");
+  cmd->footer(kPredictHelp);
+  cmd->add_option("model", args->options.model_path, "Model file (TOML; see docs/model-format.md)")
+      ->required()
+      ->check(CLI::ExistingFile);
+  cmd->add_option("-c,--covariate", args->covariates,
+                  "NAME=FILE: raster for a covariate (repeatable). Overrides the model file's raster;\n"
+                  "covariates not given here are read from the raster the model file names");
+  cmd->add_option("-o,--output", args->options.output_dir, "Output folder (created if missing)")->required();
+  cmd->add_option("--level", args->options.level, "Confidence level of the limits")->default_val(0.95);
+  cmd->add_option("--threads", args->options.threads, "Worker threads (0 = all cores)")->default_val(0)->check(CLI::NonNegativeNumber);
+  cmd->add_option("--block-size", args->options.block_size,
+                  "Edge of a processing window in pixels; memory grows with its square times threads")
+      ->default_val(512);
+  cmd->add_option("--co", args->options.creation_options,
+                  "GDAL GeoTIFF creation option KEY=VALUE (repeatable), e.g. --co COMPRESS=ZSTD;\n"
+                  "defaults: TILED=YES, 256x256 blocks, DEFLATE with predictor, BIGTIFF=IF_SAFER");
+  cmd->add_flag("--overviews", args->options.overviews, "Build internal overviews for fast display");
+  cmd->add_flag("--overwrite", args->options.overwrite, "Replace existing outputs in the output folder");
+  cmd->add_option("--max-extrapolated", args->max_extrapolated,
+                  "PERCENT: exit with code 5 when more than this share of valid pixels is extrapolated\n"
+                  "(outputs are still written); for pipelines that must stop before management use")
+      ->check(CLI::Range(0.0, 100.0));
+  cmd->add_flag("-q,--quiet", args->quiet, "No progress bar and no summary; warnings still go to stderr");
+  cmd->add_option("--log-format", args->log_format,
+                  "text (default) or json: JSON lines of progress and warnings on stderr, report on stdout")
+      ->check(CLI::IsMember({"text", "json"}));
+  registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_predict_command(*args, out, err); });
+}
+
+}  // namespace habcast::cli

@@ -1,0 +1,34 @@
+#include "pipeline/atomic_file.hpp"
+
+#include <filesystem>
+#include <fstream>
+#include <system_error>
+
+#include "core/error.hpp"
+#include "raster/output_raster.hpp"
+
+namespace habcast {
+
+void write_file_atomically(const std::string& path, const std::string& content) {
+  const std::string temporary = temporary_path_for(path);
+  {
+    std::ofstream out(temporary, std::ios::binary | std::ios::trunc);
+    if (!out) throw IoError(path + ": cannot create " + temporary + "; check that the folder exists and is writable");
+    out << content;
+    out.flush();
+    if (!out) {
+      std::error_code ignored;
+      std::filesystem::remove(temporary, ignored);
+      throw IoError(path + ": writing failed (disk full?)");
+    }
+  }
+  std::error_code ec;
+  std::filesystem::rename(temporary, path, ec);
+  if (ec) {
+    std::error_code ignored;
+    std::filesystem::remove(temporary, ignored);
+    throw IoError(path + ": cannot rename the finished file into place: " + ec.message());
+  }
+}
+
+}  // namespace habcast

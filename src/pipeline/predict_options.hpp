@@ -1,0 +1,27 @@
+#pragma once
+// Everything `habcast predict` needs, independent of how the command line spelled it.
+#include <map>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "pipeline/progress.hpp"
+
+namespace habcast {
+
+struct PredictOptions {
+  std::string model_path;
+  std::map<std::string, std::string> covariate_rasters;  ///< NAME -> FILE, overriding the model file
+  std::string output_dir;
+  double level = 0.95;                ///< confidence level of the limits
+  int threads = 0;                    ///< 0: all cores
+  int block_size = 512;               ///< processing window edge, pixels (rounded to raster blocks)
+  std::vector<std::string> creation_options;  ///< GDAL GTiff creation options KEY=VALUE
+  bool overviews = false;
+  bool overwrite = false;
+  std::optional<double> max_extrapolated_percent;  ///< exit code 5 above this share of valid pixels
+  ProgressStyle progress = ProgressStyle::automatic;
+  long long gdal_cache_bytes = 256LL << 20;
+};
+
+}  // namespace habcast

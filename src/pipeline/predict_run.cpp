@@ -1,0 +1,348 @@
+#include "pipeline/predict_run.hpp"
+
+#include <algorithm>
+#include <chrono>
+#include <ctime>
+#include <filesystem>
+#include <memory>
+#include <optional>
+#include <thread>
+
+#include "core/block_predictor.hpp"
+#include "core/evaluator.hpp"
+#include "core/extrapolation_flags.hpp"
+#include "core/model_file.hpp"
+#include "core/term_plan.hpp"
+#include "core/training_domain.hpp"
+#include "core/training_samples.hpp"
+#include "pipeline/atomic_file.hpp"
+#include "pipeline/ordered_parallel.hpp"
+#include "pipeline/prediction_report.hpp"
+#include "pipeline/stop_signal.hpp"
+#include "raster/covariate_reader.hpp"
+#include "raster/gdal_session.hpp"
+#include "raster/output_raster.hpp"
+#include "raster/raster_grid.hpp"
+#include "raster/window.hpp"
+
+namespace habcast {
+
+namespace {
+
+namespace fs = std::filesystem;
+
+constexpr const char* kCaution =
+    "Model output, not ground truth. Check extrapolation.tif and uncertainty.tif, verify in the field, and follow "
+    "local regulations and licensed practice before acting on this map.";
+
+std::string utc_now() {
+  const std::time_t now = std::time(nullptr);
+  std::tm tm{};
+  gmtime_r(&now, &tm);
+  char buf[32];
+  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", &tm);
+  return buf;
+}
+
+std::string covariate_list(const ModelSpec& spec) {
+  std::string s;
+  for (const Covariate& c : spec.covariates) s += (s.empty() ? "" : ", ") + c.name;
+  return s;
+}
+
+/// Which raster each covariate is read from: the -c override, else the model file's default.
+std::vector<CovariateInput> resolve_inputs(const ModelSpec& spec, const PredictOptions& options) {
+  for (const auto& [name, path] : options.covariate_rasters) {
+    (void)path;
+    if (spec.covariate_index(name) < 0)
+      throw UsageError("-c " + name + "=...: the model has no covariate \"" + name + "\"; its covariates are " +
+                       covariate_list(spec));
+  }
+  std::vector<CovariateInput> inputs;
+  for (const Covariate& c : spec.covariates) {
+    CovariateInput in{c.name, "", c.band};
+    if (auto it = options.covariate_rasters.find(c.name); it != options.covariate_rasters.end()) in.path = it->second;
+    else if (c.raster) in.path = *c.raster;
+    else
+      throw UsageError("covariate \"" + c.name + "\" has no raster: pass -c " + c.name + "=FILE.tif, or set raster = " +
+                       "\"FILE.tif\" in [covariates." + c.name + "] of " + spec.path);
+    inputs.push_back(in);
+  }
+  return inputs;
+}
+
+RasterGrid check_inputs_co_registered(const std::vector<CovariateInput>& inputs) {
+  const RasterGrid reference = read_grid(inputs.front().path, inputs.front().band);
+  for (std::size_t i = 1; i < inputs.size(); ++i)
+    check_same_grid(inputs.front().path, reference, inputs[i].path, read_grid(inputs[i].path, inputs[i].band));
+  return reference;
+}
+
+/// Processing windows: about block_size x block_size pixels, in whole blocks of the input's tiling
+/// (whole rows for striped files), so each input block is decoded once.
+std::vector<Window> processing_windows(const RasterGrid& grid, int block_size) {
+  const int bw = std::max(1, std::min(grid.block_width, grid.width));
+  const int bh = std::max(1, std::min(grid.block_height, grid.height));
+  const long long target = static_cast<long long>(block_size) * block_size;
+  int win_w = bw >= grid.width ? grid.width : std::max(bw, (std::min(block_size, grid.width) / bw) * bw);
+  long long rows = std::max<long long>(1, target / win_w);
+  int win_h = static_cast<int>(std::max<long long>(bh, (rows / bh) * bh));
+  win_h = std::min(win_h, grid.height);
+  return block_windows(grid.width, grid.height, win_w, win_h);
+}
+
+std::string response_description(const ModelSpec& spec) {
+  const std::string of = spec.response.empty() ? "" : " of " + spec.response;
+  switch (spec.family) {
+    case Family::binomial: return "predicted probability" + of;
+    case Family::poisson: return "predicted expected count" + of;
+    case Family::gaussian: return "predicted mean" + of;
+  }
+  return "prediction";
+}
+
+std::string percent_label(double level) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%g%%", level * 100.0);
+  return buf;
+}
+
+std::vector<std::pair<std::string, std::string>> common_metadata(const ModelSpec& spec, const std::string& version) {
+  return {{"HABCAST_VERSION", version},
+          {"HABCAST_MODEL", spec.path},
+          {"HABCAST_MODEL_NAME", spec.name},
+          {"HABCAST_FAMILY", to_string(spec.family)},
+          {"HABCAST_LINK", to_string(spec.link)},
+          {"HABCAST_CAUTION", kCaution}};
+}
+
+/// Per-worker state: its own GDAL handles (they are not thread-safe) and scratch buffers.
+struct Worker {
+  std::vector<CovariateReader> readers;
+  Evaluator evaluator;
+  BlockPredictor predictor;
+  Eigen::ArrayXXd raw;
+  std::vector<std::uint8_t> valid;
+
+  Worker(const std::vector<CovariateInput>& inputs, const ModelSpec& spec, const TermPlan& plan, double level,
+         const TrainingDomain* domain)
+      : evaluator(spec, level), predictor(spec, plan, evaluator, domain) {
+    for (const CovariateInput& in : inputs) readers.emplace_back(in.path, in.band);
+  }
+  Worker(const Worker&) = delete;
+  Worker& operator=(const Worker&) = delete;
+};
+
+struct BlockResult {
+  BlockOutputs outputs;
+  PredictionTally tally;
+};
+
+struct Outputs {
+  std::unique_ptr<OutputRaster> suitability;
+  std::unique_ptr<OutputRaster> uncertainty;
+  std::unique_ptr<OutputRaster> extrapolation;
+  std::string report_path;
+
+  std::vector<OutputRaster*> all() {
+    std::vector<OutputRaster*> v;
+    for (auto* p : {suitability.get(), uncertainty.get(), extrapolation.get()})
+      if (p) v.push_back(p);
+    return v;
+  }
+};
+
+void refuse_to_clobber(const std::vector<std::string>& paths, bool overwrite) {
+  if (overwrite) return;
+  for (const std::string& p : paths)
+    if (fs::exists(p))
+      throw UsageError(p + " already exists; pass --overwrite to replace it (the old file is kept until the new "
+                           "one is complete), or choose another output folder with -o");
+}
+
+Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, const RasterGrid& grid, bool with_se,
+                       bool with_flags, const std::string& version) {
+  const fs::path dir(options.output_dir);
+  Outputs out;
+  const std::string suitability_path = (dir / "suitability.tif").string();
+  const std::string uncertainty_path = (dir / "uncertainty.tif").string();
+  const std::string extrapolation_path = (dir / "extrapolation.tif").string();
+  out.report_path = (dir / "report.json").string();
+
+  std::vector<std::string> finals{suitability_path, out.report_path};
+  if (with_se) finals.push_back(uncertainty_path);
+  if (with_flags) finals.push_back(extrapolation_path);
+  refuse_to_clobber(finals, options.overwrite);
+  std::vector<std::string> names;
+  for (const std::string& f : finals) names.push_back(fs::path(f).filename().string());
+  remove_stale_partials(dir.string(), names);
+
+  const auto metadata = common_metadata(spec, version);
+  const std::string units = spec.family == Family::binomial ? "probability" : spec.response;
+
+  OutputSpec s;
+  s.final_path = suitability_path;
+  s.type = OutputType::float32;
+  s.nodata = kFloatNodata;
+  s.bands = {{response_description(spec), units}};
+  s.creation_options = options.creation_options;
+  s.metadata = metadata;
+  out.suitability = std::make_unique<OutputRaster>(s, grid);
+
+  if (with_se) {
+    OutputSpec u = s;
+    u.final_path = uncertainty_path;
+    const std::string pct = percent_label(options.level);
+    u.bands = {{"standard error (response scale, delta method)", units},
+               {"lower " + pct + " confidence limit", units},
+               {"upper " + pct + " confidence limit", units}};
+    u.metadata.emplace_back("HABCAST_CONFIDENCE_LEVEL", format_value(options.level));
+    u.metadata.emplace_back("HABCAST_LIMITS", "formed on the link scale as eta -/+ z*se(eta), then back-transformed");
+    out.uncertainty = std::make_unique<OutputRaster>(u, grid);
+  }
+  if (with_flags) {
+    OutputSpec e;
+    e.final_path = extrapolation_path;
+    e.type = OutputType::uint8;
+    e.nodata = flag::nodata;
+    e.bands = {{"extrapolation flags (bit field; see category names)", ""}};
+    e.creation_options = options.creation_options;
+    e.metadata = metadata;
+    e.metadata.emplace_back("HABCAST_FLAG_BITS",
+                            "1=outside training range of a covariate; 2=outside training hull (not checked by this "
+                            "version); 4=categorical level not seen in training; 8=novel combination (not checked "
+                            "by this version); 255=no data");
+    for (const FlagColour& c : flag_colour_table()) e.colours.push_back({c.value, c.r, c.g, c.b, c.a, c.label});
+    out.extrapolation = std::make_unique<OutputRaster>(e, grid);
+  }
+  return out;
+}
+
+void write_block(Outputs& out, const Window& w, const BlockOutputs& b) {
+  out.suitability->write(1, w, b.suitability.data());
+  if (out.uncertainty) {
+    out.uncertainty->write(1, w, b.se.data());
+    out.uncertainty->write(2, w, b.lower.data());
+    out.uncertainty->write(3, w, b.upper.data());
+  }
+  if (out.extrapolation) out.extrapolation->write(1, w, b.flags.data());
+}
+
+}  // namespace
+
+PredictSummary run_predict(const PredictOptions& options, Progress& progress, const std::string& tool_version) {
+  const auto t0 = std::chrono::steady_clock::now();
+  const std::string started = utc_now();
+  if (!(options.level > 0.0 && options.level < 1.0))
+    throw UsageError("--level must lie strictly between 0 and 1 (for example 0.95), got " + format_value(options.level));
+  if (options.block_size < 16 || options.block_size > 16384)
+    throw UsageError("--block-size must be between 16 and 16384 pixels");
+  if (options.max_extrapolated_percent && !(*options.max_extrapolated_percent >= 0.0 && *options.max_extrapolated_percent <= 100.0))
+    throw UsageError("--max-extrapolated is a percentage from 0 to 100");
+  ensure_gdal();
+  set_gdal_cache(options.gdal_cache_bytes);
+
+  // Everything that can be wrong with the inputs is found before any output is created.
+  const ModelSpec spec = read_model_file(options.model_path);
+  const TermPlan plan(spec);
+  const std::vector<CovariateInput> inputs = resolve_inputs(spec, options);
+  const RasterGrid grid = check_inputs_co_registered(inputs);
+  std::optional<TrainingSamples> samples;
+  std::optional<TrainingDomain> domain;
+  if (spec.training_samples) {
+    samples = read_training_samples(spec);
+    domain.emplace(spec, *samples);
+  }
+  if (options.max_extrapolated_percent && !domain)
+    throw InputError(located(spec.path, 0, "--max-extrapolated needs training samples: add [training] samples = \"FILE.csv\""));
+
+  const int threads = options.threads > 0 ? options.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+  std::vector<std::unique_ptr<Worker>> workers;
+  for (int t = 0; t < threads; ++t)
+    workers.push_back(std::make_unique<Worker>(inputs, spec, plan, options.level, domain ? &*domain : nullptr));
+
+  std::error_code ec;
+  fs::create_directories(options.output_dir, ec);
+  if (ec || !fs::is_directory(options.output_dir))
+    throw IoError(options.output_dir + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
+  Outputs out = create_outputs(options, spec, grid, spec.covariance.has_value(), domain.has_value(), tool_version);
+
+  const std::vector<Window> windows = processing_windows(grid, options.block_size);
+  const std::size_t k = spec.covariates.size();
+  PredictionTally total(k);
+  progress.start("predict", static_cast<std::int64_t>(windows.size()));
+
+  run_ordered<BlockResult>(
+      windows.size(), threads, 2 * static_cast<std::size_t>(threads),
+      [&](std::size_t item, int worker_index) {
+        Worker& worker = *workers[static_cast<std::size_t>(worker_index)];
+        const Window& w = windows[item];
+        const Eigen::Index n = static_cast<Eigen::Index>(w.pixels());
+        worker.raw.resize(n, static_cast<Eigen::Index>(k));
+        worker.valid.assign(static_cast<std::size_t>(n), 1);
+        for (std::size_t c = 0; c < k; ++c)
+          worker.readers[c].read(w, worker.raw.col(static_cast<Eigen::Index>(c)).data(), worker.valid.data());
+        BlockResult result{{}, PredictionTally(k)};
+        worker.predictor.run(worker.raw, worker.valid, n, result.outputs, result.tally);
+        return result;
+      },
+      [&](std::size_t item, BlockResult& result) {
+        write_block(out, windows[item], result.outputs);
+        total.merge(result.tally);
+        progress.advance(static_cast<std::int64_t>(item + 1));
+      },
+      [] { return stop_signal() != 0; });
+  throw_if_stopped();
+  progress.finish();
+
+  for (OutputRaster* r : out.all()) {
+    if (options.overviews) r->build_overviews();
+    throw_if_stopped();
+    r->close();
+  }
+  // Rename only when every raster is complete, so a run leaves all its outputs or none.
+  for (OutputRaster* r : out.all()) r->commit();
+
+  ReportContext ctx;
+  ctx.tool_version = tool_version;
+  ctx.spec = &spec;
+  ctx.domain = domain ? &*domain : nullptr;
+  ctx.inputs = inputs;
+  ctx.grid = grid;
+  ctx.level = options.level;
+  ctx.threads = threads;
+  for (OutputRaster* r : out.all()) {
+    const std::string role = fs::path(r->final_path()).stem().string();
+    ctx.outputs.emplace_back(role, r->final_path());
+  }
+  ctx.outputs.emplace_back("report", out.report_path);
+  ctx.tally = &total;
+  ctx.started_utc = started;
+  ctx.elapsed_seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+
+  PredictSummary summary;
+  summary.warnings = prediction_warnings(ctx);
+  summary.report = prediction_report(ctx, summary.warnings);
+  if (options.max_extrapolated_percent && domain) {
+    const double pct = total.domain.checked > 0 ? 100.0 * static_cast<double>(total.domain.flagged) /
+                                                      static_cast<double>(total.domain.checked)
+                                                : 0.0;
+    summary.report["max_extrapolated_percent"] = *options.max_extrapolated_percent;
+    if (pct > *options.max_extrapolated_percent) {
+      summary.exit_code = ExitCode::extrapolation;
+      summary.warnings.push_back(format_value(pct) + " % of valid pixels are extrapolated, more than --max-extrapolated " +
+                                 format_value(*options.max_extrapolated_percent) +
+                                 " %; outputs were written but the run reports failure (exit code 5).");
+      summary.report["warnings"] = summary.warnings;
+    }
+  }
+  summary.report["exit_code"] = static_cast<int>(summary.exit_code);
+  write_file_atomically(out.report_path, summary.report.dump(2) + "\n");
+  for (const auto& [role, path] : ctx.outputs) {
+    (void)role;
+    summary.outputs.push_back(path);
+  }
+  return summary;
+}
+
+}  // namespace habcast

@@ -1,0 +1,225 @@
+#include "pipeline/prediction_report.hpp"
+
+#include <cmath>
+#include <cstdio>
+#include <sstream>
+
+#include "core/extrapolation_flags.hpp"
+
+namespace habcast {
+
+std::string format_percent(double share) {
+  const double pct = share * 100.0;
+  if (pct > 0.0 && pct < 0.05) return "< 0.1 %";
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%.1f %%", pct);
+  return buf;
+}
+
+std::string format_value(double value) {
+  char buf[64];
+  std::snprintf(buf, sizeof buf, "%.4g", value);
+  return buf;
+}
+
+namespace {
+
+double share(std::int64_t part, std::int64_t whole) {
+  return whole > 0 ? static_cast<double>(part) / static_cast<double>(whole) : 0.0;
+}
+
+std::string with_units(double value, const std::string& units) {
+  return units.empty() ? format_value(value) : format_value(value) + " " + units;
+}
+
+std::string level_name(const Covariate& c, std::int64_t code) {
+  const int i = c.level_index(code);
+  return i >= 0 ? c.levels[static_cast<std::size_t>(i)].name + " (code " + std::to_string(code) + ")"
+                : "code " + std::to_string(code) + " (not a level of the model)";
+}
+
+void range_warnings(const ReportContext& ctx, std::vector<std::string>& out) {
+  const ModelSpec& spec = *ctx.spec;
+  const DomainTally& d = ctx.tally->domain;
+  for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
+    const Covariate& cov = spec.covariates[c];
+    const CovariateRange& r = ctx.domain->range(c);
+    if (!cov.categorical && (d.below[c] > 0 || d.above[c] > 0)) {
+      std::string sides;
+      if (d.below[c] > 0)
+        sides += format_percent(share(d.below[c], d.checked)) + " below " + with_units(r.min, cov.units);
+      if (d.above[c] > 0)
+        sides += std::string(sides.empty() ? "" : ", ") + format_percent(share(d.above[c], d.checked)) + " above " +
+                 with_units(r.max, cov.units);
+      out.push_back(format_percent(share(d.below[c] + d.above[c], d.checked)) +
+                    " of valid pixels lie outside the training range of " + cov.name + " (" + sides +
+                    "); predictions there extrapolate the fitted curve and may be badly wrong.");
+    }
+    if (cov.categorical && d.unseen[c] > 0) {
+      std::string codes;
+      for (const auto& [code, n] : d.unseen_codes[c]) {
+        (void)n;
+        codes += (codes.empty() ? "" : ", ") + level_name(cov, code);
+      }
+      out.push_back(format_percent(share(d.unseen[c], d.checked)) + " of valid pixels have a " + cov.name +
+                    " class absent from the training samples: " + codes +
+                    ". Classes the model does not declare get no prediction (nodata); declared but unsampled "
+                    "classes are predicted from their coefficients alone.");
+    }
+  }
+  if (d.flagged > 0)
+    out.push_back("In all, " + format_percent(share(d.flagged, d.checked)) +
+                  " of valid pixels are flagged in extrapolation.tif. Do not base decisions on the map there "
+                  "without field checks.");
+}
+
+}  // namespace
+
+std::vector<std::string> prediction_warnings(const ReportContext& ctx) {
+  std::vector<std::string> out;
+  const PredictionTally& t = *ctx.tally;
+  if (!ctx.spec->covariance)
+    out.push_back("The model file has no covariance matrix, so no uncertainty.tif was written; the map shows "
+                  "point predictions without any measure of their precision.");
+  if (!ctx.domain)
+    out.push_back("The model file names no training samples ([training] samples), so extrapolation was not "
+                  "checked and no extrapolation.tif was written. The map may extrapolate anywhere.");
+  else
+    range_warnings(ctx, out);
+  const std::int64_t with_data = t.pixels - t.missing_input;
+  const std::int64_t unpredicted = with_data - t.predicted;
+  if (unpredicted > 0) {
+    std::ostringstream os;
+    os << format_percent(share(unpredicted, with_data)) << " of pixels with data got no prediction (";
+    std::string parts;
+    auto add = [&](std::int64_t n, const char* why) {
+      if (n > 0) parts += (parts.empty() ? "" : ", ") + std::to_string(n) + " " + why;
+    };
+    add(t.unknown_level, "with a class the model does not declare");
+    add(t.outside_transform, "outside a covariate transform's domain");
+    add(t.undefined_term, "where a term is undefined");
+    add(t.not_representable, "with a response too large for Float32");
+    os << parts << ").";
+    out.push_back(os.str());
+  }
+  return out;
+}
+
+nlohmann::ordered_json prediction_report(const ReportContext& ctx, const std::vector<std::string>& warnings) {
+  using json = nlohmann::ordered_json;
+  const ModelSpec& spec = *ctx.spec;
+  const PredictionTally& t = *ctx.tally;
+  json report;
+  report["habcast_version"] = ctx.tool_version;
+  report["command"] = "predict";
+  report["started_utc"] = ctx.started_utc;
+  report["elapsed_seconds"] = ctx.elapsed_seconds;
+  report["threads"] = ctx.threads;
+
+  json model;
+  model["path"] = spec.path;
+  model["name"] = spec.name;
+  model["response"] = spec.response;
+  model["family"] = to_string(spec.family);
+  model["link"] = to_string(spec.link);
+  model["terms"] = spec.terms;
+  model["estimates"] = spec.estimates;
+  model["has_covariance"] = spec.covariance.has_value();
+  model["training_samples"] = spec.training_samples ? json(*spec.training_samples) : json(nullptr);
+  model["training_sample_count"] = ctx.domain ? json(ctx.domain->sample_count()) : json(nullptr);
+  report["model"] = model;
+
+  json inputs = json::array();
+  for (std::size_t c = 0; c < ctx.inputs.size(); ++c) {
+    const Covariate& cov = spec.covariates[c];
+    json in{{"covariate", cov.name}, {"path", ctx.inputs[c].path}, {"band", ctx.inputs[c].band},
+            {"type", cov.categorical ? "categorical" : "continuous"}, {"units", cov.units}};
+    if (ctx.domain) {
+      if (cov.categorical) {
+        in["levels_seen_in_training"] = ctx.domain->levels_seen(c);
+      } else {
+        in["training_min"] = ctx.domain->range(c).min;
+        in["training_max"] = ctx.domain->range(c).max;
+      }
+    }
+    inputs.push_back(in);
+  }
+  report["inputs"] = inputs;
+
+  const RasterGrid& g = ctx.grid;
+  json grid{{"width", g.width}, {"height", g.height}, {"crs", g.crs_name}, {"crs_wkt", g.crs_wkt},
+            {"geotransform", g.geotransform}, {"pixel_area", g.pixel_area()}, {"linear_units", g.linear_units}};
+  report["grid"] = grid;
+
+  json outputs = json::object();
+  for (const auto& [role, path] : ctx.outputs) outputs[role] = path;
+  report["outputs"] = outputs;
+  report["confidence_level"] = ctx.level;
+
+  const std::int64_t with_data = t.pixels - t.missing_input;
+  report["pixels"] = {{"total", t.pixels},
+                      {"missing_input", t.missing_input},
+                      {"with_data", with_data},
+                      {"predicted", t.predicted},
+                      {"unknown_level", t.unknown_level},
+                      {"outside_transform", t.outside_transform},
+                      {"undefined_term", t.undefined_term},
+                      {"not_representable", t.not_representable}};
+  if (t.predicted > 0)
+    report["response"] = {{"mean", t.sum_response / static_cast<double>(t.predicted)},
+                          {"min", t.min_response},
+                          {"max", t.max_response}};
+
+  if (ctx.domain) {
+    const DomainTally& d = t.domain;
+    json ex;
+    ex["checked_pixels"] = d.checked;
+    ex["flagged_pixels"] = d.flagged;
+    ex["flagged_share"] = share(d.flagged, d.checked);
+    // Area only makes sense in a projected CRS with known linear units.
+    if (g.linear_units_to_metre > 0.0 && g.has_geotransform) {
+      const double pixel_m2 = g.pixel_area() * g.linear_units_to_metre * g.linear_units_to_metre;
+      ex["flagged_area_ha"] = static_cast<double>(d.flagged) * pixel_m2 / 1e4;
+      ex["checked_area_ha"] = static_cast<double>(d.checked) * pixel_m2 / 1e4;
+    }
+    json causes = json::object();
+    for (int b = 0; b < flag::cause_count; ++b) {
+      const bool checked_here = b == 0 || b == 2;  // hull and combination checks are not in this version
+      causes[flag_name(b)] = {{"bit_value", 1 << b},
+                              {"checked", checked_here},
+                              {"pixels", d.cause[b]},
+                              {"share", share(d.cause[b], d.checked)}};
+    }
+    ex["causes"] = causes;
+    json per_cov = json::object();
+    for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
+      const Covariate& cov = spec.covariates[c];
+      json e;
+      if (cov.categorical) {
+        e["unseen_level_pixels"] = d.unseen[c];
+        e["unseen_level_share"] = share(d.unseen[c], d.checked);
+        json codes = json::object();
+        for (const auto& [code, n] : d.unseen_codes[c]) codes[std::to_string(code)] = n;
+        e["unseen_codes"] = codes;
+      } else {
+        e["below_pixels"] = d.below[c];
+        e["above_pixels"] = d.above[c];
+        e["below_share"] = share(d.below[c], d.checked);
+        e["above_share"] = share(d.above[c], d.checked);
+        e["outside_share"] = share(d.below[c] + d.above[c], d.checked);
+      }
+      per_cov[cov.name] = e;
+    }
+    ex["covariates"] = per_cov;
+    report["extrapolation"] = ex;
+  } else {
+    report["extrapolation"] = nullptr;
+  }
+  report["warnings"] = warnings;
+  report["caution"] =
+      "Model predictions are not ground truth. Verify in the field before acting, and follow local regulations and "
+      "licensed professional practice.";
+  return report;
+}
+
+}  // namespace habcast
