@@ -113,7 +113,10 @@ std::vector<std::string> glob_tile_ids(const std::string& pattern) {
   const std::regex re = tail_regex(tail);
   const int depth = static_cast<int>(rest.size());
   std::error_code ec;
-  fs::recursive_directory_iterator it(base, fs::directory_options::skip_permission_denied, ec), end;
+  // Tile folders are often symbolic links into a data store; follow them.
+  fs::recursive_directory_iterator it(
+      base, fs::directory_options::skip_permission_denied | fs::directory_options::follow_directory_symlink, ec);
+  const fs::recursive_directory_iterator end;
   for (; !ec && it != end; it.increment(ec)) {
     if (it.depth() + 1 >= depth) it.disable_recursion_pending();
     if (it.depth() + 1 != depth) continue;

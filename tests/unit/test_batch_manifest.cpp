@@ -117,3 +117,14 @@ TEST_CASE("manifest errors reach the command line as exit code 3 with the messag
   CHECK_THAT(err, Contains("region.toml:5:") && Contains("matches no file"));
   CHECK_FALSE(std::filesystem::exists(s.out()));
 }
+
+TEST_CASE("a pattern follows tile folders that are symbolic links", "[batch]") {
+  BatchScene s(1, 2, 20, 15);
+  std::filesystem::create_directories(s.file("store"));
+  std::filesystem::rename(s.file("tiles/t0_1"), s.file("store/t0_1"));
+  std::filesystem::create_directory_symlink(s.file("store/t0_1"), s.file("tiles/t0_1"));
+  const habcast::BatchManifest m = habcast::read_batch_manifest(s.manifest());
+  const auto tiles = habcast::list_tiles(m, habcast::read_model_file(m.model_path));
+  REQUIRE(tiles.size() == 2);
+  CHECK(tiles[1].id == "t0_1");
+}

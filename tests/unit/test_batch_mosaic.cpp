@@ -96,7 +96,7 @@ TEST_CASE("mosaic pixels on both sides of every seam are the tiles' own pixels",
   CHECK(checked > 600);
 }
 
-TEST_CASE("--cog writes a Cloud Optimized GeoTIFF of each layer with the mosaic's values", "[batch]") {
+TEST_CASE("with --cog each layer is also a Cloud Optimized GeoTIFF holding the mosaic's values", "[batch]") {
   MosaicRun m;
   for (const char* layer : {"suitability", "extrapolation"}) {
     const std::string cog = m.s.out() + "/" + layer + ".tif";
@@ -139,7 +139,7 @@ TEST_CASE("the region report adds the tiles up to the whole-grid report", "[batc
   CHECK_THAT(csv, Contains("outside_elev_share") && Contains("unseen_level_area_ha"));
 }
 
-TEST_CASE("--mosaic-only rebuilds the mosaic from the records alone", "[batch]") {
+TEST_CASE("mosaic-only rebuilds the mosaic from the records alone", "[batch]") {
   MosaicRun m;
   fs::remove(m.s.out() + "/suitability.vrt");
   fs::remove(m.s.out() + "/batch-report.json");

@@ -36,7 +36,7 @@ TEST_CASE("shard shares differ in size by at most one tile", "[batch]") {
   }
 }
 
-TEST_CASE("--shard takes K/N with 1 <= K <= N only", "[batch]") {
+TEST_CASE("the shard option takes K/N with 1 <= K <= N only", "[batch]") {
   CHECK(habcast::parse_shard("3/8").index == 3);
   CHECK(habcast::parse_shard("3/8").count == 8);
   for (const char* bad : {"0/4", "5/4", "4", "a/b", "1/0", "-1/3", "1/3/5", "", "2/ 3"})
@@ -83,7 +83,7 @@ TEST_CASE("shard runs of the command line each do their share, and --mosaic-only
   }
 }
 
-TEST_CASE("--mosaic-only with --shard or --force is a usage error", "[batch]") {
+TEST_CASE("mosaic-only together with a shard or force is a usage error", "[batch]") {
   habcast::test::BatchScene s(1, 2, 18, 14);
   std::string err;
   CHECK(s.run({"--mosaic-only", "--shard", "1/2"}, nullptr, &err) == 2);
