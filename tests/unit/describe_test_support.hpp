@@ -12,6 +12,7 @@
 
 #include "core/model_file.hpp"
 #include "core/model_spec.hpp"
+#include "test_support.hpp"
 
 namespace habcast::test {
 
@@ -52,7 +53,5 @@ inline std::map<std::string, double> read_reference(const std::string& path) {
   }
   return values;
 }
-
-inline std::string source_path(const std::string& relative) { return std::string(HABCAST_SOURCE_DIR) + "/" + relative; }
 
 }  // namespace habcast::test
