@@ -69,7 +69,10 @@ void stationary(std::ostream& o, const ModelSpec& spec, const NicheDescription& 
   const QuadraticForm& form = *d.form;
   const CanonicalAnalysis& a = *d.analysis;
   const bool se = a.stationary_covariance.has_value();
-  o << (a.shape == SurfaceShape::peak ? "Optimum" : "Stationary point") << " (where every slope of the linear predictor is zero)\n";
+  if (a.shape == SurfaceShape::ridge)
+    o << "Point of the ridge nearest the model centre (there is no single stationary point)\n";
+  else
+    o << (a.shape == SurfaceShape::peak ? "Optimum" : "Stationary point") << " (where every slope of the linear predictor is zero)\n";
   o << "  " << pad("", 14) << pad("value", 20) << pad("model units", 20);
   if (se) o << pad(percent(settings.canonical.confidence) + " interval", 26);
   if (d.support) o << "training range";

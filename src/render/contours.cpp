@@ -127,17 +127,21 @@ std::vector<double> nice_levels(double lo, double hi, int count) {
   std::vector<double> levels;
   if (!(hi > lo) || count < 1) return levels;
   const double raw = (hi - lo) / count;
-  const double power = std::pow(10.0, std::floor(std::log10(raw)));
-  double step = power;
-  for (double m : {1.0, 2.0, 5.0, 10.0})
+  const double exponent = std::floor(std::log10(raw));
+  const double power = std::pow(10.0, exponent);
+  double mantissa = 10.0;
+  for (double m : {1.0, 2.0, 5.0})
     if (raw <= m * power) {
-      step = m * power;
+      mantissa = m;
       break;
     }
-  for (double v = std::ceil(lo / step) * step; v < hi; v += step) {
-    const double rounded = std::round(v / step) * step;  // no 0.30000000000000004
-    if (rounded > lo && rounded < hi) levels.push_back(rounded);
-  }
+  // Level n is n * mantissa * 10^exponent; for negative exponents divide by the exact integer
+  // 10^-exponent, so 0.6 comes out as the double nearest 0.6, not 3 * 0.2.
+  const double divisor = exponent < 0 ? std::pow(10.0, -exponent) : 1.0;
+  const double multiplier = exponent < 0 ? mantissa : mantissa * power;
+  auto level = [&](double n) { return n * multiplier / divisor; };
+  for (double n = std::ceil(lo / level(1.0)); level(n) < hi; n += 1.0)
+    if (level(n) > lo) levels.push_back(level(n));
   return levels;
 }
 

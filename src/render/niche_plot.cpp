@@ -79,10 +79,25 @@ void choose_window(NichePlot& plot, const PairDescription& pair) {
   plot.y1 = y.hi + py;
 }
 
+/// Round raw values for tick marks. On a log axis, 1-2-5 steps per decade (or whole decades when
+/// the axis spans many) so that ticks do not crowd into the top decade.
+std::vector<double> raw_ticks(const Covariate& c, double raw_lo, double raw_hi) {
+  const bool logarithmic = (c.transform == Transform::log || c.transform == Transform::log1p) && raw_lo > 0.0;
+  if (logarithmic && raw_hi / raw_lo > 3.0) {
+    for (const std::vector<double>& mantissas : {std::vector<double>{1, 2, 5}, std::vector<double>{1}}) {
+      std::vector<double> out;
+      for (double decade = std::pow(10.0, std::floor(std::log10(raw_lo))); decade <= raw_hi; decade *= 10.0)
+        for (double m : mantissas)
+          if (m * decade >= raw_lo && m * decade <= raw_hi) out.push_back(m * decade);
+      if (out.size() <= 8) return out;
+    }
+  }
+  return nice_levels(raw_lo, raw_hi, 6);
+}
+
 std::vector<PlotTick> ticks(const Covariate& c, double lo, double hi) {
   std::vector<PlotTick> out;
-  const double raw_lo = raw_value(c, lo), raw_hi = raw_value(c, hi);
-  for (double raw : nice_levels(raw_lo, raw_hi, 6)) {
+  for (double raw : raw_ticks(c, raw_value(c, lo), raw_value(c, hi))) {
     const double m = model_value(c, raw);
     if (std::isfinite(m)) out.push_back({m, number(raw)});
   }
@@ -103,7 +118,7 @@ void sample_response(NichePlot& plot, const PairDescription& pair, Link link) {
 
 void contour_levels(NichePlot& plot, const PairDescription& pair, double fraction) {
   const double lo = plot.response.minCoeff(), hi = plot.response.maxCoeff();
-  std::vector<double> values = nice_levels(lo, hi, 8);
+  std::vector<double> values = nice_levels(lo, hi, 10);
   const bool peak = pair.analysis.shape == SurfaceShape::peak;
   const double breadth = fraction * pair.analysis.response;
   for (double v : values) {

@@ -23,6 +23,28 @@ std::string number(double v) {
   return buf;
 }
 
+/// Splits text at spaces into lines of at most `width` characters (longer words stay whole).
+std::vector<std::string> wrap(const std::string& text, std::size_t width) {
+  std::vector<std::string> lines;
+  std::string line, word;
+  auto flush_word = [&] {
+    if (word.empty()) return;
+    if (!line.empty() && line.size() + 1 + word.size() > width) {
+      lines.push_back(line);
+      line.clear();
+    }
+    line += (line.empty() ? "" : " ") + word;
+    word.clear();
+  };
+  for (char ch : text) {
+    if (ch == ' ') flush_word();
+    else word += ch;
+  }
+  flush_word();
+  if (!line.empty()) lines.push_back(line);
+  return lines;
+}
+
 struct Frame {
   const NichePlot& p;
   [[nodiscard]] double px(double x) const { return kLeft + (x - p.x0) / (p.x1 - p.x0) * kPlotW; }
@@ -71,6 +93,7 @@ void draw_contours(SvgDocument& svg, const Frame& f) {
 }
 
 void draw_contour_labels(SvgDocument& svg, const Frame& f) {
+  std::vector<Point2> placed;  // labels closer than this to an earlier one are left out
   for (const ContourLevel& level : f.p.levels) {
     if (level.breadth || level.lines.empty()) continue;
     const auto longest = std::max_element(level.lines.begin(), level.lines.end(), [](const Polyline& a, const Polyline& b) {
@@ -78,6 +101,10 @@ void draw_contour_labels(SvgDocument& svg, const Frame& f) {
     });
     if (longest->points.size() < 8) continue;
     const Point2 q = f.grid(longest->points[longest->points.size() / 2]);
+    const bool crowded = std::any_of(placed.begin(), placed.end(), [&](const Point2& p) { return std::hypot(p.x - q.x, p.y - q.y) < 28.0; });
+    const bool inside = q.x > kLeft + 10 && q.x < kLeft + kPlotW - 10 && q.y > kTop + 10 && q.y < kTop + kPlotH - 10;
+    if (crowded || !inside) continue;
+    placed.push_back(q);
     svg.text("text", with(text_style(q.x, q.y + 3, 9, "middle"),
                           {{"class", "contour-label"}, {"stroke", "#ffffff"}, {"stroke-width", "3"}, {"paint-order", "stroke"}, {"fill", "#222222"}}),
              number(level.value));
@@ -147,8 +174,11 @@ void legend_entry(SvgDocument& svg, double y, const std::string& label, const At
 void draw_legend(SvgDocument& svg, const Frame& f, double fraction_percent) {
   svg.begin("g", {{"class", "legend"}});
   double y = kTop + 4;
-  svg.text("text", with(text_style(kLegendX, y, 12), {{"font-weight", "bold"}}), f.p.response_label);
-  y += 20;
+  for (const std::string& line : wrap(f.p.response_label, 30)) {
+    svg.text("text", with(text_style(kLegendX, y, 12), {{"font-weight", "bold"}}), line);
+    y += 15;
+  }
+  y += 5;
   std::vector<const ContourLevel*> levels;
   for (const ContourLevel& l : f.p.levels) levels.push_back(&l);
   std::sort(levels.begin(), levels.end(), [](const ContourLevel* a, const ContourLevel* b) { return a->value > b->value; });
