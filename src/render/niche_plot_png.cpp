@@ -137,12 +137,16 @@ void draw_legend(Canvas& canvas, const NichePlot& plot, const std::vector<double
   canvas.line(kLegendX, y + 4, kLegendX + 22, y + 4, kInk, 2);
   canvas.text(kLegendX + 30, y + 1, number(plot.breadth_percent) + " % OF PEAK", kInk);
   y += 16;
-  canvas.circle(kLegendX + 11, y + 4, 2.5, kInk, kWhite);
-  canvas.text(kLegendX + 30, y + 1, "TRAINING SITE", kInk);
-  y += 16;
-  for (int x = 0; x < 22; x += 8) canvas.line(kLegendX + x, y + 4, kLegendX + x + 3, y + 4, kInk);
-  canvas.text(kLegendX + 30, y + 1, "TRAINING HULL", kInk);
-  y += 16;
+  if (!plot.training.empty()) {
+    canvas.circle(kLegendX + 11, y + 4, 2.5, kInk, kWhite);
+    canvas.text(kLegendX + 30, y + 1, "TRAINING SITE", kInk);
+    y += 16;
+  }
+  if (plot.hull.size() >= 3) {
+    for (int x = 0; x < 22; x += 8) canvas.line(kLegendX + x, y + 4, kLegendX + x + 3, y + 4, kInk);
+    canvas.text(kLegendX + 30, y + 1, "TRAINING HULL", kInk);
+    y += 16;
+  }
   if (plot.stationary) {
     canvas.circle(kLegendX + 11, y + 4, 5, kWhite, kInk);
     canvas.text(kLegendX + 30, y + 1, plot.stationary_label, kInk);

@@ -188,10 +188,14 @@ void draw_legend(SvgDocument& svg, const Frame& f, double fraction_percent) {
     y += 17;
   }
   y += 10;
-  legend_entry(svg, y, "training site", {{"r", "2.6"}, {"fill", "#1a1a1a"}, {"fill-opacity", "0.5"}}, "circle");
-  y += 18;
-  legend_entry(svg, y, "training hull", {{"fill", "#000000"}, {"fill-opacity", "0.035"}, {"stroke", "#444444"}, {"stroke-dasharray", "5 3"}}, "rect");
-  y += 18;
+  if (!f.p.training.empty()) {
+    legend_entry(svg, y, "training site", {{"r", "2.6"}, {"fill", "#1a1a1a"}, {"fill-opacity", "0.5"}}, "circle");
+    y += 18;
+  }
+  if (f.p.hull.size() >= 3) {
+    legend_entry(svg, y, "training hull", {{"fill", "#000000"}, {"fill-opacity", "0.035"}, {"stroke", "#444444"}, {"stroke-dasharray", "5 3"}}, "rect");
+    y += 18;
+  }
   if (f.p.stationary) {
     legend_entry(svg, y, f.p.stationary_label, {{"r", "5"}, {"fill", "#ffffff"}, {"stroke", "#000000"}, {"stroke-width", "2"}}, "circle");
     y += 18;
