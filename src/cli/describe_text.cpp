@@ -65,6 +65,20 @@ std::string shape_sentence(const CanonicalAnalysis& a) {
   return "";
 }
 
+std::string numbers(const Eigen::RowVectorXd& v) {
+  std::string s;
+  for (Eigen::Index i = 0; i < v.size(); ++i) s += (i ? ", " : "") + num(v[i]);
+  return s;
+}
+
+void quadratic_form(std::ostream& o, const QuadraticForm& form) {
+  std::string B;
+  for (Eigen::Index r = 0; r < form.B.rows(); ++r) B += (r ? ", [" : "[") + numbers(form.B.row(r)) + "]";
+  o << "Linear predictor, x in model units ((transform(raw) - center) / scale):\n"
+    << "  eta = c + b'x + x'Bx,  c = " << num(form.constant) << ",  b = (" << numbers(form.b.transpose()) << "),  B = ["
+    << B << "]\n\n";
+}
+
 void stationary(std::ostream& o, const ModelSpec& spec, const NicheDescription& d, const DescribeSettings& settings) {
   const QuadraticForm& form = *d.form;
   const CanonicalAnalysis& a = *d.analysis;
@@ -223,6 +237,7 @@ std::string describe_text(const ModelSpec& spec, const NicheDescription& d, cons
   if (d.form) {
     std::string names;
     for (int c : d.form->covariates) names += (names.empty() ? "" : ", ") + covariate_name(spec, c);
+    quadratic_form(o, *d.form);
     o << "Shape in " << names << ": " << shape_sentence(*d.analysis) << ".\n\n";
     stationary(o, spec, d, settings);
     axes(o, spec, d, settings);

@@ -22,6 +22,8 @@ TEST_CASE("describe on the demo model reports a supported peak in words", "[desc
   std::string out, err;
   REQUIRE(run_cli({"describe", source_path(kDemo)}, &out, &err) == 0);
   CHECK_THAT(out, Catch::Contains("Shape in tmin, precip: a peak"));
+  // The quadratic form: b and B straight from the demo model's estimates (B_12 = 0.7428 / 2).
+  CHECK_THAT(out, Catch::Contains("b = (-1.173, 1.385),  B = [[-0.5349, 0.3714], [0.3714, -1.342]]"));
   CHECK_THAT(out, Catch::Contains("Optimum"));
   CHECK_THAT(out, Catch::Contains("slope"));        // held, linear only
   CHECK_THAT(out, Catch::Contains("best tmin for a given precip:  tmin = "));
