@@ -78,7 +78,6 @@ class Irls {
         next.beta = (next.beta + beta_old) / 2.0;
         evaluate(next);
       }
-      history_.push_back(next.beta);
       last_input_ = s;
       last_change_ = std::fabs(next.deviance - dev_old) / (std::fabs(next.deviance) + 0.1);
       s = next;
@@ -97,7 +96,6 @@ class Irls {
   [[nodiscard]] bool converged() const { return converged_; }
   [[nodiscard]] int iterations() const { return iterations_; }
   [[nodiscard]] double last_change() const { return last_change_; }
-  [[nodiscard]] const std::vector<Eigen::VectorXd>& history() const { return history_; }
   /// True when the weighted design lost rank during the iterations (weights collapsing to 0).
   [[nodiscard]] bool weighted_rank_lost() const { return weighted_rank_lost_; }
 
@@ -116,7 +114,6 @@ class Irls {
     return perm * inner * perm.transpose();
   }
 
- private:
   Eigen::VectorXd working_sqrt_weights(const State& s) const {
     Eigen::VectorXd sw(X_.rows());
     for (Eigen::Index i = 0; i < X_.rows(); ++i) {
@@ -126,6 +123,7 @@ class Irls {
     return sw;
   }
 
+  /// One IRLS update from `s` (no step halving).
   State step(const State& s) {
     const Eigen::Index n = X_.rows();
     Eigen::VectorXd z(n);
@@ -144,6 +142,7 @@ class Irls {
     return next;
   }
 
+ private:
   void evaluate(State& s) const {
     s.eta = X_ * s.beta + offset_;
     s.mu.resize(s.eta.size());
@@ -167,7 +166,6 @@ class Irls {
   bool weighted_rank_lost_ = false;
   int iterations_ = 0;
   double last_change_ = std::numeric_limits<double>::infinity();
-  std::vector<Eigen::VectorXd> history_;
   State last_input_;
 };
 
@@ -214,24 +212,23 @@ void check_aliasing(const GlmProblem& p, const Eigen::VectorXd& w, double tolera
                    std::to_string(p.X.cols()) + " terms): " + why + ". Remove the aliased term(s) from the formula");
 }
 
-/// Terms whose magnitude grew in each of the last few iterations: the signature of a coefficient
-/// running off to infinity (Albert & Anderson 1984, Biometrika 71:1-10, on separation).
-std::vector<Eigen::Index> diverging_terms(const std::vector<Eigen::VectorXd>& history) {
+/// Terms still moving after the deviance has converged. At a finite maximum one more IRLS step
+/// changes nothing; where the data are separated the likelihood only approaches its supremum as a
+/// coefficient runs off to infinity, the deviance change becomes tiny while each Newton step still
+/// moves that coefficient by about one unit (Albert & Anderson 1984, Biometrika 71:1-10).
+std::vector<Eigen::Index> diverging_terms(const State& converged, const State& probe) {
   std::vector<Eigen::Index> out;
-  constexpr std::size_t kRun = 4;
-  if (history.size() < kRun + 1) return out;
-  const Eigen::Index p = history.back().size();
-  for (Eigen::Index j = 0; j < p; ++j) {
-    bool growing = std::fabs(history.back()[j]) > 5.0;
-    for (std::size_t k = history.size() - kRun; k < history.size() && growing; ++k)
-      growing = std::fabs(history[k][j]) > std::fabs(history[k - 1][j]) + 1e-3;
-    if (growing) out.push_back(j);
+  for (Eigen::Index j = 0; j < converged.beta.size(); ++j) {
+    const double moved = std::fabs(probe.beta[j] - converged.beta[j]);
+    if (moved > 1e-3 * std::max(1.0, std::fabs(converged.beta[j]))) out.push_back(j);
   }
   return out;
 }
 
-void check_boundary(const GlmProblem& p, const State& s, const Irls& irls) {
+void check_boundary(const GlmProblem& p, const State& s, Irls& irls) {
   if (p.family == Family::gaussian) return;
+  std::vector<Eigen::Index> diverging;
+  if (irls.converged()) diverging = diverging_terms(s, irls.step(s));
   Eigen::Index at_boundary = 0;
   Eigen::Index first = -1;
   for (Eigen::Index i = 0; i < s.mu.size(); ++i) {
@@ -242,8 +239,7 @@ void check_boundary(const GlmProblem& p, const State& s, const Irls& irls) {
       if (first < 0) first = i;
     }
   }
-  if (at_boundary == 0 && !irls.weighted_rank_lost()) return;
-  std::vector<Eigen::Index> diverging = diverging_terms(irls.history());
+  if (at_boundary == 0 && diverging.empty() && !irls.weighted_rank_lost()) return;
   if (diverging.empty()) {
     Eigen::Index largest = 0;
     s.beta.cwiseAbs().maxCoeff(&largest);
@@ -252,6 +248,13 @@ void check_boundary(const GlmProblem& p, const State& s, const Irls& irls) {
   std::string terms;
   for (Eigen::Index j : diverging)
     terms += (terms.empty() ? "" : ", ") + ("\"" + p.term_names[static_cast<std::size_t>(j)] + "\" = " + number(s.beta[j], 4));
+  // Observations fitted (almost) exactly at the boundary: where the diverging terms act.
+  if (at_boundary == 0)
+    for (Eigen::Index i = 0; i < s.mu.size(); ++i)
+      if (std::fabs(p.y[i] - s.mu[i]) < 1e-6 && (p.family == Family::poisson ? p.y[i] == 0.0 : true)) {
+        ++at_boundary;
+        if (first < 0) first = i;
+      }
   const std::string where = at_boundary > 0 ? std::to_string(at_boundary) + " of " + std::to_string(s.mu.size()) +
                                                   " observations (first: row " + std::to_string(first + 1) + ")"
                                             : "some observations";
@@ -279,6 +282,7 @@ GlmFit fit_glm(const GlmProblem& problem, const IrlsOptions& options) {
 
   Irls irls(problem, w, offset, options);
   const State s = irls.run();
+  // Separation first: it is also the usual reason for non-convergence.
   check_boundary(problem, s, irls);
   if (!irls.converged())
     throw InputError("the model did not converge: IRLS stopped after " + std::to_string(irls.iterations()) +
