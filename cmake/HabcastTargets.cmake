@@ -2,7 +2,7 @@
 function(habcast_set_warnings target)
   target_compile_options(${target} PRIVATE
     -Wall -Wextra -Wpedantic -Wshadow -Wconversion -Wsign-conversion -Wnon-virtual-dtor
-    -Wold-style-cast -Woverloaded-virtual -Wnull-dereference
+    -Wold-style-cast -Woverloaded-virtual
     # Contracting a*b+c into an FMA would make a pixel's value depend on whether the compiler
     # vectorised the loop that produced it; outputs must be bit-identical for any block size.
     -ffp-contract=off)

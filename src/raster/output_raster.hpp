@@ -17,7 +17,8 @@ enum class OutputType { float32, uint8 };
 
 struct ColourEntry {
   int value = 0;
-  std::uint8_t r = 0, g = 0, b = 0, a = 255;
+  std::uint8_t r = 0, g = 0, b = 0;
+  std::uint8_t a = 255;  ///< GeoTIFF palettes hold no alpha: GDAL reads every entry back as 255
   std::string name;  ///< category name for this value (GDAL category names), may be empty
 };
 
@@ -57,7 +58,9 @@ class OutputRaster {
   /// Flushes and closes the dataset, checking GDALClose()'s result (write errors surface there).
   /// After close() the file is complete but still under its temporary name.
   void close();
-  /// Renames the closed temporary file onto final_path (atomic within a filesystem).
+  /// Renames the temporary file onto final_path (atomic within a filesystem), calling close()
+  /// first if needed. GDAL's .aux.xml sidecar (category names) follows it; a sidecar left beside
+  /// final_path by an earlier run is removed.
   void commit();
 
   [[nodiscard]] const std::string& temporary_path() const;

@@ -1,0 +1,24 @@
+#!/usr/bin/env bash
+# Builds habcast and maps the invented demo model over the rasters in sample-rasters/.
+# Installs missing Debian packages first (needs root or sudo once). Re-running is cheap.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+scripts/install-deps.sh
+cmake -S . -B build -G Ninja -DCMAKE_BUILD_TYPE=Release -DHABCAST_BUILD_TESTS=OFF >/dev/null
+cmake --build build --parallel
+
+out=out/demo
+echo
+echo "== habcast predict on the invented Fenmarrow Uplands demo =="
+set +e
+build/habcast predict sample-rasters/demo-model.toml -o "$out" --overwrite
+code=$?
+set -e
+echo
+if [[ $code -ne 0 ]]; then
+  echo "habcast predict failed with exit code $code" >&2
+  exit $code
+fi
+echo "Open $out/suitability.tif, $out/uncertainty.tif and $out/extrapolation.tif in a GIS;"
+echo "$out/report.json holds the numbers. The demo data are invented: do not use them for decisions."

@@ -1,0 +1,32 @@
+#pragma once
+// Internal to the raster layer: owners for GDAL handles and the shared way of opening an input.
+#include <gdal_priv.h>
+
+#include <memory>
+#include <string>
+#include <vector>
+
+namespace habcast {
+
+struct DatasetCloser {
+  void operator()(GDALDataset* dataset) const noexcept { GDALClose(GDALDataset::ToHandle(dataset)); }
+};
+/// Owns an open dataset; closing ignores errors, which is right for inputs only. Outputs close
+/// explicitly and check the result (see OutputRaster::close).
+using DatasetPtr = std::unique_ptr<GDALDataset, DatasetCloser>;
+
+/// Opens `path` read-only as a raster. Throws InputError naming the file with GDAL's reason.
+DatasetPtr open_input_raster(const std::string& path, const std::vector<std::string>& open_options = {});
+
+/// Throws InputError naming the file when `band` is not one of its bands.
+GDALRasterBand& input_band(GDALDataset& dataset, const std::string& path, int band);
+
+/// Whether `value` can be stored in a pixel of `type` (integers: within the type's range;
+/// floats: NaN, infinities and finite values within the type's range). GDAL 3.6 has no public
+/// equivalent.
+bool value_fits(GDALDataType type, double value);
+
+/// GDAL's last failure message on this thread, or a placeholder when GDAL said nothing; clears it.
+std::string gdal_reason();
+
+}  // namespace habcast

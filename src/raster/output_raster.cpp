@@ -1,0 +1,336 @@
+#include "raster/output_raster.hpp"
+
+#include <cpl_conv.h>
+#include <cpl_error.h>
+#include <cpl_string.h>
+#include <ogr_spatialref.h>
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <optional>
+#include <sstream>
+#include <stdexcept>
+
+#include "core/error.hpp"
+#include "raster/creation_options.hpp"
+#include "raster/gdal_handles.hpp"
+#include "raster/gdal_session.hpp"
+
+namespace habcast {
+namespace {
+
+namespace fs = std::filesystem;
+
+std::string sidecar_of(const std::string& path) { return path + ".aux.xml"; }
+
+std::string window_text(const Window& window) {
+  return "window at column " + std::to_string(window.x) + ", row " + std::to_string(window.y) + " (" +
+         std::to_string(window.width) + " x " + std::to_string(window.height) + " pixels)";
+}
+
+void CPL_STDCALL collect_messages(CPLErr /*error_class*/, CPLErrorNum /*number*/, const char* message) {
+  static_cast<std::vector<std::string>*>(CPLGetErrorHandlerUserData())->push_back(message != nullptr ? message : "");
+}
+
+/// GDAL only warns about options its driver does not know or values it cannot use, then carries
+/// on with something else; a user who asked for an option must hear that it was not applied.
+void validate_with_driver(GDALDriver& driver, const CPLStringList& options, const std::string& output_path) {
+  std::vector<std::string> messages;
+  CPLPushErrorHandlerEx(collect_messages, &messages);
+  const int valid = GDALValidateCreationOptions(GDALDriver::ToHandle(&driver), options.List());
+  CPLPopErrorHandler();
+  if (valid != 0) return;
+  std::string reasons;
+  for (auto message : messages) {
+    while (!message.empty() && message.back() == '.') message.pop_back();
+    reasons += (reasons.empty() ? "" : "; ") + message;
+  }
+  throw UsageError(located(output_path, 0,
+                           "GDAL's GeoTIFF driver does not accept the creation options (" + reasons +
+                               "). Choose options from the GTiff creation options in GDAL's documentation."));
+}
+
+std::string number(double value) {
+  std::ostringstream text;
+  text.precision(15);
+  text << value;
+  return text.str();
+}
+
+void validate_nodata(const OutputSpec& spec) {
+  const double nodata = spec.nodata;
+  if (spec.type == OutputType::uint8 && !(nodata >= 0.0 && nodata <= 255.0 && std::floor(nodata) == nodata)) {
+    throw UsageError(located(spec.final_path, 0,
+                             "the nodata value " + number(nodata) +
+                                 " cannot be stored in this 8-bit output. Choose a whole number "
+                                 "from 0 to 255."));
+  }
+  if (spec.type == OutputType::float32 && !value_fits(GDT_Float32, nodata)) {
+    throw UsageError(located(spec.final_path, 0,
+                             "the nodata value " + number(nodata) +
+                                 " cannot be stored in this 32-bit float output. Choose a value "
+                                 "within +-3.4e38, or nan."));
+  }
+}
+
+void validate_spec(const OutputSpec& spec) {
+  if (spec.bands.empty()) throw std::invalid_argument("OutputSpec for " + spec.final_path + " has no bands");
+  if (!spec.colours.empty() && spec.type != OutputType::uint8) {
+    throw std::invalid_argument("OutputSpec for " + spec.final_path + ": colours need a uint8 output");
+  }
+  for (const auto& colour : spec.colours) {
+    if (colour.value < 0 || colour.value > 255) {
+      throw std::invalid_argument("OutputSpec for " + spec.final_path + ": colour value " +
+                                  std::to_string(colour.value) + " is outside 0..255");
+    }
+  }
+  for (const auto& [key, value] : spec.metadata) {
+    if (key.empty() || key.find('=') != std::string::npos) {
+      throw std::invalid_argument("OutputSpec for " + spec.final_path + ": bad metadata key \"" + key + "\"");
+    }
+  }
+  validate_nodata(spec);
+}
+
+void check_folder(const std::string& final_path) {
+  const fs::path folder = fs::path(final_path).parent_path();
+  std::error_code error;
+  if (!folder.empty() && !fs::is_directory(folder, error)) {
+    throw IoError(located(final_path, 0,
+                          "cannot be written: the folder " + folder.string() +
+                              " does not exist. Create it first or choose another output path."));
+  }
+}
+
+void apply_colours(GDALRasterBand& band, const std::vector<ColourEntry>& colours) {
+  GDALColorTable table(GPI_RGB);
+  int highest = -1;
+  for (const auto& colour : colours) {
+    const GDALColorEntry entry{colour.r, colour.g, colour.b, colour.a};
+    table.SetColorEntry(colour.value, &entry);
+    highest = std::max(highest, colour.value);
+  }
+  // GDAL's category names are a list indexed by pixel value, so values without a name get "".
+  std::vector<std::string> names(static_cast<std::size_t>(highest + 1));
+  for (const auto& colour : colours) names[static_cast<std::size_t>(colour.value)] = colour.name;
+  CPLStringList name_list;
+  for (const auto& name : names) name_list.AddString(name.c_str());
+  band.SetColorTable(&table);
+  if (std::any_of(names.begin(), names.end(), [](const auto& name) { return !name.empty(); })) {
+    band.SetCategoryNames(name_list.List());
+  }
+}
+
+/// Sets one config option for this thread and restores the previous value when it goes away.
+class ThreadConfig {
+ public:
+  ThreadConfig(const char* key, const std::string& value) : key_(key) {
+    if (const char* old = CPLGetThreadLocalConfigOption(key, nullptr)) previous_ = old;
+    CPLSetThreadLocalConfigOption(key, value.empty() ? nullptr : value.c_str());
+  }
+  ~ThreadConfig() { CPLSetThreadLocalConfigOption(key_, previous_ ? previous_->c_str() : nullptr); }
+  ThreadConfig(const ThreadConfig&) = delete;
+  ThreadConfig& operator=(const ThreadConfig&) = delete;
+
+ private:
+  const char* key_;
+  std::optional<std::string> previous_;
+};
+
+}  // namespace
+
+struct OutputRaster::Impl {
+  OutputSpec spec;
+  std::vector<CreationOption> options;
+  std::string temporary_path;
+  DatasetPtr dataset;
+  bool committed = false;
+  std::string close_error;  ///< set when close() failed: the file must then never be committed
+
+  [[nodiscard]] std::string describe() const { return spec.final_path + " (temporary file " + temporary_path + ")"; }
+  void create(const RasterGrid& grid);
+  void georeference(const RasterGrid& grid);
+  void describe_bands();
+  template <typename T>
+  void write(int band, const Window& window, const T* values, GDALDataType type);
+};
+
+void OutputRaster::Impl::create(const RasterGrid& grid) {
+  GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GTiff");
+  if (driver == nullptr) throw IoError("GDAL was built without its GeoTIFF driver; install a full GDAL.");
+  CPLStringList option_list;
+  for (const auto& [key, value] : options) option_list.SetNameValue(key.c_str(), value.c_str());
+  validate_with_driver(*driver, option_list, spec.final_path);
+  take_gdal_error();
+  const GDALDataType type = spec.type == OutputType::float32 ? GDT_Float32 : GDT_Byte;
+  dataset.reset(driver->Create(temporary_path.c_str(), grid.width, grid.height, static_cast<int>(spec.bands.size()),
+                               type, option_list.List()));
+  if (!dataset) {
+    throw IoError(located(spec.final_path, 0,
+                          "cannot create the temporary file " + temporary_path + " (" + gdal_reason() +
+                              "). Check that the folder is writable and has free space."));
+  }
+}
+
+void OutputRaster::Impl::georeference(const RasterGrid& grid) {
+  if (grid.has_geotransform) {
+    std::array<double, 6> transform = grid.geotransform;
+    if (dataset->SetGeoTransform(transform.data()) != CE_None) {
+      throw IoError(located(temporary_path, 0, "cannot store the geotransform (" + gdal_reason() + ")."));
+    }
+  }
+  if (!grid.crs_wkt.empty()) {
+    OGRSpatialReference srs;
+    if (srs.importFromWkt(grid.crs_wkt.c_str()) != OGRERR_NONE) {
+      throw std::invalid_argument("OutputRaster for " + spec.final_path + ": grid CRS is not valid WKT");
+    }
+    // Datasets hand out easting/northing order whatever the CRS says, as GDAL's own readers do.
+    srs.SetAxisMappingStrategy(OAMS_TRADITIONAL_GIS_ORDER);
+    if (dataset->SetSpatialRef(&srs) != CE_None) {
+      throw IoError(located(temporary_path, 0, "cannot store the CRS (" + gdal_reason() + ")."));
+    }
+  }
+}
+
+void OutputRaster::Impl::describe_bands() {
+  // Stored as float so that a reader comparing in the band's type finds exactly this value.
+  const double nodata =
+      spec.type == OutputType::float32 ? static_cast<double>(static_cast<float>(spec.nodata)) : spec.nodata;
+  for (std::size_t i = 0; i < spec.bands.size(); ++i) {
+    GDALRasterBand& band = *dataset->GetRasterBand(static_cast<int>(i) + 1);
+    band.SetNoDataValue(nodata);
+    band.SetDescription(spec.bands[i].description.c_str());
+    if (!spec.bands[i].units.empty()) band.SetUnitType(spec.bands[i].units.c_str());
+  }
+  for (const auto& [key, value] : spec.metadata) dataset->SetMetadataItem(key.c_str(), value.c_str());
+  if (!spec.colours.empty()) apply_colours(*dataset->GetRasterBand(1), spec.colours);
+  if (const std::string reason = take_gdal_error(); !reason.empty()) {
+    throw IoError(located(temporary_path, 0, "cannot store band information (" + reason + ")."));
+  }
+}
+
+template <typename T>
+void OutputRaster::Impl::write(int band, const Window& window, const T* values, GDALDataType type) {
+  if (!dataset) throw std::logic_error("OutputRaster::write after close() for " + spec.final_path);
+  if ((type == GDT_Float32) != (spec.type == OutputType::float32)) {
+    throw std::logic_error("OutputRaster::write with the wrong pixel type for " + spec.final_path);
+  }
+  if (band < 1 || band > dataset->GetRasterCount() || window.x < 0 || window.y < 0 || window.width <= 0 ||
+      window.height <= 0 || window.width > dataset->GetRasterXSize() - window.x ||
+      window.height > dataset->GetRasterYSize() - window.y) {
+    throw std::out_of_range("OutputRaster::write: band " + std::to_string(band) + ", " + window_text(window) +
+                            " is outside " + spec.final_path);
+  }
+  take_gdal_error();
+  // RasterIO takes a non-const buffer for both directions; GF_Write only reads from it.
+  const CPLErr result =
+      dataset->GetRasterBand(band)->RasterIO(GF_Write, window.x, window.y, window.width, window.height,
+                                             const_cast<T*>(values), window.width, window.height, type, 0, 0, nullptr);
+  if (result != CE_None) {
+    throw IoError("writing band " + std::to_string(band) + ", " + window_text(window) + ", of " + describe() +
+                  " failed (" + gdal_reason() + "). Check free disk space and permissions.");
+  }
+}
+
+OutputRaster::OutputRaster(const OutputSpec& spec, const RasterGrid& grid) : impl_(std::make_unique<Impl>()) {
+  ensure_gdal();
+  validate_spec(spec);
+  impl_->spec = spec;
+  impl_->options = merged_creation_options(spec.type, spec.creation_options, spec.final_path);
+  impl_->temporary_path = temporary_path_for(spec.final_path);
+  check_folder(spec.final_path);
+  impl_->create(grid);
+  impl_->georeference(grid);
+  impl_->describe_bands();
+}
+
+OutputRaster::~OutputRaster() {
+  if (impl_ == nullptr || impl_->committed) return;
+  if (impl_->dataset) {
+    // Nothing written so far is wanted: skip flushing it and let GDAL delete the file.
+    impl_->dataset->MarkSuppressOnClose();
+    impl_->dataset.reset();
+    take_gdal_error();
+  }
+  std::error_code ignored;
+  fs::remove(impl_->temporary_path, ignored);
+  fs::remove(sidecar_of(impl_->temporary_path), ignored);
+}
+
+void OutputRaster::write(int band, const Window& window, const float* values) {
+  impl_->write(band, window, values, GDT_Float32);
+}
+
+void OutputRaster::write(int band, const Window& window, const std::uint8_t* values) {
+  impl_->write(band, window, values, GDT_Byte);
+}
+
+void OutputRaster::build_overviews() {
+  Impl& self = *impl_;
+  if (!self.dataset) throw std::logic_error("OutputRaster::build_overviews after close() for " + self.spec.final_path);
+  const int smaller_side = std::min(self.dataset->GetRasterXSize(), self.dataset->GetRasterYSize());
+  std::vector<int> factors;
+  for (int factor = 2; smaller_side / factor >= 256; factor *= 2) factors.push_back(factor);
+  if (factors.empty()) return;
+  // Overviews are compressed like the full-resolution image, so the file stays uniformly small.
+  const ThreadConfig compress("COMPRESS_OVERVIEW", option_value(self.options, "COMPRESS"));
+  const ThreadConfig predictor("PREDICTOR_OVERVIEW", option_value(self.options, "PREDICTOR"));
+  const char* resampling = self.spec.type == OutputType::float32 ? "AVERAGE" : "NEAREST";
+  take_gdal_error();
+  if (self.dataset->BuildOverviews(resampling, static_cast<int>(factors.size()), factors.data(), 0, nullptr, nullptr,
+                                   nullptr) != CE_None) {
+    throw IoError("building overviews of " + self.describe() + " failed (" + gdal_reason() +
+                  "). Check free disk space.");
+  }
+}
+
+void OutputRaster::close() {
+  Impl& self = *impl_;
+  if (!self.dataset) return;
+  take_gdal_error();
+  CPLErrorReset();
+  // GDALClose returns nothing in GDAL 3.6; a failed flush of the last blocks or of the TIFF
+  // directory (disk full, quota) is only visible as the thread's last error.
+  GDALClose(GDALDataset::ToHandle(self.dataset.release()));
+  const CPLErr last = CPLGetLastErrorType();
+  if (last == CE_Failure || last == CE_Fatal) {
+    self.close_error = "finishing " + self.describe() + " failed (" + gdal_reason() +
+                       "). Check free disk space and permissions, then run again.";
+    throw IoError(self.close_error);
+  }
+}
+
+void OutputRaster::commit() {
+  Impl& self = *impl_;
+  if (self.committed) return;
+  close();
+  if (!self.close_error.empty()) throw IoError(self.close_error);  // an incomplete file keeps its temporary name
+  std::error_code error;
+  fs::rename(self.temporary_path, self.spec.final_path, error);
+  if (error) {
+    throw IoError(located(self.spec.final_path, 0,
+                          "cannot replace it with the finished file " + self.temporary_path + " (" + error.message() +
+                              "). Check permissions on the folder and whether another "
+                              "program holds the file open."));
+  }
+  self.committed = true;
+  // The sidecar holds what GeoTIFF cannot (category names); one left by an earlier run would
+  // override the new file's own information, so it goes when there is no new one.
+  const std::string sidecar = sidecar_of(self.temporary_path);
+  if (fs::exists(sidecar, error)) {
+    fs::rename(sidecar, sidecar_of(self.spec.final_path), error);
+  } else {
+    fs::remove(sidecar_of(self.spec.final_path), error);
+  }
+  if (error) {
+    throw IoError(located(sidecar_of(self.spec.final_path), 0,
+                          "cannot be updated (" + error.message() + "). Category names of " + self.spec.final_path +
+                              " may be wrong; check permissions on the folder."));
+  }
+}
+
+const std::string& OutputRaster::temporary_path() const { return impl_->temporary_path; }
+const std::string& OutputRaster::final_path() const { return impl_->spec.final_path; }
+
+}  // namespace habcast

@@ -1,0 +1,95 @@
+// Link functions and the normal distribution against published and reference values.
+#include <catch2/catch.hpp>
+#include <cmath>
+#include <limits>
+
+#include "core/link.hpp"
+#include "core/normal_distribution.hpp"
+
+using habcast::Link;
+using Catch::Matchers::WithinRel;
+
+TEST_CASE("normal CDF matches the published table and R's pnorm", "[link]") {
+  // Abramowitz & Stegun (1964), Handbook of Mathematical Functions, Table 26.1 (values from memory),
+  // each cross-checked with R 4.2.2's pnorm() (digits = 17), which is the number compared here.
+  CHECK_THAT(habcast::normal_cdf(0.5), WithinRel(6.9146246127401301e-01, 1e-14));
+  CHECK_THAT(habcast::normal_cdf(1.0), WithinRel(8.4134474606854293e-01, 1e-14));
+  CHECK_THAT(habcast::normal_cdf(1.96), WithinRel(9.7500210485177963e-01, 1e-14));
+  CHECK_THAT(habcast::normal_cdf(2.0), WithinRel(9.7724986805182079e-01, 1e-14));
+  CHECK_THAT(habcast::normal_cdf(3.0), WithinRel(9.9865010196836990e-01, 1e-14));
+  // Lower tail, where 1 - Phi(-x) would cancel: R 4.2.2 pnorm(-5), pnorm(-10), pnorm(-30).
+  CHECK_THAT(habcast::normal_cdf(-5.0), WithinRel(2.8665157187919391e-07, 1e-12));
+  CHECK_THAT(habcast::normal_cdf(-10.0), WithinRel(7.6198530241605269e-24, 1e-12));
+  CHECK_THAT(habcast::normal_cdf(-30.0), WithinRel(4.9067139271481872e-198, 1e-10));
+}
+
+TEST_CASE("normal quantile matches published percentage points and R's qnorm", "[link]") {
+  // Percentage points of the normal distribution, Abramowitz & Stegun Table 26.5 (from memory:
+  // 1.959963985, 2.575829304, 3.290526731, 1.644853627), compared at R 4.2.2 qnorm()'s 17 digits.
+  CHECK_THAT(habcast::normal_quantile(0.975), WithinRel(1.95996398454005361, 1e-14));
+  CHECK_THAT(habcast::normal_quantile(0.995), WithinRel(2.57582930354889994, 1e-14));
+  CHECK_THAT(habcast::normal_quantile(0.9995), WithinRel(3.29052673149192554, 1e-14));
+  CHECK_THAT(habcast::normal_quantile(0.95), WithinRel(1.64485362695147153, 1e-14));
+  CHECK_THAT(habcast::normal_quantile(0.3), WithinRel(-0.52440051270804067, 1e-14));
+  // Far tails (AS 241's third region): R 4.2.2 qnorm(1e-10), qnorm(1e-300).
+  CHECK_THAT(habcast::normal_quantile(1e-10), WithinRel(-6.36134090240405570, 1e-14));
+  CHECK_THAT(habcast::normal_quantile(1e-300), WithinRel(-37.04709629936120052, 1e-14));
+  CHECK(habcast::normal_quantile(0.0) == -std::numeric_limits<double>::infinity());
+  CHECK(habcast::normal_quantile(1.0) == std::numeric_limits<double>::infinity());
+  CHECK(std::isnan(habcast::normal_quantile(1.5)));
+  // Round trip over the whole range (a property of the pair, no outside source).
+  for (double p = 0.001; p < 1.0; p += 0.0137) CHECK_THAT(habcast::normal_cdf(habcast::normal_quantile(p)), WithinRel(p, 1e-13));
+}
+
+TEST_CASE("logit inverse is exact in both tails and never overflows", "[link]") {
+  // R 4.2.2 plogis(-30), plogis(30) (R's plogis does not clamp; binomial()$linkinv does).
+  CHECK_THAT(habcast::link_inverse(Link::logit, -30.0), WithinRel(9.3576229688392989e-14, 1e-14));
+  CHECK_THAT(habcast::link_inverse(Link::logit, 30.0), WithinRel(9.9999999999990652e-01, 1e-15));
+  // Closed form 1/(1 + exp(700)) = exp(-700)/(1 + exp(-700)); the naive form overflows exp(700).
+  CHECK_THAT(habcast::link_inverse(Link::logit, -700.0), WithinRel(std::exp(-700.0) / (1.0 + std::exp(-700.0)), 1e-14));
+  CHECK(habcast::link_inverse(Link::logit, 700.0) == 1.0);
+  CHECK(habcast::link_inverse(Link::logit, -1000.0) == 0.0);
+  CHECK(habcast::link_inverse(Link::logit, 1000.0) == 1.0);
+  // Derivative mu(1-mu) = exp(-|eta|)/(1+exp(-|eta|))^2: finite and positive far out.
+  CHECK_THAT(habcast::link_inverse_derivative(Link::logit, -700.0), WithinRel(std::exp(-700.0), 1e-13));
+  CHECK_THAT(habcast::link_inverse_derivative(Link::logit, 0.0), WithinRel(0.25, 1e-15));
+  CHECK(habcast::link_inverse_derivative(Link::logit, 1000.0) == 0.0);
+}
+
+TEST_CASE("complementary log-log and probit tails follow the closed form", "[link]") {
+  // 1 - exp(-exp(eta)) = exp(eta) - exp(2 eta)/2 + ...; at eta = -40 the series gives exp(-40) to
+  // 1e-17 relative (R's binomial("cloglog")$linkinv clamps to 2.2e-16 there, so R is not used).
+  CHECK_THAT(habcast::link_inverse(Link::cloglog, -40.0), WithinRel(std::exp(-40.0), 1e-15));
+  // R 4.2.2 binomial("cloglog")$linkinv(c(-5, 0, 3)), where R's clamp does not bite.
+  CHECK_THAT(habcast::link_inverse(Link::cloglog, -5.0), WithinRel(6.7152979321585104e-03, 1e-14));
+  CHECK_THAT(habcast::link_inverse(Link::cloglog, 0.0), WithinRel(6.3212055882855767e-01, 1e-14));
+  CHECK_THAT(habcast::link_inverse(Link::cloglog, 3.0), WithinRel(9.9999999810782125e-01, 1e-14));
+  // R 4.2.2 binomial("cloglog")$mu.eta(c(0, 3)).
+  CHECK_THAT(habcast::link_inverse_derivative(Link::cloglog, 0.0), WithinRel(3.6787944117144233e-01, 1e-14));
+  CHECK_THAT(habcast::link_inverse_derivative(Link::cloglog, 3.0), WithinRel(3.8005425040443575e-08, 1e-12));
+  for (double eta : {-1000.0, -700.0, 700.0, 1000.0}) {
+    for (Link link : {Link::logit, Link::probit, Link::cloglog}) {
+      const double mu = habcast::link_inverse(link, eta);
+      const double d = habcast::link_inverse_derivative(link, eta);
+      CHECK(std::isfinite(mu));
+      CHECK(mu >= 0.0);
+      CHECK(mu <= 1.0);
+      CHECK(std::isfinite(d));
+      CHECK(d >= 0.0);
+    }
+  }
+  // probit tail: Phi(-30) against R 4.2.2 pnorm(-30).
+  CHECK_THAT(habcast::link_inverse(Link::probit, -30.0), WithinRel(4.9067139271481872e-198, 1e-10));
+}
+
+TEST_CASE("log and identity links", "[link]") {
+  CHECK_THAT(habcast::link_inverse(Link::log, 2.0), WithinRel(std::exp(2.0), 1e-15));
+  CHECK(std::isfinite(habcast::link_inverse(Link::log, 700.0)));
+  CHECK(std::isinf(habcast::link_inverse(Link::log, 1000.0)));  // documented: +inf, never NaN
+  CHECK(habcast::link_inverse(Link::log, -1000.0) == 0.0);
+  CHECK(habcast::link_inverse(Link::identity, -3.5) == -3.5);
+  CHECK(habcast::link_inverse_derivative(Link::identity, 9.0) == 1.0);
+  for (Link link : {Link::logit, Link::probit, Link::cloglog, Link::log, Link::identity})
+    for (double mu : {0.01, 0.3, 0.5, 0.9})
+      CHECK_THAT(habcast::link_inverse(link, habcast::link_function(link, mu)), WithinRel(mu, 1e-13));
+}
