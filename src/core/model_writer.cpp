@@ -3,6 +3,7 @@
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
+#include <iterator>
 #include <sstream>
 #include <stdexcept>
 
@@ -47,7 +48,13 @@ std::string relative_to_model(const std::string& target, const std::string& mode
   const fs::path model_dir = fs::absolute(fs::path(model_path)).parent_path();
   const fs::path abs_target = fs::absolute(fs::path(target)).lexically_normal();
   const fs::path rel = abs_target.lexically_relative(model_dir.lexically_normal());
-  return rel.empty() ? abs_target.string() : rel.generic_string();
+  // Relative paths let a model travel with its data; when the two share nothing but the root
+  // ("../../../usr/share/...") an absolute path says more.
+  const bool shares_folder = std::next(abs_target.begin()) != abs_target.end() &&
+                             std::next(model_dir.begin()) != model_dir.end() &&
+                             *std::next(abs_target.begin()) == *std::next(model_dir.begin());
+  if (rel.empty() || (fs::path(target).is_absolute() && !shares_folder)) return abs_target.generic_string();
+  return rel.generic_string();
 }
 
 std::string array_of_numbers(const double* values, std::size_t n) {
