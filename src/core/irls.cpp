@@ -78,7 +78,6 @@ class Irls {
         next.beta = (next.beta + beta_old) / 2.0;
         evaluate(next);
       }
-      last_input_ = s;
       last_change_ = std::fabs(next.deviance - dev_old) / (std::fabs(next.deviance) + 0.1);
       s = next;
       if (last_change_ < o_.tolerance) {
@@ -99,11 +98,12 @@ class Irls {
   /// True when the weighted design lost rank during the iterations (weights collapsing to 0).
   [[nodiscard]] bool weighted_rank_lost() const { return weighted_rank_lost_; }
 
-  /// (X'WX)^-1 from the QR factor of sqrt(W) X with the working weights of the last iteration,
-  /// i.e. at the fitted values before the final update, as R's summary.glm uses fit$qr. (At
-  /// convergence the two differ in the 7th digit or beyond; we follow R so the numbers agree.)
-  Eigen::MatrixXd unscaled_covariance() const {
-    const Eigen::VectorXd sw = working_sqrt_weights(last_input_);
+  /// (X'WX)^-1 from the QR factor of sqrt(W) X with the working weights at `s`. R (fit$qr) and
+  /// statsmodels take the weights of the iteration before the final update, which carries that
+  /// update's size into the standard errors; we pass the converged state, which is the inverse
+  /// information at the estimate itself.
+  Eigen::MatrixXd unscaled_covariance(const State& s) const {
+    const Eigen::VectorXd sw = working_sqrt_weights(s);
     const Eigen::MatrixXd WX = sw.asDiagonal() * X_;
     Eigen::ColPivHouseholderQR<Eigen::MatrixXd> qr(WX);
     const Eigen::Index p = X_.cols();
@@ -166,7 +166,6 @@ class Irls {
   bool weighted_rank_lost_ = false;
   int iterations_ = 0;
   double last_change_ = std::numeric_limits<double>::infinity();
-  State last_input_;
 };
 
 std::string term_list(const GlmProblem& p, const std::vector<Eigen::Index>& columns) {
@@ -329,7 +328,7 @@ GlmFit fit_glm(const GlmProblem& problem, const IrlsOptions& options) {
     }
     fit.dispersion = pearson / static_cast<double>(fit.df_residual);
   }
-  fit.covariance = fit.dispersion * irls.unscaled_covariance();
+  fit.covariance = fit.dispersion * irls.unscaled_covariance(s);
   fit.covariance = (fit.covariance + fit.covariance.transpose()) / 2.0;  // exactly symmetric for the file
   fit.std_errors = fit.covariance.diagonal().cwiseMax(0.0).cwiseSqrt();
   return fit;

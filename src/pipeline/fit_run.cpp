@@ -253,6 +253,10 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   if (response.empty())
     throw UsageError("which column holds the response? pass --response COLUMN or write the formula as \"COLUMN ~ terms\"");
 
+  if (is_csv_path(options.points.path) && (response == options.points.x_column || response == options.points.y_column))
+    throw UsageError("the response column \"" + response + "\" is also the " +
+                     (response == options.points.x_column ? "x" : "y") +
+                     " coordinate column; name the coordinate columns with --x and --y");
   PointSourceOptions po = options.points;
   po.columns = {response};
   if (!options.weights_column.empty()) po.columns.push_back(options.weights_column);

@@ -23,8 +23,10 @@ void require_matches_r(const GlmFit& fit, const std::vector<std::string>& terms,
     CHECK(row.estimate == Approx(r.estimate).epsilon(kRelative));
     CHECK(row.std_error == Approx(r.std_error).epsilon(kRelative));
     CHECK(row.statistic == Approx(r.statistic).epsilon(kRelative));
-    // p-values: relative where they are not vanishingly small.
-    CHECK(row.p_value == Approx(r.p_value).epsilon(kRelative).margin(1e-14));
+    // p-values to 1e-5: R's SEs use the weights of the iteration before its last update (about
+    // 1e-7 away at R's 1e-14 tolerance), ours the converged weights, and a p-value magnifies a
+    // relative change of z by about z^2 (up to ~10 here).
+    CHECK(row.p_value == Approx(r.p_value).epsilon(1e-5).margin(1e-14));
   }
   CHECK(fit.deviance == Approx(ref.statistics.at("deviance")).epsilon(kRelative));
   CHECK(fit.null_deviance == Approx(ref.statistics.at("null_deviance")).epsilon(kRelative));
