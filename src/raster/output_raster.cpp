@@ -148,6 +148,11 @@ struct OutputRaster::Impl {
   bool committed = false;
   std::string close_error;  ///< set when close() failed: the file must then never be committed
 
+  Impl() = default;
+  ~Impl();
+  Impl(const Impl&) = delete;
+  Impl& operator=(const Impl&) = delete;
+
   [[nodiscard]] std::string describe() const { return spec.final_path + " (temporary file " + temporary_path + ")"; }
   void create(const RasterGrid& grid);
   void georeference(const RasterGrid& grid);
@@ -238,25 +243,29 @@ OutputRaster::OutputRaster(const OutputSpec& spec, const RasterGrid& grid) : imp
   validate_spec(spec);
   impl_->spec = spec;
   impl_->options = merged_creation_options(spec.type, spec.creation_options, spec.final_path);
-  impl_->temporary_path = temporary_path_for(spec.final_path);
   check_folder(spec.final_path);
+  impl_->temporary_path = temporary_path_for(spec.final_path);  // from here on, Impl cleans up
   impl_->create(grid);
   impl_->georeference(grid);
   impl_->describe_bands();
 }
 
-OutputRaster::~OutputRaster() {
-  if (impl_ == nullptr || impl_->committed) return;
-  if (impl_->dataset) {
+// The clean-up lives in Impl rather than in ~OutputRaster so that it also runs when the
+// constructor fails after the file was created (e.g. the CRS cannot be stored).
+OutputRaster::Impl::~Impl() {
+  if (committed || temporary_path.empty()) return;
+  if (dataset) {
     // Nothing written so far is wanted: skip flushing it and let GDAL delete the file.
-    impl_->dataset->MarkSuppressOnClose();
-    impl_->dataset.reset();
+    dataset->MarkSuppressOnClose();
+    dataset.reset();
     take_gdal_error();
   }
   std::error_code ignored;
-  fs::remove(impl_->temporary_path, ignored);
-  fs::remove(sidecar_of(impl_->temporary_path), ignored);
+  fs::remove(temporary_path, ignored);
+  fs::remove(sidecar_of(temporary_path), ignored);
 }
+
+OutputRaster::~OutputRaster() = default;
 
 void OutputRaster::write(int band, const Window& window, const float* values) {
   impl_->write(band, window, values, GDT_Float32);

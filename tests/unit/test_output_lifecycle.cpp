@@ -170,3 +170,11 @@ TEST_CASE("An output in a missing folder is an I/O error naming the path", "[ras
   CHECK_THROWS_WITH(OutputRaster(float_spec("/nonexistent/habcast/folder/out.tif"), utm_grid(4, 4)),
                     Catch::Matchers::Contains("/nonexistent/habcast/folder/out.tif"));
 }
+
+TEST_CASE("An output whose construction fails after creating the file leaves no file behind", "[raster][output]") {
+  TempFolder folder;
+  habcast::RasterGrid grid = utm_grid(4, 4);
+  grid.crs_wkt = "not a CRS";  // rejected only after the GeoTIFF exists
+  CHECK_THROWS_AS(OutputRaster(float_spec(folder.file("suitability.tif")), grid), std::invalid_argument);
+  CHECK(folder.names().empty());
+}

@@ -156,7 +156,7 @@ TEST_CASE("existing outputs are kept unless --overwrite is given", "[predict][er
   CHECK(habcast::test::list_dir(s.out).size() == 4);
 }
 
-TEST_CASE("--max-extrapolated turns too much extrapolation into exit code 5", "[predict][errors]") {
+TEST_CASE("a maximum extrapolated share (--max-extrapolated) turns too much extrapolation into exit code 5", "[predict][errors]") {
   Scene s;
   std::string err;
   // elev 300..629 vs training 320..600: some columns/rows are outside.
