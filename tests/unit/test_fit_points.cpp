@@ -118,6 +118,7 @@ TEST_CASE("Bilinear sampling interpolates between pixel centres and falls back a
 TEST_CASE("Points come from a GeoPackage through OGR with the layer's CRS", "[fit]") {
   test::TempDir dir("fit-gpkg");
   const std::string gpkg = dir.file("sites.gpkg");
+  ensure_gdal();  // a test run on its own has not registered the drivers yet
   {
     GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GPKG");
     REQUIRE(driver != nullptr);
