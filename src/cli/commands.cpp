@@ -16,6 +16,7 @@ void register_commands(CLI::App& app, CommandRegistry& registry) {
   register_predict(app, registry);
   register_fit(app, registry);
   register_evaluate(app, registry);
+  register_describe(app, registry);
 }
 
 }  // namespace habcast::cli
