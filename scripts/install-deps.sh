@@ -17,7 +17,7 @@ packages=(
 )
 for flag in "$@"; do
   case "$flag" in
-    --with-reference-tools) packages+=(r-base-core r-cran-vegan python3-statsmodels) ;;
+    --with-reference-tools) packages+=(r-base-core r-cran-vegan r-cran-mass python3-statsmodels) ;;
     --with-cluster-tools) packages+=(slurm-wlm munge) ;;
     *) echo "install-deps.sh: unknown option $flag" >&2; exit 2 ;;
   esac
