@@ -1,9 +1,11 @@
 #!/usr/bin/env bash
 # Installs the Debian 12 packages habcast needs to build and test.
 # Idempotent: packages already present are skipped, so re-running is cheap.
-# Usage: scripts/install-deps.sh [--with-reference-tools]
+# Usage: scripts/install-deps.sh [--with-reference-tools] [--with-cluster-tools]
 #   --with-reference-tools also installs R, vegan and statsmodels, which are
 #   only needed to regenerate reference numbers in tests/reference/.
+#   --with-cluster-tools also installs Slurm and munge, for the test that runs
+#   the example batch job array on a single-node cluster it starts itself.
 set -euo pipefail
 
 packages=(
@@ -13,9 +15,13 @@ packages=(
   libqhull-dev libtbb-dev
   python3 python3-gdal python3-numpy
 )
-if [[ "${1:-}" == "--with-reference-tools" ]]; then
-  packages+=(r-base-core r-cran-vegan r-cran-mass python3-statsmodels)
-fi
+for flag in "$@"; do
+  case "$flag" in
+    --with-reference-tools) packages+=(r-base-core r-cran-vegan r-cran-mass python3-statsmodels) ;;
+    --with-cluster-tools) packages+=(slurm-wlm munge) ;;
+    *) echo "install-deps.sh: unknown option $flag" >&2; exit 2 ;;
+  esac
+done
 
 missing=()
 for p in "${packages[@]}"; do

@@ -17,6 +17,7 @@ void register_commands(CLI::App& app, CommandRegistry& registry) {
   register_fit(app, registry);
   register_evaluate(app, registry);
   register_describe(app, registry);
+  register_batch(app, registry);
 }
 
 }  // namespace habcast::cli

@@ -34,5 +34,6 @@ void register_predict(CLI::App& app, CommandRegistry& registry);
 void register_fit(CLI::App& app, CommandRegistry& registry);
 void register_evaluate(CLI::App& app, CommandRegistry& registry);
 void register_describe(CLI::App& app, CommandRegistry& registry);
+void register_batch(CLI::App& app, CommandRegistry& registry);
 
 }  // namespace habcast::cli

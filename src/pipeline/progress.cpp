@@ -43,6 +43,8 @@ class BarProgress final : public Progress {
     err_ << (level == "warning" ? "WARNING: " : "") << text << "\n";
     drawn_ = false;
   }
+  void set_unit(const std::string& unit) override { unit_ = unit; }
+  void note(const std::string& text) override { note_ = text; }
 
  private:
   void draw(std::int64_t done, bool force) {
@@ -59,7 +61,8 @@ class BarProgress final : public Progress {
     if (done > 0 && done < total_) eta = "  ETA " + format_seconds(elapsed / fraction - elapsed);
     char pct[16];
     std::snprintf(pct, sizeof pct, "%3d%%", static_cast<int>(fraction * 100.0));
-    err_ << "\r\033[K" << task_ << " [" << bar << "] " << pct << "  " << done << "/" << total_ << " blocks" << eta;
+    err_ << "\r\033[K" << task_ << " [" << bar << "] " << pct << "  " << done << "/" << total_ << " " << unit_
+         << (note_.empty() ? "" : "  " + note_) << eta;
     err_.flush();
     drawn_ = true;
   }
@@ -69,6 +72,8 @@ class BarProgress final : public Progress {
   std::int64_t total_ = 0;
   Clock::time_point begin_, last_;
   bool drawn_ = false;
+  std::string unit_ = "blocks";
+  std::string note_;
 };
 
 /// One JSON object per line on stderr: {"event":"progress","task":...,"done":...,"total":...}.
@@ -79,18 +84,22 @@ class JsonProgress final : public Progress {
     task_ = task;
     total_ = total;
     last_ = Clock::now();
-    emit({{"event", "start"}, {"task", task_}, {"total", total_}});
+    emit({{"event", "start"}, {"task", task_}, {"total", total_}, {"unit", unit_}});
   }
   void advance(std::int64_t done) override {
     const auto now = Clock::now();
     if (done != total_ && now - last_ < std::chrono::seconds(1)) return;
     last_ = now;
-    emit({{"event", "progress"}, {"task", task_}, {"done", done}, {"total", total_}});
+    nlohmann::json event{{"event", "progress"}, {"task", task_}, {"done", done}, {"total", total_}};
+    if (!note_.empty()) event["note"] = note_;
+    emit(event);
   }
   void finish() override { emit({{"event", "finish"}, {"task", task_}}); }
   void message(const std::string& level, const std::string& text) override {
     emit({{"event", "message"}, {"level", level}, {"text", text}});
   }
+  void set_unit(const std::string& unit) override { unit_ = unit; }
+  void note(const std::string& text) override { note_ = text; }
 
  private:
   void emit(const nlohmann::json& j) { err_ << j.dump() << "\n" << std::flush; }
@@ -98,6 +107,8 @@ class JsonProgress final : public Progress {
   std::string task_;
   std::int64_t total_ = 0;
   Clock::time_point last_;
+  std::string unit_ = "blocks";
+  std::string note_;
 };
 
 /// No bar; messages still printed as plain lines (quiet drops informational ones).

@@ -16,6 +16,10 @@ class Progress {
   virtual void finish() = 0;
   /// A message for the user (warnings, summaries): text line or JSON event.
   virtual void message(const std::string& level, const std::string& text) = 0;
+  /// What `total` counts ("blocks" unless set); call before start().
+  virtual void set_unit(const std::string& unit) { (void)unit; }
+  /// A short status shown beside the count (e.g. "3/9 tiles, 1 failed"); kept until replaced.
+  virtual void note(const std::string& text) { (void)text; }
 };
 
 enum class ProgressStyle { automatic, bar, json, quiet };

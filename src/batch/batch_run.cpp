@@ -1,0 +1,344 @@
+#include "batch/batch_run.hpp"
+
+#include <algorithm>
+#include <atomic>
+#include <chrono>
+#include <csignal>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <mutex>
+#include <thread>
+
+#include "batch/batch_progress.hpp"
+#include "batch/manifest.hpp"
+#include "batch/mosaic.hpp"
+#include "batch/region_report.hpp"
+#include "batch/tile_list.hpp"
+#include "batch/tile_record.hpp"
+#include "core/model_file.hpp"
+#include "pipeline/atomic_file.hpp"
+#include "pipeline/predict_run.hpp"
+#include "pipeline/prediction_report.hpp"
+#include "pipeline/stop_signal.hpp"
+#include "raster/gdal_session.hpp"
+#include "raster/output_raster.hpp"
+#include "raster/raster_grid.hpp"
+
+namespace habcast {
+
+namespace {
+
+namespace fs = std::filesystem;
+using json = nlohmann::ordered_json;
+using Clock = std::chrono::steady_clock;
+
+/// Files a tile folder may hold from an earlier attempt; removed before a tile is redone so the
+/// folder never mixes two runs.
+const std::vector<std::string> kTileFiles = {"suitability.tif", "uncertainty.tif", "extrapolation.tif",
+                                             "extrapolation.tif.aux.xml", "report.json", "tile-record.json"};
+
+/// Everything fixed for the whole batch once the manifest and model are read.
+struct BatchPlan {
+  BatchManifest manifest;
+  ModelSpec spec;
+  std::vector<Tile> tiles;  ///< sorted by id
+  TileSettings settings;
+  std::string model_hash;
+  std::string tool_version;
+
+  [[nodiscard]] json fingerprint(const Tile& tile) const {
+    return tile_fingerprint(tile, model_hash, settings, tool_version);
+  }
+};
+
+BatchPlan make_plan(const BatchOptions& options, const std::string& tool_version) {
+  BatchPlan plan;
+  plan.manifest = read_batch_manifest(options.manifest_path);
+  if (!options.output_dir.empty())
+    plan.manifest.output_dir = fs::absolute(options.output_dir).lexically_normal().string();
+  if (!fs::exists(plan.manifest.model_path))
+    throw InputError(located(plan.manifest.path, plan.manifest.model_line,
+                             "model file " + plan.manifest.model_path + " does not exist; model paths are relative to the manifest's folder"));
+  plan.spec = read_model_file(plan.manifest.model_path);
+  if (plan.manifest.max_extrapolated_percent && !plan.spec.training_samples)
+    throw InputError(located(plan.manifest.path, 0, "predict.max_extrapolated needs training samples: add [training] samples = \"FILE.csv\" to " + plan.spec.path));
+  if (plan.spec.training_samples && !fs::exists(*plan.spec.training_samples))
+    throw InputError(located(plan.spec.path, plan.spec.training_line, "training samples " + *plan.spec.training_samples +
+                                                                          " do not exist; check the path (relative to the model file)"));
+  plan.tiles = list_tiles(plan.manifest, plan.spec);
+  plan.settings = {plan.manifest.level, plan.manifest.block_size, plan.manifest.creation_options, plan.manifest.overviews};
+  plan.model_hash = model_fingerprint(plan.spec.path, plan.spec.training_samples ? &*plan.spec.training_samples : nullptr);
+  plan.tool_version = tool_version;
+  return plan;
+}
+
+std::int64_t tile_pixels(const Tile& tile) {
+  for (const auto& [covariate, path] : tile.rasters) {
+    (void)covariate;
+    try {
+      const RasterGrid g = read_grid(path);
+      return static_cast<std::int64_t>(g.width) * g.height;
+    } catch (const Error&) {
+      // A missing or unreadable raster is the tile's failure to report later, not the estimate's.
+    }
+  }
+  return 0;
+}
+
+void clear_tile_folder(const std::string& dir) {
+  // The record goes first: if anything below is interrupted the tile reads as "not run" next time.
+  for (const std::string& name : kTileFiles) {
+    std::error_code ignored;
+    fs::remove(fs::path(dir) / name, ignored);
+  }
+  remove_stale_partials(dir, {"tile-record.json"});
+}
+
+void check_rasters_exist(const Tile& tile) {
+  std::string missing;
+  for (const auto& [covariate, path] : tile.rasters)
+    if (!fs::exists(path)) missing += (missing.empty() ? "" : "; ") + covariate + " (" + path + " does not exist)";
+  if (!missing.empty()) throw InputError("tile \"" + tile.id + "\" lacks a covariate raster: " + missing);
+}
+
+struct TileRun {
+  TileOutcome outcome;
+  json record;
+};
+
+TileRun run_tile(const BatchPlan& plan, const Tile& tile, int threads, TileProgress& progress) {
+  const auto t0 = Clock::now();
+  const std::string dir = tile_folder(plan.manifest.output_dir, tile.id);
+  const json fingerprint = plan.fingerprint(tile);
+  auto seconds = [&] { return std::chrono::duration<double>(Clock::now() - t0).count(); };
+  TileRun run;
+  run.outcome.id = tile.id;
+  run.outcome.ran_this_run = true;
+  try {
+    std::error_code ec;
+    fs::create_directories(dir, ec);
+    if (ec) throw IoError(dir + ": cannot create the tile's output folder: " + ec.message());
+    clear_tile_folder(dir);
+    check_rasters_exist(tile);
+    PredictOptions po;
+    po.model_path = plan.spec.path;
+    for (const auto& [covariate, path] : tile.rasters) po.covariate_rasters[covariate] = path;
+    po.output_dir = dir;
+    po.level = plan.settings.level;
+    po.threads = threads;
+    po.block_size = plan.settings.block_size;
+    po.creation_options = plan.settings.creation_options;
+    po.overviews = plan.settings.overviews;
+    po.overwrite = true;
+    const PredictSummary summary = run_predict(po, progress, plan.tool_version);
+    run.record = done_record(tile.id, fingerprint, summary.outputs, seconds());
+    // Written last: a tile is done exactly when its record says so.
+    write_file_atomically(record_path(dir), run.record.dump(2) + "\n");
+    run.outcome.status = "done";
+  } catch (const Interrupted&) {
+    throw;
+  } catch (const std::exception& e) {
+    const auto* error = dynamic_cast<const Error*>(&e);
+    run.outcome.status = "failed";
+    run.outcome.reason = error ? e.what() : std::string("internal error (please report): ") + e.what();
+    const int code = error ? static_cast<int>(error->code()) : static_cast<int>(ExitCode::internal);
+    run.record = failed_record(tile.id, fingerprint, run.outcome.reason, code, seconds());
+    try {
+      write_file_atomically(record_path(dir), run.record.dump(2) + "\n");
+    } catch (const Error&) {
+      // Without a record the tile reads as "not run", which a re-run redoes all the same.
+    }
+  }
+  run.outcome.seconds = seconds();
+  return run;
+}
+
+/// Runs `pending` tiles, several at once. Returns their runs in the order of `pending`.
+std::vector<TileRun> run_tiles(const BatchPlan& plan, const std::vector<const Tile*>& pending,
+                               const std::vector<std::int64_t>& pixels, int threads, int tile_workers,
+                               BatchProgress& progress) {
+  std::vector<TileRun> runs(pending.size());
+  const int workers = std::max(1, std::min<int>(tile_workers, static_cast<int>(pending.size())));
+  const int per_tile = std::max(1, threads / workers);
+  std::atomic<std::size_t> next{0};
+  std::atomic<bool> interrupted{false};
+  std::mutex failure_mutex;
+  std::exception_ptr unexpected;
+  auto loop = [&] {
+    for (;;) {
+      if (interrupted.load() || stop_signal() != 0) return;
+      const std::size_t i = next.fetch_add(1);
+      if (i >= pending.size()) return;
+      std::unique_ptr<TileProgress> tile_progress = progress.for_tile(pixels[i]);
+      try {
+        runs[i] = run_tile(plan, *pending[i], per_tile, *tile_progress);
+      } catch (const Interrupted&) {
+        interrupted.store(true);
+        return;
+      } catch (...) {
+        std::lock_guard lock(failure_mutex);
+        if (!unexpected) unexpected = std::current_exception();
+        interrupted.store(true);
+        return;
+      }
+      progress.tile_finished(*tile_progress, runs[i].outcome.status == "done");
+    }
+  };
+  std::vector<std::thread> pool;
+  for (int w = 1; w < workers; ++w) pool.emplace_back(loop);
+  loop();
+  for (std::thread& t : pool) t.join();
+  if (unexpected) std::rethrow_exception(unexpected);
+  if (interrupted.load() || stop_signal() != 0) throw Interrupted(stop_signal() != 0 ? stop_signal() : SIGINT);
+  return runs;
+}
+
+json read_json(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) return nullptr;
+  try {
+    return json::parse(in);
+  } catch (const json::exception&) {
+    return nullptr;
+  }
+}
+
+TileOutcome outcome_of(const std::string& id, const TileAssessment& a) {
+  TileOutcome o;
+  o.id = id;
+  o.status = to_string(a.state);
+  if (a.state != TileState::up_to_date) o.reason = a.reason;
+  if (a.record.is_object()) o.seconds = a.record.value("elapsed_seconds", 0.0);
+  return o;
+}
+
+int choose_threads(int requested) {
+  return requested > 0 ? requested : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+}
+
+/// Mosaic and report over every tile of the manifest, from what is on disk (records) plus what
+/// this process has just done.
+void finish_region(const BatchPlan& plan, const BatchOptions& options, std::map<std::string, TileRun>& known,
+                   BatchSummary& summary) {
+  std::vector<FinishedTile> finished;
+  RegionReportInput in;
+  in.tool_version = plan.tool_version;
+  in.manifest_path = plan.manifest.path;
+  in.output_dir = plan.manifest.output_dir;
+  in.spec = &plan.spec;
+  in.max_extrapolated_percent = plan.manifest.max_extrapolated_percent;
+  for (const Tile& tile : plan.tiles) {
+    const std::string dir = tile_folder(plan.manifest.output_dir, tile.id);
+    auto it = known.find(tile.id);
+    if (it == known.end()) {
+      const TileAssessment a = assess_tile(dir, plan.fingerprint(tile));
+      it = known.emplace(tile.id, TileRun{outcome_of(tile.id, a), a.record}).first;
+    }
+    const TileOutcome& o = it->second.outcome;
+    RegionTile row{o.id, o.status, o.reason, o.ran_this_run, o.seconds, nullptr};
+    if (o.status == "done" || o.status == "up_to_date") {
+      finished.push_back({tile.id, dir, it->second.record});
+      row.tile_report = read_json((fs::path(dir) / "report.json").string());
+    }
+    in.tiles.push_back(std::move(row));
+  }
+  if (!finished.empty()) {
+    summary.outputs = build_region_mosaic(plan.manifest.output_dir, finished, options.cog);
+  } else {
+    summary.warnings.push_back("No tile is done, so no mosaic was built.");
+  }
+  in.mosaic = summary.outputs;
+  RegionReport report = region_report(in);
+  const int not_done = static_cast<int>(plan.tiles.size() - finished.size());
+  summary.not_done = not_done;
+  int exit_code = 0;
+  if (not_done > 0) {
+    exit_code = kExitTilesFailed;
+  } else if (plan.manifest.max_extrapolated_percent &&
+             100.0 * report.extrapolated_share > *plan.manifest.max_extrapolated_percent) {
+    exit_code = static_cast<int>(ExitCode::extrapolation);
+    summary.warnings.push_back(format_value(100.0 * report.extrapolated_share) +
+                               " % of the region's valid pixels are extrapolated, more than max_extrapolated " +
+                               format_value(*plan.manifest.max_extrapolated_percent) + " % (exit code 5).");
+  }
+  report.json["warnings"] = summary.warnings;
+  report.json["exit_code"] = exit_code;
+  std::error_code ec;
+  fs::create_directories(plan.manifest.output_dir, ec);
+  remove_stale_partials(plan.manifest.output_dir, {"batch-report.json", "batch-report.csv"});
+  for (const std::string& p : write_region_report(plan.manifest.output_dir, report)) summary.outputs.push_back(p);
+  summary.report = std::move(report.json);
+  summary.exit_code = exit_code;
+}
+
+}  // namespace
+
+BatchSummary run_batch(const BatchOptions& options, Progress& progress, const std::string& tool_version) {
+  if (options.mosaic_only && options.shard)
+    throw UsageError("--mosaic-only and --shard do not go together: shards run tiles, the mosaic step reads them all");
+  if (options.mosaic_only && options.force)
+    throw UsageError("--mosaic-only runs no tile, so --force has nothing to redo");
+  if (options.threads < 0 || options.tile_workers < 0) throw UsageError("--threads and --tile-workers must be 0 or more");
+  ensure_gdal();
+  const BatchPlan plan = make_plan(options, tool_version);
+
+  std::vector<std::size_t> selected;
+  if (options.shard) selected = shard_positions(plan.tiles.size(), *options.shard);
+  else
+    for (std::size_t i = 0; i < plan.tiles.size(); ++i) selected.push_back(i);
+
+  BatchSummary summary;
+  std::map<std::string, TileRun> known;
+  if (!options.mosaic_only) {
+    std::vector<const Tile*> pending;
+    for (const std::size_t i : selected) {
+      const Tile& tile = plan.tiles[i];
+      const std::string dir = tile_folder(plan.manifest.output_dir, tile.id);
+      if (!options.force) {
+        const TileAssessment a = assess_tile(dir, plan.fingerprint(tile));
+        if (a.state == TileState::up_to_date) {
+          known.emplace(tile.id, TileRun{outcome_of(tile.id, a), a.record});
+          continue;
+        }
+      }
+      pending.push_back(&tile);
+    }
+    const int threads = choose_threads(options.threads);
+    const int workers = options.tile_workers > 0 ? options.tile_workers : threads;
+    std::vector<TileRun> runs;
+    {
+      std::vector<std::int64_t> pixels;
+      std::int64_t total_pixels = 0;
+      for (const Tile* t : pending) total_pixels += pixels.emplace_back(tile_pixels(*t));
+      BatchProgress display(progress, static_cast<std::int64_t>(pending.size()), total_pixels,
+                            static_cast<std::int64_t>(known.size()));
+      runs = run_tiles(plan, pending, pixels, threads, workers, display);
+      display.finish();
+    }
+    for (TileRun& run : runs) known.emplace(run.outcome.id, std::move(run));
+  }
+
+  for (const std::size_t i : selected) {
+    const Tile& tile = plan.tiles[i];
+    auto it = known.find(tile.id);
+    if (it == known.end()) {
+      const TileAssessment a = assess_tile(tile_folder(plan.manifest.output_dir, tile.id), plan.fingerprint(tile));
+      it = known.emplace(tile.id, TileRun{outcome_of(tile.id, a), a.record}).first;
+    }
+    const TileOutcome& o = it->second.outcome;
+    summary.tiles.push_back(o);
+    if (o.ran_this_run && o.status == "done") ++summary.ran;
+    else if (o.status == "up_to_date") ++summary.up_to_date;
+    else if (o.status == "failed") ++summary.failed;
+  }
+  if (options.shard) {
+    summary.not_done = static_cast<int>(summary.tiles.size()) - summary.ran - summary.up_to_date;
+    summary.exit_code = summary.not_done > 0 ? kExitTilesFailed : 0;
+    return summary;
+  }
+  finish_region(plan, options, known, summary);
+  return summary;
+}
+
+}  // namespace habcast

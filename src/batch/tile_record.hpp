@@ -1,0 +1,60 @@
+#pragma once
+// The small JSON record a tile leaves in its output folder (tile-record.json): what its outputs
+// were computed from (the fingerprint: inputs' sizes and modification times, model and training
+// hashes, options, habcast version) and what they were (sizes and FNV-1a hashes). A re-run skips a
+// tile whose record still matches and whose outputs still verify; anything else is redone.
+#include <nlohmann/json.hpp>
+#include <string>
+#include <vector>
+
+#include "batch/tile_list.hpp"
+
+namespace habcast {
+
+/// Options that change a tile's outputs (threads do not: outputs are identical for any count).
+struct TileSettings {
+  double level = 0.95;
+  int block_size = 512;
+  std::vector<std::string> creation_options;
+  bool overviews = false;
+};
+
+/// What a tile's outputs depend on. `model_hash` covers the model file and its training table.
+nlohmann::ordered_json tile_fingerprint(const Tile& tile, const std::string& model_hash, const TileSettings& settings,
+                                        const std::string& tool_version);
+
+/// FNV-1a 64 of the model file followed by its training table (when it names one), as hex.
+std::string model_fingerprint(const std::string& model_path, const std::string* training_path);
+
+/// OUT/tiles/<id>
+std::string tile_folder(const std::string& output_dir, const std::string& id);
+/// OUT/tiles/<id>/tile-record.json
+std::string record_path(const std::string& tile_dir);
+
+/// Record of a finished tile: fingerprint plus every output (file name, size, hash).
+nlohmann::ordered_json done_record(const std::string& id, const nlohmann::ordered_json& fingerprint,
+                                   const std::vector<std::string>& outputs, double seconds);
+/// Record of a failed tile, so that the region report knows why, whoever ran it.
+nlohmann::ordered_json failed_record(const std::string& id, const nlohmann::ordered_json& fingerprint,
+                                     const std::string& error, int exit_code, double seconds);
+
+enum class TileState {
+  up_to_date,    ///< record matches and every output verifies
+  no_record,     ///< never run, or interrupted (the record is written last)
+  failed,        ///< the last attempt failed (the record says why)
+  changed,       ///< inputs, model, options or habcast version differ from the record
+  outputs_bad,   ///< an output is missing or its size or hash differs
+};
+
+struct TileAssessment {
+  TileState state = TileState::no_record;
+  std::string reason;             ///< plain language, for the summary and report
+  nlohmann::ordered_json record;  ///< the record read (null when none or unreadable)
+};
+
+/// Compares the tile's record with the current fingerprint and checks its outputs.
+TileAssessment assess_tile(const std::string& tile_dir, const nlohmann::ordered_json& fingerprint);
+
+const char* to_string(TileState state);
+
+}  // namespace habcast

@@ -1,0 +1,100 @@
+#include "raster/mosaic_files.hpp"
+
+#include <cpl_error.h>
+#include <gdal_utils.h>
+
+#include <filesystem>
+#include <memory>
+
+#include "core/error.hpp"
+#include "raster/gdal_handles.hpp"
+#include "raster/gdal_session.hpp"
+#include "raster/output_raster.hpp"
+
+namespace habcast {
+
+namespace {
+
+struct BuildVrtOptionsFree {
+  void operator()(GDALBuildVRTOptions* o) const noexcept { GDALBuildVRTOptionsFree(o); }
+};
+struct TranslateOptionsFree {
+  void operator()(GDALTranslateOptions* o) const noexcept { GDALTranslateOptionsFree(o); }
+};
+
+/// Closes a dataset GDAL created and reports whether the close (where writes are flushed) worked.
+bool close_checked(GDALDatasetH dataset) {
+  if (!dataset) return false;
+  // GDAL 3.6's GDALClose returns nothing; a failed flush shows up only as the last error.
+  take_gdal_error();
+  CPLErrorReset();
+  GDALClose(dataset);
+  const CPLErr last = CPLGetLastErrorType();
+  return last != CE_Failure && last != CE_Fatal;
+}
+
+/// Removes the temporary file unless it was renamed into place.
+class TemporaryName {
+ public:
+  explicit TemporaryName(std::string final_path)
+      : final_(std::move(final_path)), temporary_(temporary_path_for(final_)) {}
+  ~TemporaryName() {
+    if (committed_) return;
+    std::error_code ignored;
+    std::filesystem::remove(temporary_, ignored);
+  }
+  TemporaryName(const TemporaryName&) = delete;
+  TemporaryName& operator=(const TemporaryName&) = delete;
+  [[nodiscard]] const std::string& path() const { return temporary_; }
+  void commit() {
+    std::error_code ec;
+    std::filesystem::rename(temporary_, final_, ec);
+    if (ec) throw IoError(final_ + ": cannot rename the finished file into place: " + ec.message());
+    committed_ = true;
+  }
+
+ private:
+  std::string final_, temporary_;
+  bool committed_ = false;
+};
+
+}  // namespace
+
+void build_vrt(const std::string& vrt_path, const std::vector<std::string>& sources) {
+  ensure_gdal();
+  if (sources.empty()) throw IoError(vrt_path + ": no finished tile to build the mosaic from");
+  std::vector<const char*> names;
+  for (const std::string& s : sources) names.push_back(s.c_str());
+  // Nearest neighbour: tiles share the grid, so nothing is resampled; this only guards against a
+  // tile whose resolution differs slightly, which must not blur the mosaic.
+  const char* argv[] = {"-r", "nearest", nullptr};
+  std::unique_ptr<GDALBuildVRTOptions, BuildVrtOptionsFree> options(
+      GDALBuildVRTOptionsNew(const_cast<char**>(argv), nullptr));
+  TemporaryName out(vrt_path);
+  int usage_error = 0;
+  take_gdal_error();
+  GDALDatasetH vrt = GDALBuildVRT(out.path().c_str(), static_cast<int>(names.size()), nullptr, names.data(),
+                                  options.get(), &usage_error);
+  if (!vrt) throw IoError(vrt_path + ": building the mosaic failed (" + gdal_reason() + ")");
+  if (!close_checked(vrt)) throw IoError(vrt_path + ": writing the mosaic failed (" + gdal_reason() + ")");
+  out.commit();
+}
+
+void write_cog(const std::string& source, const std::string& cog_path, const std::string& overview_resampling) {
+  ensure_gdal();
+  DatasetPtr input = open_input_raster(source);
+  const std::string resampling = "OVERVIEW_RESAMPLING=" + overview_resampling;
+  const char* argv[] = {"-of", "COG", "-co", "COMPRESS=DEFLATE", "-co", "BIGTIFF=IF_SAFER", "-co", "NUM_THREADS=ALL_CPUS",
+                        "-co", resampling.c_str(), nullptr};
+  std::unique_ptr<GDALTranslateOptions, TranslateOptionsFree> options(
+      GDALTranslateOptionsNew(const_cast<char**>(argv), nullptr));
+  TemporaryName out(cog_path);
+  int usage_error = 0;
+  take_gdal_error();
+  GDALDatasetH cog = GDALTranslate(out.path().c_str(), GDALDataset::ToHandle(input.get()), options.get(), &usage_error);
+  if (!cog) throw IoError(cog_path + ": writing the Cloud Optimized GeoTIFF failed (" + gdal_reason() + ")");
+  if (!close_checked(cog)) throw IoError(cog_path + ": writing the Cloud Optimized GeoTIFF failed (" + gdal_reason() + ")");
+  out.commit();
+}
+
+}  // namespace habcast
