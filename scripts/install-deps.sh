@@ -1,9 +1,10 @@
 #!/usr/bin/env bash
 # Installs the Debian 12 packages habcast needs to build and test.
 # Idempotent: packages already present are skipped, so re-running is cheap.
-# Usage: scripts/install-deps.sh [--with-reference-tools]
+# Usage: scripts/install-deps.sh [--with-reference-tools] [--with-fuzz]
 #   --with-reference-tools also installs R, vegan and statsmodels, which are
 #   only needed to regenerate reference numbers in tests/reference/.
+#   --with-fuzz also installs clang and its libFuzzer/sanitizer runtime (scripts/fuzz.sh).
 set -euo pipefail
 
 packages=(
@@ -13,9 +14,13 @@ packages=(
   libqhull-dev libtbb-dev
   python3 python3-gdal python3-numpy
 )
-if [[ "${1:-}" == "--with-reference-tools" ]]; then
-  packages+=(r-base-core r-cran-vegan python3-statsmodels)
-fi
+for flag in "$@"; do
+  case "$flag" in
+    --with-reference-tools) packages+=(r-base-core r-cran-vegan python3-statsmodels) ;;
+    --with-fuzz) packages+=(clang libclang-rt-14-dev) ;;
+    *) echo "install-deps.sh: unknown flag $flag" >&2; exit 2 ;;
+  esac
+done
 
 missing=()
 for p in "${packages[@]}"; do
