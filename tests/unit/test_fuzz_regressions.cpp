@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "core/error.hpp"
+#include "core/term_syntax.hpp"
 #include "core/model_values.hpp"
 #include "core/term_plan.hpp"
 #include "core/training_domain.hpp"
@@ -80,4 +81,14 @@ TEST_CASE("a categorical raster value beyond any code is an unknown level and is
   CHECK(tally.unseen[1] == 2);
   CHECK(tally.unseen_codes[1].at(std::numeric_limits<std::int64_t>::max()) == 1);
   CHECK(tally.unseen_codes[1].at(std::numeric_limits<std::int64_t>::min()) == 1);
+}
+
+TEST_CASE("a factor repeated until its powers exceed 18 is refused", "[fuzz-regression]") {
+  // The invariant fuzz_term checks (powers 1..18 after merging) did not hold for "x:x:...:x".
+  const habcast::ModelSpec spec = soil_spec();
+  CHECK(habcast::parse_term("tmin^9:tmin^9", spec, "m.toml", 4).factors.at(0).power == 18);
+  std::string label = "tmin";
+  for (int i = 1; i < 19; ++i) label += ":tmin";
+  CHECK_THROWS_WITH(habcast::parse_term(label, spec, "m.toml", 4),
+                    Contains("m.toml:4:") && Contains("add up to 19") && Contains("at most 18"));
 }
