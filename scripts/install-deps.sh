@@ -16,7 +16,7 @@ packages=(
 )
 for flag in "$@"; do
   case "$flag" in
-    --with-reference-tools) packages+=(r-base-core r-cran-vegan python3-statsmodels) ;;
+    --with-reference-tools) packages+=(r-base-core r-cran-vegan r-cran-mass python3-statsmodels) ;;
     --with-fuzz) packages+=(clang libclang-rt-14-dev) ;;
     *) echo "install-deps.sh: unknown flag $flag" >&2; exit 2 ;;
   esac

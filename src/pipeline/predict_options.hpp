@@ -21,6 +21,7 @@ struct PredictOptions {
   bool overwrite = false;
   std::optional<double> max_extrapolated_percent;  ///< exit code 5 above this share of valid pixels
   ProgressStyle progress = ProgressStyle::automatic;
+  std::string quicklook_path;         ///< small PNG of suitability and extrapolation; empty: none
   long long gdal_cache_bytes = 256LL << 20;
   long long max_memory_bytes = 2048LL << 20;  ///< cap on working memory besides GDAL's cache (docs/limits.md)
 };
