@@ -14,7 +14,12 @@ function(habcast_set_warnings target)
   endif()
 endfunction()
 
-if(HABCAST_SANITIZE)
+if(HABCAST_FUZZ)
+  # Coverage instrumentation for every target; only the fuzz targets link libFuzzer's main().
+  add_compile_options(-fsanitize=fuzzer-no-link,address,undefined -fno-omit-frame-pointer
+                      -fno-sanitize-recover=undefined)
+  add_link_options(-fsanitize=address,undefined)
+elseif(HABCAST_SANITIZE)
   add_compile_options(-fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=undefined)
   add_link_options(-fsanitize=address,undefined)
 endif()

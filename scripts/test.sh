@@ -1,7 +1,10 @@
 #!/usr/bin/env bash
-# Builds habcast with warnings as errors and runs the whole test suite (Catch2 through ctest).
+# Builds habcast with warnings as errors and runs the whole test suite (Catch2 through ctest),
+# then builds the same suite again with AddressSanitizer + UndefinedBehaviorSanitizer in
+# build-asan/ and runs it there: any sanitizer report fails the test that triggered it.
 # Installs missing Debian packages first, including R and statsmodels used by the reference checks
 # and Slurm and munge for the job-array integration test.
+# HABCAST_TEST_SANITIZE=0 skips the sanitizer build (quicker local runs).
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
@@ -9,3 +12,14 @@ scripts/install-deps.sh --with-reference-tools --with-cluster-tools
 cmake -S . -B build-test -G Ninja -DCMAKE_BUILD_TYPE=RelWithDebInfo -DHABCAST_WERROR=ON >/dev/null
 cmake --build build-test --parallel
 ctest --test-dir build-test --output-on-failure --parallel "$(nproc)"
+
+if [[ "${HABCAST_TEST_SANITIZE:-1}" != "0" ]]; then
+  # -O1 keeps the instrumented suite fast enough for CI; -g1 gives sanitizer reports file:line.
+  # Warnings are the plain build's job: sanitizer instrumentation makes GCC warn spuriously.
+  cmake -S . -B build-asan -G Ninja -DCMAKE_BUILD_TYPE=Debug "-DCMAKE_CXX_FLAGS_DEBUG=-O1 -g1" \
+    -DHABCAST_SANITIZE=ON >/dev/null
+  cmake --build build-asan --parallel
+  ASAN_OPTIONS="detect_leaks=1:abort_on_error=1:strict_string_checks=1" \
+  UBSAN_OPTIONS="print_stacktrace=1:halt_on_error=1" \
+    ctest --test-dir build-asan --output-on-failure --parallel "$(nproc)"
+fi

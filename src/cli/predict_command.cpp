@@ -38,6 +38,7 @@ struct PredictArgs {
   std::string log_format = "text";
   bool quiet = false;
   double max_extrapolated = -1.0;
+  long long max_memory_mib = 2048;
 };
 
 void parse_covariate_args(PredictArgs& args) {
@@ -54,6 +55,7 @@ void parse_covariate_args(PredictArgs& args) {
 int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err) {
   parse_covariate_args(args);
   if (args.max_extrapolated >= 0.0) args.options.max_extrapolated_percent = args.max_extrapolated;
+  args.options.max_memory_bytes = args.max_memory_mib << 20;
   if (args.log_format == "json") args.options.progress = ProgressStyle::json;
   else if (args.quiet) args.options.progress = ProgressStyle::quiet;
   const bool terminal = &err == &std::cerr && isatty(STDERR_FILENO) != 0;
@@ -103,6 +105,11 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--co", args->options.creation_options,
                   "GDAL GeoTIFF creation option KEY=VALUE (repeatable), e.g. --co COMPRESS=ZSTD;\n"
                   "defaults: TILED=YES, 256x256 blocks, DEFLATE with predictor, BIGTIFF=IF_SAFER");
+  cmd->add_option("--max-memory", args->max_memory_mib,
+                  "MIB: refuse to start when windows x threads would need more working memory than this\n"
+                  "(besides GDAL's cache); see docs/limits.md")
+      ->default_val(2048)
+      ->check(CLI::Range(16LL, 1LL << 30));
   cmd->add_flag("--overviews", args->options.overviews, "Build internal overviews for fast display");
   cmd->add_option("--quicklook", args->options.quicklook_path,
                   "FILE.png: also draw a small picture of suitability.tif (longer side 512 pixels) with\n"

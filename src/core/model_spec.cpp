@@ -1,6 +1,7 @@
 #include "core/model_spec.hpp"
 
 #include <algorithm>
+#include <cmath>
 
 namespace habcast {
 
@@ -8,6 +9,13 @@ int Covariate::level_index(std::int64_t code) const {
   for (std::size_t i = 0; i < levels.size(); ++i)
     if (levels[i].code == code) return static_cast<int>(i);
   return -1;
+}
+
+std::optional<std::int64_t> level_code(double value) {
+  // 2^63 is exact in double; converting anything at or beyond it (or NaN) would be undefined.
+  constexpr double limit = 9223372036854775808.0;
+  if (!(value >= -limit && value < limit) || value != std::floor(value)) return std::nullopt;
+  return static_cast<std::int64_t>(value);
 }
 
 int ModelSpec::covariate_index(const std::string& covariate_name) const {

@@ -42,6 +42,10 @@ struct Covariate {
   [[nodiscard]] int level_index(std::int64_t code) const;
 };
 
+/// The level code a raster or table value stands for: the value itself when it is a whole number
+/// that a 64-bit integer can hold, else nothing (2.5, 1e30, NaN and infinities are codes of no level).
+std::optional<std::int64_t> level_code(double value);
+
 struct ModelSpec {
   std::string path;  ///< the model file, as given
   int format_version = 1;

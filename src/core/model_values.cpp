@@ -43,7 +43,8 @@ void to_model_values(const ModelSpec& spec, const TermPlan& plan, const Eigen::A
           continue;
         }
         const double code = in[i];
-        const int level = code == std::floor(code) ? cov.level_index(static_cast<std::int64_t>(code)) : -1;
+        const std::optional<std::int64_t> whole = level_code(code);
+        const int level = whole ? cov.level_index(*whole) : -1;
         dst[i] = static_cast<double>(level);
         if (level < 0 && used) {
           predict_valid[i] = 0;

@@ -188,6 +188,11 @@ class TermParser {
       if (!merged.empty() && key(merged.back()) == key(f)) {
         if (f.level >= 0) fail("repeats the indicator of one level; it is already 0 or 1");
         merged.back().power += f.power;
+        // The documented bound (term_syntax.hpp: up to 18, as in x^9:x^9). Without it "x:x:...:x"
+        // could ask for any power, evaluated by that many multiplications per pixel.
+        if (merged.back().power > 2 * kMaxPower)
+          fail("the powers of one factor add up to " + std::to_string(merged.back().power) + "; at most " +
+               std::to_string(2 * kMaxPower) + " are allowed. Write the term with one power, e.g. \"x^3\"");
       } else {
         merged.push_back(f);
       }

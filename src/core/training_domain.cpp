@@ -38,7 +38,9 @@ TrainingDomain::TrainingDomain(const ModelSpec& spec, const TrainingSamples& sam
       r.min = std::min(r.min, v);
       r.max = std::max(r.max, v);
       ++r.samples;
-      if (spec.covariates[c].categorical) seen_[c].push_back(static_cast<std::int64_t>(v));
+      if (spec.covariates[c].categorical) {
+        if (const std::optional<std::int64_t> code = level_code(v)) seen_[c].push_back(*code);
+      }
     }
     if (r.samples == 0)
       throw InputError(located(samples.path, 0, "no sample records covariate \"" + spec.covariates[c].name +
@@ -59,11 +61,15 @@ void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const s
       for (Eigen::Index r = 0; r < rows; ++r) {
         if (!valid[r]) continue;
         const double code = v[r];
-        const bool known = code == std::floor(code) && std::binary_search(seen.begin(), seen.end(), static_cast<std::int64_t>(code));
-        if (!known) {
+        const std::optional<std::int64_t> whole = level_code(code);
+        if (!whole || !std::binary_search(seen.begin(), seen.end(), *whole)) {
           flags[r] |= flag::unseen_level;
           ++tally.unseen[c];
-          ++tally.unseen_codes[c][static_cast<std::int64_t>(std::floor(code))];
+          // Values beyond any code (a float raster holding 1e30) are counted at the nearer end.
+          const std::optional<std::int64_t> floor_code = level_code(std::floor(code));
+          ++tally.unseen_codes[c][floor_code ? *floor_code
+                                             : (code < 0 ? std::numeric_limits<std::int64_t>::min()
+                                                         : std::numeric_limits<std::int64_t>::max())];
         }
       }
     } else {

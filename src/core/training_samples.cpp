@@ -61,9 +61,11 @@ bool parse_double(const std::string& text, double& out) {
 double categorical_code(const Covariate& c, const std::string& value, const std::string& path, long line) {
   for (const Level& l : c.levels)
     if (l.name == value) return static_cast<double>(l.code);
-  double code = 0.0;
-  if (parse_double(value, code) && code == std::floor(code)) {
-    if (c.level_index(static_cast<std::int64_t>(code)) >= 0) return code;
+  double number = 0.0;
+  if (parse_double(value, number) && number == std::floor(number)) {
+    // A whole number too large for a code (found by fuzz_training_samples) is no level either.
+    const std::optional<std::int64_t> code = level_code(number);
+    if (code && c.level_index(*code) >= 0) return number;
     throw InputError(located(path, line, "level code " + value + " of \"" + c.name +
                                              "\" is not declared in the model file; add it to the covariate's levels"));
   }

@@ -23,6 +23,7 @@ struct PredictOptions {
   ProgressStyle progress = ProgressStyle::automatic;
   std::string quicklook_path;         ///< small PNG of suitability and extrapolation; empty: none
   long long gdal_cache_bytes = 256LL << 20;
+  long long max_memory_bytes = 2048LL << 20;  ///< cap on working memory besides GDAL's cache (docs/limits.md)
 };
 
 }  // namespace habcast

@@ -18,6 +18,7 @@
 #include "pipeline/atomic_file.hpp"
 #include "pipeline/ordered_parallel.hpp"
 #include "pipeline/prediction_report.hpp"
+#include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "raster/covariate_reader.hpp"
 #include "raster/gdal_session.hpp"
@@ -74,6 +75,7 @@ std::vector<CovariateInput> resolve_inputs(const ModelSpec& spec, const PredictO
 
 RasterGrid check_inputs_co_registered(const std::vector<CovariateInput>& inputs) {
   const RasterGrid reference = read_grid(inputs.front().path, inputs.front().band);
+  check_raster_size(inputs.front().path, reference);
   for (std::size_t i = 1; i < inputs.size(); ++i)
     check_same_grid(inputs.front().path, reference, inputs[i].path, read_grid(inputs[i].path, inputs[i].band));
   return reference;
@@ -259,6 +261,11 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     throw InputError(located(spec.path, 0, "--max-extrapolated needs training samples: add [training] samples = \"FILE.csv\""));
 
   const int threads = options.threads > 0 ? options.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+  const std::vector<Window> windows = processing_windows(grid, options.block_size);
+  std::int64_t largest_window = 0;
+  for (const Window& w : windows) largest_window = std::max(largest_window, w.pixels());
+  check_working_memory(largest_window, static_cast<std::int64_t>(spec.covariates.size()), plan.term_count(), threads,
+                       options.max_memory_bytes);
   std::vector<std::unique_ptr<Worker>> workers;
   for (int t = 0; t < threads; ++t)
     workers.push_back(std::make_unique<Worker>(inputs, spec, plan, options.level, domain ? &*domain : nullptr));
@@ -269,7 +276,6 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     throw IoError(options.output_dir + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
   Outputs out = create_outputs(options, spec, grid, spec.covariance.has_value(), domain.has_value(), tool_version);
 
-  const std::vector<Window> windows = processing_windows(grid, options.block_size);
   const std::size_t k = spec.covariates.size();
   PredictionTally total(k);
   progress.start("predict", static_cast<std::int64_t>(windows.size()));

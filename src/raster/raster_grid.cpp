@@ -181,6 +181,8 @@ double RasterGrid::pixel_area() const {
 
 RasterGrid read_grid(const std::string& path, int band) {
   const DatasetPtr dataset = open_input_raster(path);
+  // Failures GDAL survived while opening; a CRS it cannot parse is one (e.g. a VRT's <SRS>).
+  const std::string open_failure = take_gdal_error();
   GDALRasterBand& raster_band = input_band(*dataset, path, band);
   RasterGrid grid;
   grid.width = dataset->GetRasterXSize();
@@ -191,7 +193,15 @@ RasterGrid read_grid(const std::string& path, int band) {
     grid.has_geotransform = true;
   }
   take_gdal_error();  // a missing geotransform is reported by GDAL but is not a failure here
-  if (const OGRSpatialReference* srs = dataset->GetSpatialRef()) describe_crs(*srs, grid);
+  if (const OGRSpatialReference* srs = dataset->GetSpatialRef(); srs != nullptr && !srs->IsEmpty()) {
+    describe_crs(*srs, grid);
+  } else if (!open_failure.empty()) {
+    // GDAL drops a CRS it cannot parse and opens the file without one; taking that silently would
+    // produce outputs with no CRS, or a misleading "has no CRS" message.
+    throw InputError(located(path, 0,
+                             "has no usable CRS: GDAL could not read it (" + open_failure +
+                                 "). Assign a valid CRS (for example with gdal_edit.py -a_srs EPSG:<code>)."));
+  }
   raster_band.GetBlockSize(&grid.block_width, &grid.block_height);
   return grid;
 }

@@ -1,0 +1,94 @@
+// Inputs the fuzzers (fuzz/, scripts/fuzz.sh) found to misbehave, and their relatives found by
+// reading the code the finding pointed at. Each must now give a clear error or a defined result.
+#include <catch2/catch.hpp>
+#include <cstdint>
+#include <limits>
+#include <string>
+#include <vector>
+
+#include "core/error.hpp"
+#include "core/term_syntax.hpp"
+#include "core/model_values.hpp"
+#include "core/term_plan.hpp"
+#include "core/training_domain.hpp"
+#include "core/training_samples.hpp"
+
+namespace {
+
+using Catch::Matchers::Contains;
+
+habcast::ModelSpec soil_spec() {
+  habcast::ModelSpec spec;
+  spec.path = "model.toml";
+  habcast::Covariate tmin;
+  tmin.name = "tmin";
+  habcast::Covariate soil;
+  soil.name = "soil";
+  soil.categorical = true;
+  soil.levels = {{1, "peat"}, {2, "clay"}};
+  soil.reference_level = "peat";
+  spec.covariates = {tmin, soil};
+  spec.terms = {"(Intercept)", "tmin", "soil[clay]"};
+  spec.term_lines = {1, 1, 1};
+  spec.estimates = {0.0, 1.0, 1.0};
+  return spec;
+}
+
+}  // namespace
+
+TEST_CASE("a training level code too large for an integer is reported, not converted", "[fuzz-regression]") {
+  // fuzz_training_samples, crash-1db80f67: converting 2.6e40 to int64 was undefined behaviour.
+  const habcast::ModelSpec spec = soil_spec();
+  const std::string csv = "\xEF\xBB\xBFtmin,soil\r\n1,25555555555555555555555555555555555555555\r\n";
+  CHECK_THROWS_WITH(habcast::parse_training_samples(csv, "train.csv", spec),
+                    Contains("train.csv:2:") && Contains("level code 25555555555555555555555555555555555555555") &&
+                        Contains("not declared"));
+  CHECK_THROWS_WITH(habcast::parse_training_samples("tmin,soil\n1,-1e300\n", "train.csv", spec),
+                    Contains("train.csv:2:") && Contains("-1e300"));
+}
+
+TEST_CASE("level codes are whole numbers within the 64-bit range, nothing else", "[fuzz-regression]") {
+  CHECK(habcast::level_code(7.0) == std::optional<std::int64_t>(7));
+  CHECK(habcast::level_code(-9223372036854775808.0) == std::optional<std::int64_t>(std::numeric_limits<std::int64_t>::min()));
+  CHECK_FALSE(habcast::level_code(9223372036854775808.0));  // 2^63
+  CHECK_FALSE(habcast::level_code(2.5));
+  CHECK_FALSE(habcast::level_code(1e30));
+  CHECK_FALSE(habcast::level_code(std::numeric_limits<double>::quiet_NaN()));
+  CHECK_FALSE(habcast::level_code(-std::numeric_limits<double>::infinity()));
+}
+
+TEST_CASE("a categorical raster value beyond any code is an unknown level and is flagged", "[fuzz-regression]") {
+  // Same conversion as the fuzz finding, reached from a float raster holding 1e30 or -FLT_MAX.
+  const habcast::ModelSpec spec = soil_spec();
+  const habcast::TermPlan plan(spec);
+  const habcast::TrainingSamples samples =
+      habcast::parse_training_samples("tmin,soil\n0,1\n2,2\n", "train.csv", spec);
+  const habcast::TrainingDomain domain(spec, samples);
+  Eigen::ArrayXXd raw(3, 2);
+  raw << 1.0, 1e30, 1.0, -3.4028234663852886e38, 1.0, 2.0;
+  std::vector<std::uint8_t> valid(3, 1);
+  habcast::ModelValues values(3, 2);
+  habcast::ModelValueCounts counts;
+  habcast::to_model_values(spec, plan, raw, 0, 3, values, valid.data(), counts);
+  CHECK(valid == std::vector<std::uint8_t>{0, 0, 1});
+  CHECK(counts.unknown_level == 2);
+
+  std::vector<std::uint8_t> flags(3);
+  std::vector<std::uint8_t> all_valid(3, 1);
+  habcast::DomainTally tally(2);
+  domain.flag(raw, 3, all_valid.data(), flags.data(), tally);
+  CHECK(flags == std::vector<std::uint8_t>{4, 4, 0});
+  CHECK(tally.unseen[1] == 2);
+  CHECK(tally.unseen_codes[1].at(std::numeric_limits<std::int64_t>::max()) == 1);
+  CHECK(tally.unseen_codes[1].at(std::numeric_limits<std::int64_t>::min()) == 1);
+}
+
+TEST_CASE("a factor repeated until its powers exceed 18 is refused", "[fuzz-regression]") {
+  // The invariant fuzz_term checks (powers 1..18 after merging) did not hold for "x:x:...:x".
+  const habcast::ModelSpec spec = soil_spec();
+  CHECK(habcast::parse_term("tmin^9:tmin^9", spec, "m.toml", 4).factors.at(0).power == 18);
+  std::string label = "tmin";
+  for (int i = 1; i < 19; ++i) label += ":tmin";
+  CHECK_THROWS_WITH(habcast::parse_term(label, spec, "m.toml", 4),
+                    Contains("m.toml:4:") && Contains("add up to 19") && Contains("at most 18"));
+}
