@@ -20,8 +20,10 @@ struct PredictOptions {
   bool overviews = false;
   bool overwrite = false;
   std::optional<double> max_extrapolated_percent;  ///< exit code 5 above this share of valid pixels
+  /// Lossy Float32 outputs: round to a power-of-two grid and store with LERC, |error| <= this.
+  std::optional<double> max_error;
   ProgressStyle progress = ProgressStyle::automatic;
-  long long gdal_cache_bytes = 256LL << 20;
+  long long gdal_cache_bytes = 0;     ///< GDAL block cache; 0: sized to the windows in flight
 };
 
 }  // namespace habcast
