@@ -107,7 +107,10 @@ def predict_window(model, raw, nodata):
             valid &= a != nodata[name]
     flags = np.zeros(shape, dtype=np.uint8)
     for name, (lo, hi) in model.ranges.items():
-        flags[(raw[name] < lo) | (raw[name] > hi)] |= 1
+        # In float64: numpy would compare a float32 array with a float64 scalar in float32,
+        # rounding the training limit and flagging pixels that lie exactly on it differently.
+        r = raw[name].astype(np.float64)
+        flags[(r < lo) | (r > hi)] |= 1
     for name, seen in model.seen.items():
         flags[~np.isin(raw[name], seen)] |= 4
     flags[~valid] = NODATA_FLAGS
