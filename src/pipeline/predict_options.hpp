@@ -23,6 +23,7 @@ struct PredictOptions {
   /// Lossy Float32 outputs: round to a power-of-two grid and store with LERC, |error| <= this.
   std::optional<double> max_error;
   ProgressStyle progress = ProgressStyle::automatic;
+  std::string quicklook_path;         ///< small PNG of suitability and extrapolation; empty: none
   long long gdal_cache_bytes = 0;     ///< GDAL block cache; 0: sized to the windows in flight
 };
 
