@@ -119,6 +119,10 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
                   "PERCENT: exit with code 5 when more than this share of valid pixels is extrapolated\n"
                   "(outputs are still written); for pipelines that must stop before management use")
       ->check(CLI::Range(0.0, 100.0));
+  cmd->add_option("--max-error", args->options.max_error,
+                  "E: lossy Float32 outputs, each value within E of the computed one (e.g. 1e-4 for a\n"
+                  "probability): rounded to a power-of-two grid and stored with LERC, several times\n"
+                  "smaller and faster to write. Default: lossless");
   cmd->add_flag("-q,--quiet", args->quiet, "No progress bar and no summary; warnings still go to stderr");
   cmd->add_option("--log-format", args->log_format,
                   "text (default) or json: JSON lines of progress and warnings on stderr, report on stdout")

@@ -19,8 +19,9 @@ struct Prediction {
 
 class Evaluator {
  public:
-  /// `level` is the two-sided confidence level of the limits, in (0, 1).
-  Evaluator(const ModelSpec& spec, double level);
+  /// `level` is the two-sided confidence level of the limits, in (0, 1). A `quantum` > 0 (a power
+  /// of two, see output_precision.hpp) rounds mu, se(mu) and the limits to its multiples.
+  Evaluator(const ModelSpec& spec, double level, double quantum = 0.0);
 
   [[nodiscard]] bool has_covariance() const { return V_.has_value(); }
   [[nodiscard]] double z() const { return z_; }
@@ -38,6 +39,7 @@ class Evaluator {
   double offset_constant_;
   double level_;
   double z_;
+  double quantum_;
   mutable Eigen::MatrixXd XV_;  // scratch; one Evaluator per worker thread
 };
 

@@ -3,6 +3,7 @@
 #include <cmath>
 #include <limits>
 #include <map>
+#include <vector>
 
 #include "core/error.hpp"
 
@@ -84,21 +85,25 @@ std::int64_t TermPlan::fill(const ModelValues& values, Eigen::Index rows, Eigen:
   for (Eigen::Index j = 0; j < p; ++j) fill_term(terms_[static_cast<std::size_t>(j)], values, rows, X.col(j).data());
 
   // A categorical value the model does not know (-1) cannot be predicted: its indicators would
-  // silently treat it as the reference level.
+  // silently treat it as the reference level. The checks run down columns (X is column-major),
+  // which is several times faster than testing each strided row.
+  std::vector<std::uint8_t> ok(valid, valid + rows);
+  for (Eigen::Index j = 0; j < p; ++j) {
+    const double* x = X.col(j).data();
+    for (Eigen::Index r = 0; r < rows; ++r) ok[static_cast<std::size_t>(r)] = ok[static_cast<std::size_t>(r)] && std::isfinite(x[r]);
+  }
+  for (int c : used_categorical_) {
+    const double* level = values.col(c).data();
+    for (Eigen::Index r = 0; r < rows; ++r) ok[static_cast<std::size_t>(r)] = ok[static_cast<std::size_t>(r)] && level[r] >= 0.0;
+  }
   std::int64_t invalidated = 0;
   for (Eigen::Index r = 0; r < rows; ++r) {
-    if (!valid[r]) {
-      X.row(r).setZero();
-      continue;
-    }
-    bool ok = X.row(r).allFinite();
-    for (int c : used_categorical_)
-      if (values(r, c) < 0.0) ok = false;
-    if (!ok) {
+    if (ok[static_cast<std::size_t>(r)]) continue;
+    if (valid[r]) {
       valid[r] = 0;
-      X.row(r).setZero();
       ++invalidated;
     }
+    X.row(r).setZero();
   }
   return invalidated;
 }

@@ -20,9 +20,11 @@ struct PredictOptions {
   bool overviews = false;
   bool overwrite = false;
   std::optional<double> max_extrapolated_percent;  ///< exit code 5 above this share of valid pixels
+  /// Lossy Float32 outputs: round to a power-of-two grid and store with LERC, |error| <= this.
+  std::optional<double> max_error;
   ProgressStyle progress = ProgressStyle::automatic;
   std::string quicklook_path;         ///< small PNG of suitability and extrapolation; empty: none
-  long long gdal_cache_bytes = 256LL << 20;
+  long long gdal_cache_bytes = 0;     ///< GDAL block cache; 0: sized to the windows in flight
   long long max_memory_bytes = 2048LL << 20;  ///< cap on working memory besides GDAL's cache (docs/limits.md)
 };
 

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <chrono>
+#include <cmath>
 #include <ctime>
 #include <filesystem>
 #include <memory>
@@ -12,6 +13,7 @@
 #include "core/evaluator.hpp"
 #include "core/extrapolation_flags.hpp"
 #include "core/model_file.hpp"
+#include "core/output_precision.hpp"
 #include "core/term_plan.hpp"
 #include "core/training_domain.hpp"
 #include "core/training_samples.hpp"
@@ -94,6 +96,17 @@ std::vector<Window> processing_windows(const RasterGrid& grid, int block_size) {
   return block_windows(grid.width, grid.height, win_w, win_h);
 }
 
+/// A GDAL block cache that holds the input and output blocks of the windows in flight (2 per
+/// worker, plus the one being written) twice over, and little more: every block is read or
+/// written once, so a larger cache only holds dirty output blocks longer (raising peak memory
+/// and delaying their compression) instead of saving work.
+long long cache_for_windows(const std::vector<Window>& windows, std::size_t bands, std::size_t threads) {
+  long long largest = 0;
+  for (const Window& w : windows) largest = std::max(largest, static_cast<long long>(w.pixels()));
+  const long long bytes = largest * 4 * static_cast<long long>(bands) * static_cast<long long>(2 * threads + 1) * 2;
+  return std::clamp(bytes, 32LL << 20, 256LL << 20);
+}
+
 std::string response_description(const ModelSpec& spec) {
   const std::string of = spec.response.empty() ? "" : " of " + spec.response;
   switch (spec.family) {
@@ -128,8 +141,8 @@ struct Worker {
   std::vector<std::uint8_t> valid;
 
   Worker(const std::vector<CovariateInput>& inputs, const ModelSpec& spec, const TermPlan& plan, double level,
-         const TrainingDomain* domain)
-      : evaluator(spec, level), predictor(spec, plan, evaluator, domain) {
+         double quantum, const TrainingDomain* domain)
+      : evaluator(spec, level, quantum), predictor(spec, plan, evaluator, domain) {
     for (const CovariateInput& in : inputs) readers.emplace_back(in.path, in.band);
   }
   Worker(const Worker&) = delete;
@@ -163,6 +176,20 @@ void refuse_to_clobber(const std::vector<std::string>& paths, bool overwrite) {
                            "one is complete), or choose another output folder with -o");
 }
 
+/// With --max-error the Float32 outputs hold values on a grid of step q, which LERC stores
+/// exactly when its own error allowance is q / 2 (its quantisation grid is then ours); the user's
+/// --co still override these.
+std::vector<std::string> float_creation_options(const PredictOptions& options) {
+  std::vector<std::string> result;
+  if (options.max_error) {
+    char q_half[64];
+    std::snprintf(q_half, sizeof q_half, "%.17g", quantum_for_max_error(*options.max_error) / 2.0);
+    result = {"COMPRESS=LERC_ZSTD", std::string("MAX_Z_ERROR=") + q_half};
+  }
+  result.insert(result.end(), options.creation_options.begin(), options.creation_options.end());
+  return result;
+}
+
 Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, const RasterGrid& grid, bool with_se,
                        bool with_flags, const std::string& version) {
   const fs::path dir(options.output_dir);
@@ -188,8 +215,15 @@ Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, con
   s.type = OutputType::float32;
   s.nodata = kFloatNodata;
   s.bands = {{response_description(spec), units}};
-  s.creation_options = options.creation_options;
+  s.creation_options = float_creation_options(options);
   s.metadata = metadata;
+  if (options.max_error) {
+    const double q = quantum_for_max_error(*options.max_error);
+    s.metadata.emplace_back("HABCAST_MAX_ERROR",
+                            "values rounded to multiples of 2^" + std::to_string(std::ilogb(q)) +
+                                ", so |stored - computed| <= " + format_value(q / 2) + " (--max-error " +
+                                format_value(*options.max_error) + ")");
+  }
   out.suitability = std::make_unique<OutputRaster>(s, grid);
 
   if (with_se) {
@@ -242,8 +276,10 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     throw UsageError("--block-size must be between 16 and 16384 pixels");
   if (options.max_extrapolated_percent && !(*options.max_extrapolated_percent >= 0.0 && *options.max_extrapolated_percent <= 100.0))
     throw UsageError("--max-extrapolated is a percentage from 0 to 100");
+  if (options.max_error && !(*options.max_error > 0.0 && *options.max_error <= 1.0))
+    throw UsageError("--max-error is an absolute error in the outputs' units, above 0 and at most 1 (for example "
+                     "1e-4), got " + format_value(*options.max_error));
   ensure_gdal();
-  set_gdal_cache(options.gdal_cache_bytes);
 
   // Everything that can be wrong with the inputs is found before any output is created.
   const ModelSpec spec = read_model_file(options.model_path);
@@ -260,6 +296,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   if (options.max_extrapolated_percent && !domain)
     throw InputError(located(spec.path, 0, "--max-extrapolated needs training samples: add [training] samples = \"FILE.csv\""));
 
+  const double quantum = options.max_error ? quantum_for_max_error(*options.max_error) : 0.0;
   const int threads = options.threads > 0 ? options.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   const std::vector<Window> windows = processing_windows(grid, options.block_size);
   std::int64_t largest_window = 0;
@@ -268,7 +305,8 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
                        options.max_memory_bytes);
   std::vector<std::unique_ptr<Worker>> workers;
   for (int t = 0; t < threads; ++t)
-    workers.push_back(std::make_unique<Worker>(inputs, spec, plan, options.level, domain ? &*domain : nullptr));
+    workers.push_back(
+        std::make_unique<Worker>(inputs, spec, plan, options.level, quantum, domain ? &*domain : nullptr));
 
   std::error_code ec;
   fs::create_directories(options.output_dir, ec);
@@ -277,6 +315,8 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   Outputs out = create_outputs(options, spec, grid, spec.covariance.has_value(), domain.has_value(), tool_version);
 
   const std::size_t k = spec.covariates.size();
+  set_gdal_cache(options.gdal_cache_bytes > 0 ? options.gdal_cache_bytes
+                                              : cache_for_windows(windows, k + 5, static_cast<std::size_t>(threads)));
   PredictionTally total(k);
   progress.start("predict", static_cast<std::int64_t>(windows.size()));
 

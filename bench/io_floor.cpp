@@ -1,0 +1,124 @@
+// The benchmark's I/O floor: reads the covariate rasters window by window and writes three rasters
+// shaped like habcast's outputs (1-band Float32, 3-band Float32, 1-band UInt8; same creation
+// options) with a trivial computation, using GDAL's multi-threaded codecs on read and write. No
+// tool that reads these inputs and writes these outputs with this codec can be much faster, so
+// habcast's wall time is judged against this program's.
+//
+// Usage: habcast_io_floor OUT_DIR FLOAT1.tif FLOAT2.tif FLOAT3.tif FLOAT4.tif BYTE.tif
+//                         [--threads N|ALL_CPUS] [--window PIXELS]
+#include <cpl_conv.h>
+#include <gdal_priv.h>
+
+#include <cstdio>
+#include <cstdlib>
+#include <memory>
+#include <stdexcept>
+#include <string>
+#include <vector>
+
+namespace {
+
+struct DatasetCloser {
+  void operator()(GDALDataset* ds) const {
+    // Compression of the last blocks and the TIFF directory happen in GDALClose.
+    if (ds != nullptr) GDALClose(GDALDataset::ToHandle(ds));
+  }
+};
+using Dataset = std::unique_ptr<GDALDataset, DatasetCloser>;
+
+struct Args {
+  std::string out_dir;
+  std::vector<std::string> inputs;  // four Float32 rasters, then one Byte raster
+  std::string threads = "ALL_CPUS";
+  int window = 1024;
+};
+
+Args parse(int argc, char** argv) {
+  Args a;
+  for (int i = 1; i < argc; ++i) {
+    const std::string arg = argv[i];
+    if (arg == "--threads" && i + 1 < argc) a.threads = argv[++i];
+    else if (arg == "--window" && i + 1 < argc) a.window = std::atoi(argv[++i]);
+    else if (a.out_dir.empty()) a.out_dir = arg;
+    else a.inputs.push_back(arg);
+  }
+  if (a.out_dir.empty() || a.inputs.size() != 5 || a.window < 1)
+    throw std::runtime_error(
+        "usage: habcast_io_floor OUT_DIR F1.tif F2.tif F3.tif F4.tif BYTE.tif [--threads N] [--window PIXELS]");
+  return a;
+}
+
+Dataset open_input(const std::string& path, const std::string& threads) {
+  const std::string option = "NUM_THREADS=" + threads;
+  const char* open_options[] = {option.c_str(), nullptr};
+  Dataset ds(GDALDataset::FromHandle(GDALOpenEx(path.c_str(), GDAL_OF_RASTER | GDAL_OF_READONLY, nullptr,
+                                                open_options, nullptr)));
+  if (!ds) throw std::runtime_error(path + ": cannot open (" + CPLGetLastErrorMsg() + ")");
+  return ds;
+}
+
+// The same creation options habcast uses by default.
+Dataset create_output(const std::string& path, const GDALDataset& like, int bands, GDALDataType type,
+                      const std::string& threads) {
+  const std::string predictor = type == GDT_Float32 ? "PREDICTOR=3" : "PREDICTOR=2";
+  const std::string num_threads = "NUM_THREADS=" + threads;
+  const char* options[] = {"TILED=YES",         "BLOCKXSIZE=256",    "BLOCKYSIZE=256", "COMPRESS=DEFLATE",
+                           predictor.c_str(),   "BIGTIFF=IF_SAFER",  num_threads.c_str(), nullptr};
+  GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GTiff");
+  GDALDataset& source = const_cast<GDALDataset&>(like);
+  Dataset ds(driver->Create(path.c_str(), source.GetRasterXSize(), source.GetRasterYSize(), bands, type,
+                            const_cast<char**>(options)));
+  if (!ds) throw std::runtime_error(path + ": cannot create (" + CPLGetLastErrorMsg() + ")");
+  double transform[6];
+  if (source.GetGeoTransform(transform) == CE_None) ds->SetGeoTransform(transform);
+  ds->SetSpatialRef(source.GetSpatialRef());
+  for (int b = 1; b <= bands; ++b) ds->GetRasterBand(b)->SetNoDataValue(type == GDT_Float32 ? -9999.0 : 255.0);
+  return ds;
+}
+
+void io(GDALRasterBand& band, GDALRWFlag flag, int x, int y, int w, int h, void* data, GDALDataType type) {
+  if (band.RasterIO(flag, x, y, w, h, data, w, h, type, 0, 0, nullptr) != CE_None)
+    throw std::runtime_error(std::string("RasterIO failed: ") + CPLGetLastErrorMsg());
+}
+
+void run(const Args& a) {
+  std::vector<Dataset> in;
+  for (const std::string& p : a.inputs) in.push_back(open_input(p, a.threads));
+  const GDALDataset& ref = *in.front();
+  Dataset suitability = create_output(a.out_dir + "/suitability.tif", ref, 1, GDT_Float32, a.threads);
+  Dataset uncertainty = create_output(a.out_dir + "/uncertainty.tif", ref, 3, GDT_Float32, a.threads);
+  Dataset flags = create_output(a.out_dir + "/extrapolation.tif", ref, 1, GDT_Byte, a.threads);
+  const int width = in.front()->GetRasterXSize();
+  const int height = in.front()->GetRasterYSize();
+  const auto n = static_cast<std::size_t>(a.window) * static_cast<std::size_t>(a.window);
+  std::vector<std::vector<float>> values(4, std::vector<float>(n));
+  std::vector<std::uint8_t> codes(n);
+  for (int y = 0; y < height; y += a.window) {
+    const int h = std::min(a.window, height - y);
+    for (int x = 0; x < width; x += a.window) {
+      const int w = std::min(a.window, width - x);
+      for (std::size_t c = 0; c < 4; ++c) io(*in[c]->GetRasterBand(1), GF_Read, x, y, w, h, values[c].data(), GDT_Float32);
+      io(*in[4]->GetRasterBand(1), GF_Read, x, y, w, h, codes.data(), GDT_Byte);
+      // Trivial computation: each output band takes one input's values.
+      io(*suitability->GetRasterBand(1), GF_Write, x, y, w, h, values[0].data(), GDT_Float32);
+      for (int b = 1; b <= 3; ++b)
+        io(*uncertainty->GetRasterBand(b), GF_Write, x, y, w, h, values[static_cast<std::size_t>(b)].data(), GDT_Float32);
+      io(*flags->GetRasterBand(1), GF_Write, x, y, w, h, codes.data(), GDT_Byte);
+    }
+  }
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  try {
+    GDALAllRegister();
+    GDALSetCacheMax64(256LL << 20);
+    run(parse(argc, argv));
+    if (CPLGetLastErrorType() == CE_Failure) throw std::runtime_error(CPLGetLastErrorMsg());
+    return 0;
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "habcast_io_floor: %s\n", e.what());
+    return 1;
+  }
+}

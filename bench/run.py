@@ -1,0 +1,247 @@
+#!/usr/bin/python3
+"""Benchmark `habcast predict` against a numpy + GDAL peer and the I/O floor. See bench/README.md.
+
+Usage:  /usr/bin/python3 bench/run.py [--sizes 25,100] [--reps 3] [--warmup 1] [--build-dir DIR]
+
+Builds habcast and habcast_io_floor (project default build type, RelWithDebInfo), generates the
+invented stacks if missing, then for each size runs every contender in a fresh process, in
+turn (the order rotates every round), `warmup` unmeasured rounds then `reps` measured ones.
+Reports medians of wall time, Mpix/s, CPU time (user + sys) and peak RSS (from wait4's rusage of
+that one child), the ratios habcast/floor and peer/habcast, checks that habcast's and the peer's
+outputs agree to 1e-5, measures 1 vs 2 threads (speed-up and bit-identity of the outputs), and
+writes everything to bench/results/bench-<UTC time>.json.
+"""
+
+import argparse
+import datetime as dt
+import json
+import os
+import shutil
+import statistics
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+from osgeo import gdal
+
+gdal.UseExceptions()
+
+BENCH = Path(__file__).resolve().parent
+REPO = BENCH.parent
+COVARIATES = ["tmin", "precip", "slope", "soil_ph", "landcover"]
+OUTPUTS = [("suitability.tif", 1), ("uncertainty.tif", 1), ("uncertainty.tif", 2), ("uncertainty.tif", 3),
+           ("extrapolation.tif", 1)]
+TOLERANCE = 1e-5  # agreement required between habcast and the peer (probability units)
+
+
+def sh(cmd, **kw):
+    return subprocess.run(cmd, check=True, **kw)
+
+
+def build(build_dir):
+    generator = ["-G", "Ninja"] if shutil.which("ninja") else []
+    sh(["cmake", "-S", str(REPO), "-B", str(build_dir), *generator, "-DHABCAST_BUILD_TESTS=OFF"],
+       stdout=subprocess.DEVNULL)
+    sh(["cmake", "--build", str(build_dir), "--target", "habcast", "habcast_io_floor", "-j2"],
+       stdout=subprocess.DEVNULL)
+    return build_dir / "habcast", build_dir / "bench" / "habcast_io_floor"
+
+
+def ensure_stack(size):
+    stack = BENCH / "data" / f"stack-{size:g}"
+    if not (stack / "model.toml").exists():
+        sh(["/usr/bin/python3", str(BENCH / "make_stack.py"), "--mpix", f"{size:g}"])
+    return stack
+
+
+def measure(cmd, out_dir):
+    """Runs cmd once in a fresh process; returns wall seconds, CPU seconds, peak RSS MiB, output bytes."""
+    shutil.rmtree(out_dir, ignore_errors=True)
+    out_dir.mkdir(parents=True)
+    start = time.perf_counter()
+    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    _, status, usage = os.wait4(proc.pid, 0)
+    wall = time.perf_counter() - start
+    stderr = proc.stderr.read().decode(errors="replace")
+    proc.stderr.close()
+    proc.returncode = os.waitstatus_to_exitcode(status)
+    if proc.returncode not in (0, 5):
+        raise SystemExit(f"failed ({proc.returncode}): {' '.join(map(str, cmd))}\n{stderr}")
+    out_bytes = sum(f.stat().st_size for f in out_dir.glob("*.tif"))
+    return {"wall_s": wall, "cpu_s": usage.ru_utime + usage.ru_stime, "rss_mib": usage.ru_maxrss / 1024.0,
+            "output_bytes": out_bytes}
+
+
+def pixels_of(stack):
+    ds = gdal.Open(str(stack / "tmin.tif"))
+    return ds.RasterXSize * ds.RasterYSize
+
+
+def read_band(path, band):
+    ds = gdal.Open(str(path))
+    return ds.GetRasterBand(band).ReadAsArray()
+
+
+def compare(dir_a, dir_b, tolerance, rows=2048):
+    """Largest |a - b| over every output band (read in strips to bound memory); nodata must match."""
+    worst = 0.0
+    for name, band in OUTPUTS:
+        da, db = gdal.Open(str(dir_a / name)), gdal.Open(str(dir_b / name))
+        ba, bb = da.GetRasterBand(band), db.GetRasterBand(band)
+        for y in range(0, da.RasterYSize, rows):
+            h = min(rows, da.RasterYSize - y)
+            a = ba.ReadAsArray(0, y, da.RasterXSize, h).astype(np.float64)
+            b = bb.ReadAsArray(0, y, da.RasterXSize, h).astype(np.float64)
+            nodata = ba.GetNoDataValue()
+            if not np.array_equal(a == nodata, b == nodata):
+                return {"agree": False, "max_abs_diff": None, "why": f"{name} band {band}: nodata differs"}
+            if name.startswith("extrapolation") and not np.array_equal(a, b):
+                return {"agree": False, "max_abs_diff": None, "why": f"{name}: flags differ"}
+            if a.size:
+                worst = max(worst, float(np.abs(a - b).max()))
+    return {"agree": worst <= tolerance, "max_abs_diff": worst}
+
+
+def identical(dir_a, dir_b):
+    for name, band in OUTPUTS:
+        if read_band(dir_a / name, band).tobytes() != read_band(dir_b / name, band).tobytes():
+            return False
+    return True
+
+
+def contenders(habcast, floor, stack, out_root, args):
+    model = stack / "model.toml"
+    inputs = [str(stack / f"{c}.tif") for c in COVARIATES]
+    base = [str(habcast), "predict", str(model), "--overwrite", "-q"]
+    runs = {
+        "habcast": lambda out: base + ["-o", str(out)],
+        "peer": lambda out: ["/usr/bin/python3", str(BENCH / "peer_numpy_gdal.py"), str(model), str(out)],
+        "floor": lambda out: [str(floor), str(out), *inputs],
+    }
+    help_text = subprocess.run([str(habcast), "predict", "--help"], capture_output=True, text=True).stdout
+    if args.domain_option.split()[0] in help_text:
+        runs["habcast+domain"] = lambda out: base + ["-o", str(out), *args.domain_option.split()]
+    if "--max-error" in help_text:
+        runs["habcast--max-error"] = lambda out: base + ["-o", str(out), "--max-error", "1e-4"]
+    return {name: (make, out_root / name) for name, make in runs.items()}
+
+
+def race(habcast, floor, stack, args):
+    out_root = Path(args.work) / stack.name
+    tools = contenders(habcast, floor, stack, out_root, args)
+    names = list(tools)
+    samples = {n: [] for n in names}
+    for rnd in range(args.warmup + args.reps):
+        order = names[rnd % len(names):] + names[:rnd % len(names)]
+        for name in order:
+            make, out = tools[name]
+            m = measure(make(out), out)
+            if rnd >= args.warmup:
+                samples[name].append(m)
+            print(f"  {stack.name} round {rnd + 1} {name:20s} {m['wall_s']:7.2f} s  cpu {m['cpu_s']:7.2f} s  "
+                  f"rss {m['rss_mib']:6.0f} MiB", flush=True)
+    mpix = pixels_of(stack) / 1e6
+    result = {"mpix": mpix, "tools": {}}
+    for name in names:
+        s = samples[name]
+        wall = statistics.median(x["wall_s"] for x in s)
+        result["tools"][name] = {
+            "wall_s": wall, "wall_all_s": [x["wall_s"] for x in s], "mpix_per_s": mpix / wall,
+            "cpu_s": statistics.median(x["cpu_s"] for x in s), "rss_mib": max(x["rss_mib"] for x in s),
+            "output_bytes": s[-1]["output_bytes"]}
+    t = result["tools"]
+    result["habcast_over_floor"] = t["habcast"]["wall_s"] / t["floor"]["wall_s"]
+    result["peer_over_habcast"] = t["peer"]["wall_s"] / t["habcast"]["wall_s"]
+    if "habcast+domain" in t:
+        result["domain_over_habcast"] = t["habcast+domain"]["wall_s"] / t["habcast"]["wall_s"]
+    if "habcast--max-error" in t:
+        result["bytes_lossless_over_max_error"] = t["habcast"]["output_bytes"] / t["habcast--max-error"]["output_bytes"]
+        result["time_lossless_over_max_error"] = t["habcast"]["wall_s"] / t["habcast--max-error"]["wall_s"]
+    result["peer_agreement"] = compare(tools["habcast"][1], tools["peer"][1], TOLERANCE)
+    return result
+
+
+def thread_scaling(habcast, stack, args):
+    """1 vs 2 threads: median wall times and whether the outputs are bit-identical."""
+    out_root = Path(args.work) / stack.name
+    model = stack / "model.toml"
+    walls = {1: [], 2: []}
+    for rnd in range(args.warmup + args.reps):
+        for threads in ((1, 2) if rnd % 2 == 0 else (2, 1)):
+            out = out_root / f"threads-{threads}"
+            m = measure([str(habcast), "predict", str(model), "-o", str(out), "--overwrite", "-q",
+                         "--threads", str(threads)], out)
+            if rnd >= args.warmup:
+                walls[threads].append(m["wall_s"])
+            print(f"  {stack.name} round {rnd + 1} threads={threads} {m['wall_s']:7.2f} s", flush=True)
+    one, two = statistics.median(walls[1]), statistics.median(walls[2])
+    return {"wall_1_thread_s": one, "wall_2_threads_s": two, "speedup": one / two,
+            "bit_identical": identical(out_root / "threads-1", out_root / "threads-2")}
+
+
+def print_table(results):
+    print()
+    print(f"{'stack':>10} {'tool':>20} {'wall s':>8} {'Mpix/s':>7} {'cpu s':>7} {'RSS MiB':>8} {'out MB':>7}")
+    for key, r in results["stacks"].items():
+        for name, t in r["tools"].items():
+            print(f"{key:>10} {name:>20} {t['wall_s']:8.2f} {t['mpix_per_s']:7.2f} {t['cpu_s']:7.2f} "
+                  f"{t['rss_mib']:8.0f} {t['output_bytes'] / 1e6:7.1f}")
+        agree = r["peer_agreement"]
+        print(f"{key:>10}   habcast/floor {r['habcast_over_floor']:.2f}   peer/habcast {r['peer_over_habcast']:.2f}"
+              f"   peer agrees to {TOLERANCE:g}: {agree['agree']} (max |diff| {agree['max_abs_diff']})")
+        for extra in ("domain_over_habcast", "bytes_lossless_over_max_error", "time_lossless_over_max_error"):
+            if extra in r:
+                print(f"{key:>10}   {extra} {r[extra]:.2f}")
+    if "threads" in results:
+        t = results["threads"]
+        print(f"threads ({t['stack']}): 1 -> {t['wall_1_thread_s']:.2f} s, 2 -> {t['wall_2_threads_s']:.2f} s, "
+              f"speed-up {t['speedup']:.2f}, bit-identical {t['bit_identical']}")
+    if "rss_growth" in results:
+        print(f"habcast peak RSS, largest vs smallest stack: {results['rss_growth']:.3f}x")
+    print(f"load average before/after: {results['load_before']} / {results['load_after']}")
+
+
+def main():
+    parser = argparse.ArgumentParser(description="habcast predict benchmark")
+    parser.add_argument("--sizes", default="25,100", help="stack sizes in Mpix, comma-separated")
+    parser.add_argument("--reps", type=int, default=3, help="measured rounds")
+    parser.add_argument("--warmup", type=int, default=1, help="unmeasured rounds first (page cache, etc.)")
+    parser.add_argument("--build-dir", default=str(REPO / "build-bench"))
+    parser.add_argument("--no-build", action="store_true", help="use the binaries already in --build-dir")
+    parser.add_argument("--work", default=str(BENCH / "data" / "runs"), help="where outputs go (same disk as data)")
+    parser.add_argument("--no-threads", action="store_true", help="skip the 1 vs 2 threads comparison")
+    parser.add_argument("--domain-option", default="--checks all",
+                        help="predict option for the training-domain row, run only if predict --help shows it")
+    args = parser.parse_args()
+    build_dir = Path(args.build_dir)
+    if args.no_build:
+        habcast, floor = build_dir / "habcast", build_dir / "bench" / "habcast_io_floor"
+    else:
+        habcast, floor = build(build_dir)
+    sizes = [float(s) for s in args.sizes.split(",")]
+    stacks = [ensure_stack(s) for s in sizes]
+    results = {"started_utc": dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"),
+               "git_commit": subprocess.run(["git", "-C", str(REPO), "rev-parse", "HEAD"], capture_output=True,
+                                            text=True).stdout.strip(),
+               "gdal": gdal.__version__, "cpus": os.cpu_count(), "reps": args.reps, "warmup": args.warmup,
+               "load_before": [round(x, 2) for x in os.getloadavg()], "stacks": {}}
+    for stack in stacks:
+        results["stacks"][stack.name] = race(habcast, floor, stack, args)
+    if not args.no_threads:
+        results["threads"] = {"stack": stacks[0].name, **thread_scaling(habcast, stacks[0], args)}
+    if len(stacks) > 1:
+        rss = [results["stacks"][s.name]["tools"]["habcast"]["rss_mib"] for s in stacks]
+        results["rss_growth"] = rss[-1] / rss[0]
+    results["load_after"] = [round(x, 2) for x in os.getloadavg()]
+    out = BENCH / "results"
+    out.mkdir(exist_ok=True)
+    path = out / f"bench-{results['started_utc'].replace(':', '')[:17]}.json"
+    path.write_text(json.dumps(results, indent=2) + "\n")
+    print_table(results)
+    print(f"written {path}")
+
+
+if __name__ == "__main__":
+    sys.exit(main())
