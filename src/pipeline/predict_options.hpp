@@ -5,6 +5,7 @@
 #include <string>
 #include <vector>
 
+#include "core/novelty_model.hpp"
 #include "pipeline/progress.hpp"
 
 namespace habcast {
@@ -20,6 +21,8 @@ struct PredictOptions {
   bool overviews = false;
   bool overwrite = false;
   std::optional<double> max_extrapolated_percent;  ///< exit code 5 above this share of valid pixels
+  NoveltyOptions novelty;             ///< which joint training-domain checks run, and their thresholds
+  bool novelty_rasters = true;        ///< write novelty.tif and limiting.tif
   ProgressStyle progress = ProgressStyle::automatic;
   long long gdal_cache_bytes = 256LL << 20;
 };
