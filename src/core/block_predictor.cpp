@@ -20,8 +20,15 @@ void PredictionTally::merge(const PredictionTally& other) {
   undefined_term += other.undefined_term;
   not_representable += other.not_representable;
   predicted += other.predicted;
+  low_certainty += other.low_certainty;
   sum_response += other.sum_response;
   domain.merge(other.domain);
+}
+
+bool is_low_certainty(Family family, double lower, double upper) {
+  if (family == Family::binomial) return upper - lower > 0.5;
+  if (lower <= 0.0) return upper > 0.0;
+  return upper > 3.0 * lower;
 }
 
 BlockPredictor::BlockPredictor(const ModelSpec& spec, const TermPlan& plan, const Evaluator& evaluator,
@@ -97,6 +104,7 @@ void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutpu
       out.se[o] = to_output(prediction_.se_mu[i]);
       out.lower[o] = to_output(prediction_.lower[i]);
       out.upper[o] = to_output(prediction_.upper[i]);
+      if (is_low_certainty(spec_.family, prediction_.lower[i], prediction_.upper[i])) ++tally.low_certainty;
     }
   }
 }

@@ -27,6 +27,7 @@ struct PredictionTally {
   std::int64_t undefined_term = 0;     ///< a term function undefined (log of <= 0, ...)
   std::int64_t not_representable = 0; ///< response beyond the Float32 range (written as nodata)
   std::int64_t predicted = 0;          ///< pixels with a suitability value
+  std::int64_t low_certainty = 0;      ///< predicted pixels whose interval is wide (see is_low_certainty)
   double sum_response = 0.0;
   double min_response = 0.0;
   double max_response = 0.0;
@@ -35,6 +36,12 @@ struct PredictionTally {
   explicit PredictionTally(std::size_t covariates = 0) : domain(covariates) {}
   void merge(const PredictionTally& other);
 };
+
+/// Whether a prediction is too uncertain to read as a value: for probabilities a confidence
+/// interval wider than 0.5 (it spans most of the scale); for counts and means an interval whose
+/// upper limit exceeds three times the lower one, or one that includes zero (common practice, no
+/// source: thresholds chosen for a plain warning, documented in docs/report.md).
+bool is_low_certainty(Family family, double lower, double upper);
 
 /// Output arrays of one block, row-major over the block's pixels.
 struct BlockOutputs {

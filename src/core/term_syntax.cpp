@@ -203,10 +203,15 @@ class TermParser {
       if (f.level >= 0) {
         part = c.name + "[" + c.levels[static_cast<std::size_t>(f.level)].name + "]";
       } else {
-        part = f.function == TermFunction::none ? c.name : std::string(to_string(f.function)) + "(" + c.name + ")";
-        if (f.power != 1) part += "^" + std::to_string(f.power);
+        if (f.function == TermFunction::none) {
+          part = c.name;
+        } else {
+          part.append(to_string(f.function)).append("(").append(c.name).append(")");
+        }
+        if (f.power != 1) part.append("^").append(std::to_string(f.power));
       }
-      label += (label.empty() ? "" : ":") + part;
+      if (!label.empty()) label.append(":");
+      label.append(part);
     }
     term.canonical = label;
   }

@@ -138,6 +138,13 @@ std::vector<std::string> prediction_warnings(const ReportContext& ctx) {
                   "checked and no extrapolation.tif was written. The map may extrapolate anywhere.");
   else
     range_warnings(ctx, out);
+  if (ctx.spec->covariance && t.low_certainty > 0) {
+    const std::string what = ctx.spec->family == Family::binomial
+                                 ? "a confidence interval wider than 0.5 in probability"
+                                 : "a confidence interval whose upper limit is more than three times the lower";
+    out.push_back(format_percent(share(t.low_certainty, t.predicted)) + " of predicted pixels have " + what +
+                  " (level " + format_value(ctx.level) + "); read them as uncertain, not as values (uncertainty.tif).");
+  }
   const std::int64_t with_data = t.pixels - t.missing_input;
   const std::int64_t unpredicted = with_data - t.predicted;
   if (unpredicted > 0) {
@@ -213,6 +220,7 @@ nlohmann::ordered_json prediction_report(const ReportContext& ctx, const std::ve
                       {"missing_input", t.missing_input},
                       {"with_data", with_data},
                       {"predicted", t.predicted},
+                      {"low_certainty", t.low_certainty},
                       {"unknown_level", t.unknown_level},
                       {"outside_transform", t.outside_transform},
                       {"undefined_term", t.undefined_term},
