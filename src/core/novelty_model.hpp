@@ -27,7 +27,7 @@ struct NoveltyOptions {
   double hull_tolerance = 1e-9;  ///< relative enlargement of the hulls about their centroid
   /// Largest number of covariates for the full hull. Qhull's facet count grows like
   /// n^floor(d/2): for 2,000 points about 600 facets in 4-D, 4,000 in 5-D and 23,000 (5 s) in 6-D;
-  /// beyond 6 building takes minutes and gigabytes. Above it, pairwise hulls and NT2 stand in.
+  /// in 7-D Qhull had not finished after 5 minutes (2 cores). Above it, pairwise hulls and NT2 stand in.
   int hull_max_dim = 6;
   [[nodiscard]] bool any() const { return mess || nt2 || hull || pairs; }
 };

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <string>
 
 #include "core/qhull_facets.hpp"
 
@@ -61,6 +62,9 @@ void TrainingHull::build_facets(const Eigen::MatrixXd& white) {
   gauge_.resize(facets.count(), r);
   for (int f = 0; f < facets.count(); ++f) {
     const double distance = -facets.offsets(f);  // > 0: the centroid is strictly inside
+    if (!(distance > 0.0))
+      throw HullBuildError("the training centroid is not strictly inside the hull (facet " + std::to_string(f) +
+                           " passes through it); the samples are too close to flat");
     gauge_.row(f) = facets.normals.row(f) / distance;
   }
   neighbours_ = facets.neighbours;
