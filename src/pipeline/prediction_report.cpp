@@ -84,9 +84,12 @@ void novelty_warnings(const ReportContext& ctx, std::vector<std::string>& out) {
                   joined(pair.terms) + " beyond the data.");
   }
   if (d.cause[3] > 0)
-    out.push_back(share_and_area(d.cause[3], ctx) + " lie, with every covariate in range, farther from the centre of "
-                  "the training samples than NT2 = " + format_value(nov.options().nt2_threshold) +
-                  " times the farthest sample (Mahalanobis distance): an unusual combination of covariates.");
+    out.push_back(share_and_area(d.cause[3], ctx) + " have every covariate in range but lie farther from the centre "
+                  "of the training samples (Mahalanobis distance) than " +
+                  (nov.options().nt2_threshold == 1.0 ? std::string("any training sample")
+                                                      : format_value(nov.options().nt2_threshold) +
+                                                            " times the farthest training sample") +
+                  " (NT2): an unusual combination of covariates.");
 }
 
 void range_warnings(const ReportContext& ctx, std::vector<std::string>& out) {
