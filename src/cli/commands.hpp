@@ -31,5 +31,6 @@ void register_commands(CLI::App& app, CommandRegistry& registry);
 
 // One per command file.
 void register_predict(CLI::App& app, CommandRegistry& registry);
+void register_describe(CLI::App& app, CommandRegistry& registry);
 
 }  // namespace habcast::cli

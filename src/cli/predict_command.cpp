@@ -125,6 +125,9 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
                   "GDAL GeoTIFF creation option KEY=VALUE (repeatable), e.g. --co COMPRESS=ZSTD;\n"
                   "defaults: TILED=YES, 256x256 blocks, DEFLATE with predictor, BIGTIFF=IF_SAFER");
   cmd->add_flag("--overviews", args->options.overviews, "Build internal overviews for fast display");
+  cmd->add_option("--quicklook", args->options.quicklook_path,
+                  "FILE.png: also draw a small picture of suitability.tif (longer side 512 pixels) with\n"
+                  "extrapolated pixels hatched, a legend and a scale bar");
   cmd->add_flag("--overwrite", args->options.overwrite, "Replace existing outputs in the output folder");
   cmd->add_option("--max-extrapolated", args->max_extrapolated,
                   "PERCENT: exit with code 5 when more than this share of valid pixels is extrapolated\n"

@@ -24,6 +24,7 @@ struct PredictOptions {
   NoveltyOptions novelty;             ///< which joint training-domain checks run, and their thresholds
   bool novelty_rasters = true;        ///< write novelty.tif and limiting.tif
   ProgressStyle progress = ProgressStyle::automatic;
+  std::string quicklook_path;         ///< small PNG of suitability and extrapolation; empty: none
   long long gdal_cache_bytes = 256LL << 20;
 };
 

@@ -25,6 +25,7 @@
 #include "raster/output_raster.hpp"
 #include "raster/raster_grid.hpp"
 #include "raster/window.hpp"
+#include "render/quicklook.hpp"
 
 namespace habcast {
 
@@ -341,6 +342,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     domain.emplace(spec, *samples);
     if (options.novelty.any()) novelty.emplace(spec, plan, *samples, options.novelty);
   }
+  if (!options.quicklook_path.empty()) refuse_to_clobber({options.quicklook_path}, options.overwrite);
   if (options.max_extrapolated_percent && !domain)
     throw InputError(located(spec.path, 0, "--max-extrapolated needs training samples: add [training] samples = \"FILE.csv\""));
 
@@ -392,6 +394,16 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   }
   // Rename only when every raster is complete, so a run leaves all its outputs or none.
   for (OutputRaster* r : out.all()) r->commit();
+  // The quicklook is a convenience: if it cannot be drawn, the committed rasters still stand.
+  std::string quicklook_problem;
+  if (!options.quicklook_path.empty()) {
+    try {
+      write_quicklook(out.suitability->final_path(), out.extrapolation ? out.extrapolation->final_path() : "",
+                      options.quicklook_path, spec.name.empty() ? "habcast prediction" : spec.name);
+    } catch (const Error& e) {
+      quicklook_problem = std::string("no quicklook was written: ") + e.what();
+    }
+  }
 
   ReportContext ctx;
   ctx.tool_version = tool_version;
@@ -406,6 +418,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     const std::string role = fs::path(r->final_path()).stem().string();
     ctx.outputs.emplace_back(role, r->final_path());
   }
+  if (!options.quicklook_path.empty() && quicklook_problem.empty()) ctx.outputs.emplace_back("quicklook", options.quicklook_path);
   ctx.outputs.emplace_back("report", out.report_path);
   ctx.tally = &total;
   ctx.started_utc = started;
@@ -413,6 +426,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
 
   PredictSummary summary;
   summary.warnings = prediction_warnings(ctx);
+  if (!quicklook_problem.empty()) summary.warnings.push_back(quicklook_problem);
   summary.report = prediction_report(ctx, summary.warnings);
   if (options.max_extrapolated_percent && domain) {
     const double pct = total.domain.checked > 0 ? 100.0 * static_cast<double>(total.domain.flagged) /

@@ -1,0 +1,141 @@
+// `habcast describe`: options -> DescribeSettings -> describe_niche -> text or JSON, and the plot.
+#include <memory>
+#include <ostream>
+
+#include "cli/commands.hpp"
+#include "cli/describe_report.hpp"
+#include "core/error.hpp"
+#include "core/model_file.hpp"
+#include "core/niche_description.hpp"
+#include "core/term_plan.hpp"
+#include "core/training_samples.hpp"
+#include "pipeline/atomic_file.hpp"
+#include "render/niche_plot.hpp"
+#include "render/niche_plot_png.hpp"
+
+namespace habcast::cli {
+
+namespace {
+
+constexpr const char* kDescribeHelp =
+    "Show the shape of the fitted niche before mapping it. The linear predictor of the model is a\n"
+    "second-order polynomial in the covariates that have squared or product terms:\n"
+    "    eta(x) = c + b'x + x'Bx      (x in model units: transformed, then standardised)\n"
+    "with every other covariate held fixed (continuous: training mean, or --at; categorical: the\n"
+    "reference level, or --level). describe reports:\n"
+    "  shape          peak, basin, saddle or ridge, from the signs of B's eigenvalues\n"
+    "  optimum        the stationary point x_s = -1/2 B^-1 b in raw units, with standard errors and\n"
+    "                 intervals (delta method) and whether it lies inside the training data\n"
+    "  principal axes eigenvectors of B, their curvature, and the niche breadth: how far from the\n"
+    "                 peak the response falls to --fraction of its peak value\n"
+    "  tilt           how far the product term turns the contours off the covariate axes\n"
+    "  conditional    the best value of one covariate for each value of another, as a formula\n"
+    "Numbers with '+-' are standard errors; '(~0)' marks a value not distinguishable from zero.\n"
+    "Formulas and references: docs/describe.md.\n\n"
+    "Examples:\n"
+    "  habcast describe sample-rasters/demo-model.toml\n"
+    "  habcast describe model.toml --pair tmin,precip --plot niche.svg\n"
+    "  habcast describe model.toml --at slope=10 --level landcover=bog --fraction 0.25 --json";
+
+struct DescribeArgs {
+  std::string model_path;
+  std::string pair;
+  std::vector<std::string> at;
+  std::vector<std::string> levels;
+  DescribeSettings settings;
+  bool json = false;
+  std::string plot_svg;
+  std::string plot_png;
+};
+
+std::pair<std::string, std::string> split_assignment(const std::string& option, const std::string& item, const char* example) {
+  const auto eq = item.find('=');
+  if (eq == std::string::npos || eq == 0 || eq + 1 == item.size())
+    throw UsageError(option + " expects NAME=VALUE (for example " + option + " " + example + "), got \"" + item + "\"");
+  return {item.substr(0, eq), item.substr(eq + 1)};
+}
+
+void translate(DescribeArgs& args) {
+  const double f = args.settings.canonical.fraction;
+  if (!(f > 0.0 && f < 1.0)) throw UsageError("--fraction must lie strictly between 0 and 1 (for example 0.5)");
+  for (const std::string& item : args.at) {
+    const auto [name, text] = split_assignment("--at", item, "slope=10");
+    std::size_t used = 0;
+    double value = 0.0;
+    try {
+      value = std::stod(text, &used);
+    } catch (const std::exception&) {
+      used = 0;
+    }
+    if (used != text.size()) throw UsageError("--at " + item + ": \"" + text + "\" is not a number");
+    if (!args.settings.at.emplace(name, value).second) throw UsageError("--at " + name + "=... is given twice");
+  }
+  for (const std::string& item : args.levels) {
+    const auto [name, level] = split_assignment("--level", item, "landcover=bog");
+    if (!args.settings.levels.emplace(name, level).second) throw UsageError("--level " + name + "=... is given twice");
+  }
+  if (!args.pair.empty()) {
+    const auto comma = args.pair.find(',');
+    if (comma == std::string::npos || comma == 0 || comma + 1 == args.pair.size())
+      throw UsageError("--pair expects two covariate names separated by a comma, for example --pair tmin,precip");
+    args.settings.pair = std::pair{args.pair.substr(0, comma), args.pair.substr(comma + 1)};
+  }
+}
+
+void write_plots(const DescribeArgs& args, const ModelSpec& spec, const NicheDescription& d, std::ostream& err) {
+  if (args.plot_svg.empty() && args.plot_png.empty()) return;
+  if (!d.pair)
+    throw UsageError("--plot needs two continuous covariates to draw; this model has fewer that are not held by --at");
+  const NichePlot plot = layout_niche_plot(spec, d, args.settings.canonical.fraction);
+  if (!args.plot_svg.empty()) {
+    write_file_atomically(args.plot_svg, niche_plot_svg(plot));
+    err << "habcast: wrote " << args.plot_svg << "\n";
+  }
+  if (!args.plot_png.empty()) {
+    write_niche_plot_png(plot, args.plot_png);
+    err << "habcast: wrote " << args.plot_png << "\n";
+  }
+}
+
+int run_describe(DescribeArgs& args, std::ostream& out, std::ostream& err) {
+  translate(args);
+  const ModelSpec spec = read_model_file(args.model_path);
+  const TermPlan plan(spec);
+  std::optional<TrainingSamples> samples;
+  if (spec.training_samples) samples = read_training_samples(spec);
+  const NicheDescription d = describe_niche(spec, plan, samples ? &*samples : nullptr, args.settings);
+  const std::vector<std::string> warnings = describe_warnings(spec, d, args.settings);
+  write_plots(args, spec, d, err);
+  if (args.json) out << describe_json(spec, d, args.settings, warnings).dump(2) << "\n";
+  else out << describe_text(spec, d, args.settings, warnings);
+  return 0;
+}
+
+}  // namespace
+
+void register_describe(CLI::App& app, CommandRegistry& registry) {
+  auto args = std::make_shared<DescribeArgs>();
+  CLI::App* cmd = app.add_subcommand("describe", "Describe the fitted niche: optimum, shape, tilt, breadth");
+  cmd->footer(kDescribeHelp);
+  cmd->add_option("model", args->model_path, "Model file (TOML; see docs/model-format.md)")->required()->check(CLI::ExistingFile);
+  cmd->add_option("--pair", args->pair,
+                  "A,B: the two continuous covariates of the pair section and the plot\n"
+                  "(default: the first two with squared or product terms)");
+  cmd->add_option("--at", args->at,
+                  "NAME=VALUE: hold a continuous covariate at VALUE (raw units) instead of its training\n"
+                  "mean (repeatable). A held covariate leaves the analysis");
+  cmd->add_option("--level", args->levels, "NAME=LEVEL: evaluate at this level (name or code) of a categorical\ncovariate instead of its reference level (repeatable)");
+  cmd->add_option("--fraction", args->settings.canonical.fraction,
+                  "Niche breadth: distance from the peak at which the response falls to this fraction of\nits peak value")
+      ->default_val(0.5)
+      ->check(CLI::Range(0.0, 1.0).description("between 0 and 1"));
+  cmd->add_option("--confidence", args->settings.canonical.confidence, "Confidence level of intervals and tests")
+      ->default_val(0.95)
+      ->check(CLI::Range(0.5, 0.9999));
+  cmd->add_flag("--json", args->json, "Print JSON for pipelines instead of text (fields: docs/describe.md)");
+  cmd->add_option("--plot", args->plot_svg, "FILE.svg: draw the pair: contours, training sites and hull, optimum, axes");
+  cmd->add_option("--plot-png", args->plot_png, "FILE.png: the same picture as a PNG");
+  registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_describe(*args, out, err); });
+}
+
+}  // namespace habcast::cli
