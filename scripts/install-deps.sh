@@ -14,7 +14,7 @@ packages=(
   python3 python3-gdal python3-numpy
 )
 if [[ "${1:-}" == "--with-reference-tools" ]]; then
-  packages+=(r-base-core r-cran-vegan python3-statsmodels)
+  packages+=(r-base-core r-cran-vegan r-cran-mass python3-statsmodels)
 fi
 
 missing=()

@@ -16,7 +16,9 @@ constexpr const char* kAbout =
     "habcast turns a fitted habitat or niche model (a GLM written as a plain-text model file)\n"
     "into maps of a whole region: suitability, its uncertainty, and where the map extrapolates\n"
     "beyond the conditions the model was trained on.\n\n"
-    "Start with:  habcast predict --help\n"
+    "Commands:    fit (points + rasters -> model file), describe (the fitted niche),\n"
+    "             predict (model -> maps), evaluate (maps vs independent points)\n"
+    "Start with:  habcast COMMAND --help\n"
     "Model file:  docs/model-format.md      Exit codes: docs/exit-codes.md";
 
 }  // namespace

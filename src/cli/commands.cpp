@@ -14,6 +14,8 @@ int CommandRegistry::run_selected(const CLI::App& app, std::ostream& out, std::o
 
 void register_commands(CLI::App& app, CommandRegistry& registry) {
   register_predict(app, registry);
+  register_fit(app, registry);
+  register_evaluate(app, registry);
   register_describe(app, registry);
 }
 

@@ -31,6 +31,8 @@ void register_commands(CLI::App& app, CommandRegistry& registry);
 
 // One per command file.
 void register_predict(CLI::App& app, CommandRegistry& registry);
+void register_fit(CLI::App& app, CommandRegistry& registry);
+void register_evaluate(CLI::App& app, CommandRegistry& registry);
 void register_describe(CLI::App& app, CommandRegistry& registry);
 
 }  // namespace habcast::cli

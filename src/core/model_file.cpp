@@ -158,7 +158,17 @@ void read_model_section(const toml::table& root, ModelSpec& spec) {
   spec.name = s.string("name").value_or("");
   spec.response = s.string("response").value_or("");
   spec.description = s.string("description").value_or("");
-  s.reject_unknown("family, link, name, response, description");
+  spec.deviance = s.number("deviance");
+  spec.null_deviance = s.number("null_deviance");
+  spec.aic = s.number("aic");
+  if (auto n = s.integer("n")) {
+    if (*n < 1) s.fail(*s.get("n"), "[model] n is the number of observations the model was fitted on; it must be 1 or more");
+    spec.observations = *n;
+  }
+  for (const char* key : {"deviance", "null_deviance"})
+    if (const toml::node* d = s.get(key); d && *d->value<double>() < 0.0)
+      s.fail(*d, std::string("[model] ") + key + " is a deviance and cannot be negative");
+  s.reject_unknown("family, link, name, response, description, deviance, null_deviance, aic, n");
 }
 
 void read_training_section(const toml::table& root, ModelSpec& spec) {

@@ -63,6 +63,13 @@ struct ModelSpec {
   std::optional<std::string> offset_term;
   double offset_constant = 0.0;
 
+  // Fit statistics as recorded by the fitting software (optional; shown in reports, not used in
+  // predictions).
+  std::optional<double> deviance;
+  std::optional<double> null_deviance;
+  std::optional<double> aic;
+  std::optional<std::int64_t> observations;  ///< n, the observations the model was fitted on
+
   std::optional<std::string> training_samples;  ///< resolved relative to the model file
   long training_line = 0;
 
