@@ -32,8 +32,8 @@ bool is_low_certainty(Family family, double lower, double upper) {
 }
 
 BlockPredictor::BlockPredictor(const ModelSpec& spec, const TermPlan& plan, const Evaluator& evaluator,
-                               const TrainingDomain* domain)
-    : spec_(spec), plan_(plan), evaluator_(evaluator), domain_(domain) {}
+                               const TrainingDomain* domain, const NoveltyModel* novelty)
+    : spec_(spec), plan_(plan), evaluator_(evaluator), domain_(domain), novelty_(domain ? novelty : nullptr) {}
 
 namespace {
 
@@ -58,7 +58,11 @@ void BlockPredictor::run(const Eigen::ArrayXXd& raw, const std::vector<std::uint
   predict_valid_.assign(valid.begin(), valid.begin() + static_cast<std::ptrdiff_t>(n));
   tally.pixels += rows;
   for (std::size_t i = 0; i < n; ++i) tally.missing_input += valid[i] ? 0 : 1;
-  if (domain_) domain_->flag(raw, rows, valid.data(), out.flags.data(), tally.domain);
+  if (domain_) {
+    domain_->flag(raw, rows, valid.data(), out.flags.data(), tally.domain);
+    if (novelty_) novelty_->check(raw, rows, valid.data(), out.flags.data(), out.novelty, tally.domain);
+    TrainingDomain::count_causes(rows, valid.data(), out.flags.data(), tally.domain);
+  }
 
   raw_ = &raw;
   for (Eigen::Index first = 0; first < rows; first += kChunk)

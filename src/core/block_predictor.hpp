@@ -8,6 +8,7 @@
 #include "core/evaluator.hpp"
 #include "core/model_spec.hpp"
 #include "core/model_values.hpp"
+#include "core/novelty_model.hpp"
 #include "core/term_plan.hpp"
 #include "core/training_domain.hpp"
 
@@ -49,12 +50,15 @@ struct BlockOutputs {
   std::vector<float> lower;
   std::vector<float> upper;
   std::vector<std::uint8_t> flags;
+  NoveltyBlock novelty;  ///< MESS, NT1, NT2 and limiting covariate (empty without a NoveltyModel)
 };
 
 class BlockPredictor {
  public:
-  /// `domain` may be null (no training samples): then no flags are produced.
-  BlockPredictor(const ModelSpec& spec, const TermPlan& plan, const Evaluator& evaluator, const TrainingDomain* domain);
+  /// `domain` may be null (no training samples): then no flags are produced. `novelty` may be
+  /// null (no training samples, or no joint checks asked for).
+  BlockPredictor(const ModelSpec& spec, const TermPlan& plan, const Evaluator& evaluator, const TrainingDomain* domain,
+                 const NoveltyModel* novelty = nullptr);
 
   /// `raw`: rows x covariates raw values (column per covariate), `valid`: 1 where every covariate
   /// has data. Resizes and fills `out`; adds counts to `tally`.
@@ -71,6 +75,7 @@ class BlockPredictor {
   const TermPlan& plan_;
   const Evaluator& evaluator_;
   const TrainingDomain* domain_;
+  const NoveltyModel* novelty_;
   const Eigen::ArrayXXd* raw_ = nullptr;
   std::vector<std::uint8_t> predict_valid_;
   ModelValues values_;

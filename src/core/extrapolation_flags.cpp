@@ -10,6 +10,7 @@ const char* flag_name(int bit) {
     case 1: return "outside_hull";
     case 2: return "unseen_level";
     case 3: return "novel_combination";
+    case 4: return "outside_pair_hull";
     default: return "unknown";
   }
 }
@@ -20,7 +21,8 @@ const char* flag_phrase(int bit) {
     case 0: return "outside training range";
     case 1: return "outside training hull";
     case 2: return "unseen category";
-    case 3: return "novel combination";
+    case 3: return "novel combination (NT2)";
+    case 4: return "outside hull of an interacting pair";
     default: return "?";
   }
 }
@@ -45,11 +47,13 @@ std::vector<FlagColour> flag_colour_table() {
   const Rgb hull{215, 48, 39};        // red: outside the joint training hull
   const Rgb level{150, 80, 170};      // purple: unseen category
   const Rgb combination{60, 120, 200};  // blue: novel combination inside the ranges
+  const Rgb pair{200, 60, 160};       // magenta: an interacting pair never seen together
   std::vector<FlagColour> table;
   table.push_back({0, 225, 225, 225, 255, flag_label(0)});
-  for (int v = 1; v < 16; ++v) {
+  for (int v = 1; v < flag::value_count; ++v) {
     Rgb base = combination;
     if (v & flag::unseen_level) base = level;
+    if (v & flag::outside_pair_hull) base = pair;
     if (v & flag::outside_range) base = range;
     if (v & flag::outside_hull) base = hull;
     int causes = 0;

@@ -15,14 +15,20 @@ void DomainTally::merge(const DomainTally& other) {
     above.resize(other.above.size());
     unseen.resize(other.unseen.size());
     unseen_codes.resize(other.unseen_codes.size());
+    limiting.resize(other.limiting.size());
   }
+  if (pair_outside.size() < other.pair_outside.size()) pair_outside.resize(other.pair_outside.size());
+  for (std::size_t p = 0; p < other.pair_outside.size(); ++p) pair_outside[p] += other.pair_outside[p];
   for (std::size_t c = 0; c < other.below.size(); ++c) {
     below[c] += other.below[c];
     above[c] += other.above[c];
     unseen[c] += other.unseen[c];
     for (const auto& [code, n] : other.unseen_codes[c]) unseen_codes[c][code] += n;
+    limiting[c] += other.limiting[c];
   }
-  for (int b = 0; b < 4; ++b) cause[b] += other.cause[b];
+  for (int b = 0; b < flag::cause_count; ++b) cause[b] += other.cause[b];
+  mess_negative += other.mess_negative;
+  nt2_above += other.nt2_above;
   flagged += other.flagged;
   checked += other.checked;
 }
@@ -87,6 +93,10 @@ void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const s
       }
     }
   }
+}
+
+void TrainingDomain::count_causes(Eigen::Index rows, const std::uint8_t* valid, const std::uint8_t* flags,
+                                  DomainTally& tally) {
   for (Eigen::Index r = 0; r < rows; ++r) {
     if (!valid[r]) continue;
     ++tally.checked;

@@ -48,7 +48,8 @@ std::vector<std::string> split_csv(const std::string& line) {
   return fields;
 }
 
-bool is_missing(const std::string& v) { return v.empty() || v == "NA" || v == "NaN" || v == "nan"; }
+// "NaN" is not "not recorded": a computed NaN in a training table is a mistake to report, not skip.
+bool is_missing(const std::string& v) { return v.empty() || v == "NA"; }
 
 bool parse_double(const std::string& text, double& out) {
   const char* first = text.data();

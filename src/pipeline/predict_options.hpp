@@ -5,6 +5,7 @@
 #include <string>
 #include <vector>
 
+#include "core/novelty_model.hpp"
 #include "pipeline/progress.hpp"
 
 namespace habcast {
@@ -22,6 +23,8 @@ struct PredictOptions {
   std::optional<double> max_extrapolated_percent;  ///< exit code 5 above this share of valid pixels
   /// Lossy Float32 outputs: round to a power-of-two grid and store with LERC, |error| <= this.
   std::optional<double> max_error;
+  NoveltyOptions novelty;             ///< which joint training-domain checks run, and their thresholds
+  bool novelty_rasters = true;        ///< write novelty.tif and limiting.tif
   ProgressStyle progress = ProgressStyle::automatic;
   std::string quicklook_path;         ///< small PNG of suitability and extrapolation; empty: none
   long long gdal_cache_bytes = 0;     ///< GDAL block cache; 0: sized to the windows in flight

@@ -14,6 +14,7 @@
 #include "core/extrapolation_flags.hpp"
 #include "core/model_file.hpp"
 #include "core/output_precision.hpp"
+#include "core/novelty_model.hpp"
 #include "core/term_plan.hpp"
 #include "core/training_domain.hpp"
 #include "core/training_samples.hpp"
@@ -141,8 +142,8 @@ struct Worker {
   std::vector<std::uint8_t> valid;
 
   Worker(const std::vector<CovariateInput>& inputs, const ModelSpec& spec, const TermPlan& plan, double level,
-         double quantum, const TrainingDomain* domain)
-      : evaluator(spec, level, quantum), predictor(spec, plan, evaluator, domain) {
+         double quantum, const TrainingDomain* domain, const NoveltyModel* novelty)
+      : evaluator(spec, level, quantum), predictor(spec, plan, evaluator, domain, novelty) {
     for (const CovariateInput& in : inputs) readers.emplace_back(in.path, in.band);
   }
   Worker(const Worker&) = delete;
@@ -158,11 +159,13 @@ struct Outputs {
   std::unique_ptr<OutputRaster> suitability;
   std::unique_ptr<OutputRaster> uncertainty;
   std::unique_ptr<OutputRaster> extrapolation;
+  std::unique_ptr<OutputRaster> novelty;
+  std::unique_ptr<OutputRaster> limiting;
   std::string report_path;
 
   std::vector<OutputRaster*> all() {
     std::vector<OutputRaster*> v;
-    for (auto* p : {suitability.get(), uncertainty.get(), extrapolation.get()})
+    for (auto* p : {suitability.get(), uncertainty.get(), extrapolation.get(), novelty.get(), limiting.get()})
       if (p) v.push_back(p);
     return v;
   }
@@ -190,18 +193,75 @@ std::vector<std::string> float_creation_options(const PredictOptions& options) {
   return result;
 }
 
+std::string checks_text(const NoveltyModel* novelty) {
+  std::string s = "range";
+  if (!novelty || !novelty->active()) return s;
+  const NoveltyOptions& o = novelty->options();
+  if (o.hull) s += ",hull";
+  if (o.pairs) s += ",pairs";
+  if (o.nt2) s += ",nt2";
+  if (o.mess) s += ",mess";
+  return s;
+}
+
+OutputSpec novelty_spec(const OutputSpec& base, const std::string& path, const NoveltyModel& novelty) {
+  OutputSpec n = base;
+  n.final_path = path;
+  n.type = OutputType::float32;
+  n.nodata = kFloatNodata;
+  n.colours.clear();
+  const NoveltyOptions& o = novelty.options();
+  const std::string off = " (not computed: not in --checks)";
+  n.bands = {{"MESS similarity, percent: min over covariates, negative outside the training range (Elith et al. 2010)" +
+                  (o.mess ? std::string() : off), "percent"},
+             {"NT1 univariate novelty: 0 in range, negative outside (Mesgaran et al. 2014)" + (o.mess ? std::string() : off), ""},
+             {"NT2 Mahalanobis ratio: distance from the training centroid over the largest training distance; > 1 is "
+              "novel (Mesgaran et al. 2014)" + (o.nt2 ? std::string() : off), ""}};
+  n.metadata.emplace_back("HABCAST_NOVELTY_SPACE", "model values of the continuous covariates (after transform and standardisation)");
+  n.metadata.emplace_back("HABCAST_NOVELTY_FLOOR", "values below -9000 are written as -9000 so they never equal nodata");
+  return n;
+}
+
+OutputSpec limiting_spec(const OutputSpec& base, const std::string& path, const ModelSpec& spec, const NoveltyModel& novelty) {
+  OutputSpec l = base;
+  l.final_path = path;
+  l.type = OutputType::uint8;
+  l.nodata = flag::nodata;
+  l.bands = {{"covariate with the smallest MESS similarity (1-based position in the model file)", ""}};
+  l.colours.clear();
+  l.attributes.columns = {"covariate", "units", "description"};
+  // A qualitative palette: one distinct colour per covariate, in the model file's order.
+  static const std::uint8_t palette[8][3] = {{27, 158, 119}, {217, 95, 2}, {117, 112, 179}, {231, 41, 138},
+                                             {102, 166, 30}, {230, 171, 2}, {166, 118, 29}, {102, 102, 102}};
+  for (int c : novelty.covariates()) {
+    const Covariate& cov = spec.covariates[static_cast<std::size_t>(c)];
+    l.attributes.rows.push_back({c + 1, {cov.name, cov.units, cov.description}});
+    const auto* rgb = palette[static_cast<std::size_t>(c) % 8];
+    l.colours.push_back({c + 1, rgb[0], rgb[1], rgb[2], 255, cov.name});
+  }
+  l.colours.push_back({flag::nodata, 0, 0, 0, 0, "no data"});
+  return l;
+}
+
 Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, const RasterGrid& grid, bool with_se,
-                       bool with_flags, const std::string& version) {
+                       bool with_flags, const NoveltyModel* novelty, const std::string& version) {
   const fs::path dir(options.output_dir);
   Outputs out;
   const std::string suitability_path = (dir / "suitability.tif").string();
   const std::string uncertainty_path = (dir / "uncertainty.tif").string();
   const std::string extrapolation_path = (dir / "extrapolation.tif").string();
+  const std::string novelty_path = (dir / "novelty.tif").string();
+  const std::string limiting_path = (dir / "limiting.tif").string();
   out.report_path = (dir / "report.json").string();
+  const bool with_novelty = with_flags && novelty && novelty->active() && options.novelty_rasters &&
+                            (novelty->options().mess || novelty->options().nt2);
+  const bool with_limiting = with_novelty && novelty->options().mess;
 
   std::vector<std::string> finals{suitability_path, out.report_path};
   if (with_se) finals.push_back(uncertainty_path);
   if (with_flags) finals.push_back(extrapolation_path);
+  if (with_novelty) finals.push_back(novelty_path);
+  if (with_limiting) finals.push_back(limiting_path);
   refuse_to_clobber(finals, options.overwrite);
   std::vector<std::string> names;
   for (const std::string& f : finals) names.push_back(fs::path(f).filename().string());
@@ -246,11 +306,19 @@ Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, con
     e.creation_options = options.creation_options;
     e.metadata = metadata;
     e.metadata.emplace_back("HABCAST_FLAG_BITS",
-                            "1=outside training range of a covariate; 2=outside training hull (not checked by this "
-                            "version); 4=categorical level not seen in training; 8=novel combination (not checked "
-                            "by this version); 255=no data");
+                            "1=outside training range of a covariate; 2=in range but outside the training hull; "
+                            "4=categorical level not seen in training; 8=in range but NT2 above its threshold "
+                            "(novel combination); 16=in range but outside the 2-D training hull of an interacting "
+                            "pair; 255=no data");
+    e.metadata.emplace_back("HABCAST_CHECKS", checks_text(novelty));
+    e.metadata.emplace_back("HABCAST_HULL_METHOD", novelty ? novelty->hull_method() : "not checked (range only)");
+    if (novelty && novelty->options().nt2)
+      e.metadata.emplace_back("HABCAST_NT2_THRESHOLD", format_value(novelty->options().nt2_threshold));
     for (const FlagColour& c : flag_colour_table()) e.colours.push_back({c.value, c.r, c.g, c.b, c.a, c.label});
     out.extrapolation = std::make_unique<OutputRaster>(e, grid);
+    if (with_novelty) out.novelty = std::make_unique<OutputRaster>(novelty_spec(e, novelty_path, *novelty), grid);
+    if (with_limiting)
+      out.limiting = std::make_unique<OutputRaster>(limiting_spec(e, limiting_path, spec, *novelty), grid);
   }
   return out;
 }
@@ -263,6 +331,23 @@ void write_block(Outputs& out, const Window& w, const BlockOutputs& b) {
     out.uncertainty->write(3, w, b.upper.data());
   }
   if (out.extrapolation) out.extrapolation->write(1, w, b.flags.data());
+  if (out.novelty) {
+    out.novelty->write(1, w, b.novelty.mess.data());
+    out.novelty->write(2, w, b.novelty.nt1.data());
+    out.novelty->write(3, w, b.novelty.nt2.data());
+  }
+  if (out.limiting) out.limiting->write(1, w, b.novelty.limiting.data());
+}
+
+void check_novelty_options(const NoveltyOptions& o) {
+  if (!(o.nt2_threshold > 0.0))
+    throw UsageError("--nt2-threshold must be positive (1 flags pixels farther than any training sample), got " +
+                     format_value(o.nt2_threshold));
+  if (!(o.hull_tolerance >= 0.0 && o.hull_tolerance <= 1e-3))
+    throw UsageError("--hull-tolerance is a relative enlargement from 0 to 0.001 (default 1e-9), got " +
+                     format_value(o.hull_tolerance));
+  if (o.hull_max_dim < 2 || o.hull_max_dim > 10)
+    throw UsageError("--hull-max-dim must be between 2 and 10, got " + std::to_string(o.hull_max_dim));
 }
 
 }  // namespace
@@ -279,6 +364,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   if (options.max_error && !(*options.max_error > 0.0 && *options.max_error <= 1.0))
     throw UsageError("--max-error is an absolute error in the outputs' units, above 0 and at most 1 (for example "
                      "1e-4), got " + format_value(*options.max_error));
+  check_novelty_options(options.novelty);
   ensure_gdal();
 
   // Everything that can be wrong with the inputs is found before any output is created.
@@ -288,9 +374,11 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   const RasterGrid grid = check_inputs_co_registered(inputs);
   std::optional<TrainingSamples> samples;
   std::optional<TrainingDomain> domain;
+  std::optional<NoveltyModel> novelty;
   if (spec.training_samples) {
     samples = read_training_samples(spec);
     domain.emplace(spec, *samples);
+    if (options.novelty.any()) novelty.emplace(spec, plan, *samples, options.novelty);
   }
   if (!options.quicklook_path.empty()) refuse_to_clobber({options.quicklook_path}, options.overwrite);
   if (options.max_extrapolated_percent && !domain)
@@ -305,14 +393,15 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
                        options.max_memory_bytes);
   std::vector<std::unique_ptr<Worker>> workers;
   for (int t = 0; t < threads; ++t)
-    workers.push_back(
-        std::make_unique<Worker>(inputs, spec, plan, options.level, quantum, domain ? &*domain : nullptr));
+    workers.push_back(std::make_unique<Worker>(inputs, spec, plan, options.level, quantum,
+                                               domain ? &*domain : nullptr, novelty ? &*novelty : nullptr));
 
   std::error_code ec;
   fs::create_directories(options.output_dir, ec);
   if (ec || !fs::is_directory(options.output_dir))
     throw IoError(options.output_dir + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
-  Outputs out = create_outputs(options, spec, grid, spec.covariance.has_value(), domain.has_value(), tool_version);
+  Outputs out = create_outputs(options, spec, grid, spec.covariance.has_value(), domain.has_value(),
+                               novelty ? &*novelty : nullptr, tool_version);
 
   const std::size_t k = spec.covariates.size();
   set_gdal_cache(options.gdal_cache_bytes > 0 ? options.gdal_cache_bytes
@@ -365,6 +454,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   ctx.tool_version = tool_version;
   ctx.spec = &spec;
   ctx.domain = domain ? &*domain : nullptr;
+  ctx.novelty = novelty ? &*novelty : nullptr;
   ctx.inputs = inputs;
   ctx.grid = grid;
   ctx.level = options.level;

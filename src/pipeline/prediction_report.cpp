@@ -22,6 +22,20 @@ std::string format_value(double value) {
   return buf;
 }
 
+std::string format_area(std::int64_t pixels, const RasterGrid& grid) {
+  if (!grid.has_geotransform) return "";
+  const double area = static_cast<double>(pixels) * grid.pixel_area();
+  if (grid.linear_units_to_metre > 0.0) {
+    const double ha = area * grid.linear_units_to_metre * grid.linear_units_to_metre / 1e4;
+    if (ha < 10.0) return format_value(ha) + " ha";
+    // Whole hectares with thousands separators: "2,310 ha".
+    std::string digits = std::to_string(static_cast<long long>(std::llround(ha)));
+    for (auto i = static_cast<long>(digits.size()) - 3; i > 0; i -= 3) digits.insert(static_cast<std::size_t>(i), ",");
+    return digits + " ha";
+  }
+  return format_value(area) + " square map units";
+}
+
 namespace {
 
 double share(std::int64_t part, std::int64_t whole) {
@@ -36,6 +50,46 @@ std::string level_name(const Covariate& c, std::int64_t code) {
   const int i = c.level_index(code);
   return i >= 0 ? c.levels[static_cast<std::size_t>(i)].name + " (code " + std::to_string(code) + ")"
                 : "code " + std::to_string(code) + " (not a level of the model)";
+}
+
+std::string share_and_area(std::int64_t pixels, const ReportContext& ctx) {
+  const std::string area = format_area(pixels, ctx.grid);
+  return format_percent(share(pixels, ctx.tally->domain.checked)) + " of valid pixels" +
+         (area.empty() ? "" : " (" + area + ")");
+}
+
+std::string joined(const std::vector<std::string>& items) {
+  std::string s;
+  for (std::size_t i = 0; i < items.size(); ++i) s += (i == 0 ? "" : (i + 1 == items.size() ? " and " : ", ")) + items[i];
+  return s;
+}
+
+void novelty_warnings(const ReportContext& ctx, std::vector<std::string>& out) {
+  const ModelSpec& spec = *ctx.spec;
+  const NoveltyModel& nov = *ctx.novelty;
+  const DomainTally& d = ctx.tally->domain;
+  for (const std::string& note : nov.notes()) out.push_back(note);
+  if (d.cause[1] > 0)
+    out.push_back(share_and_area(d.cause[1], ctx) +
+                  " have every covariate within its training range, but a combination outside the convex hull of "
+                  "the training samples; predictions there carry the fitted surface beyond any sampled combination.");
+  for (std::size_t p = 0; p < nov.pairs().size(); ++p) {
+    if (p >= d.pair_outside.size() || d.pair_outside[p] == 0) continue;
+    const CovariatePair& pair = nov.pairs()[p];
+    const std::string a = spec.covariates[static_cast<std::size_t>(pair.a)].name;
+    const std::string b = spec.covariates[static_cast<std::size_t>(pair.b)].name;
+    out.push_back(share_and_area(d.pair_outside[p], ctx) + " combine " + a + " and " + b +
+                  " in a way never seen together in training (each within its range, the pair outside their joint "
+                  "hull); predictions there lean on the term" + (pair.terms.size() > 1 ? "s " : " ") +
+                  joined(pair.terms) + " beyond the data.");
+  }
+  if (d.cause[3] > 0)
+    out.push_back(share_and_area(d.cause[3], ctx) + " have every covariate in range but lie farther from the centre "
+                  "of the training samples (Mahalanobis distance) than " +
+                  (nov.options().nt2_threshold == 1.0 ? std::string("any training sample")
+                                                      : format_value(nov.options().nt2_threshold) +
+                                                            " times the farthest training sample") +
+                  " (NT2): an unusual combination of covariates.");
 }
 
 void range_warnings(const ReportContext& ctx, std::vector<std::string>& out) {
@@ -67,6 +121,7 @@ void range_warnings(const ReportContext& ctx, std::vector<std::string>& out) {
                     "classes are predicted from their coefficients alone.");
     }
   }
+  if (ctx.novelty) novelty_warnings(ctx, out);
   if (d.flagged > 0)
     out.push_back("In all, " + format_percent(share(d.flagged, d.checked)) +
                   " of valid pixels are flagged in extrapolation.tif. Do not base decisions on the map there "
@@ -190,15 +245,77 @@ nlohmann::ordered_json prediction_report(const ReportContext& ctx, const std::ve
       ex["flagged_area_ha"] = static_cast<double>(d.flagged) * pixel_m2 / 1e4;
       ex["checked_area_ha"] = static_cast<double>(d.checked) * pixel_m2 / 1e4;
     }
+    const bool metric = g.linear_units_to_metre > 0.0 && g.has_geotransform;
+    const double pixel_m2 = metric ? g.pixel_area() * g.linear_units_to_metre * g.linear_units_to_metre : 0.0;
+    auto add_area = [&](json& j, std::int64_t pixels) {
+      if (!g.has_geotransform) return;
+      j["area"] = static_cast<double>(pixels) * g.pixel_area();
+      if (metric) j["area_ha"] = static_cast<double>(pixels) * pixel_m2 / 1e4;
+    };
+    const NoveltyModel* nov = ctx.novelty;
+    const bool active = nov && nov->active();
     json causes = json::object();
     for (int b = 0; b < flag::cause_count; ++b) {
-      const bool checked_here = b == 0 || b == 2;  // hull and combination checks are not in this version
-      causes[flag_name(b)] = {{"bit_value", 1 << b},
-                              {"checked", checked_here},
-                              {"pixels", d.cause[b]},
-                              {"share", share(d.cause[b], d.checked)}};
+      bool checked_here = b == 0 || b == 2;
+      std::string method = b == 0 ? "training minimum and maximum per continuous covariate"
+                                  : "categorical levels present in the training samples";
+      if (b == 1) {
+        checked_here = active && nov->hull().has_value();
+        method = nov ? nov->hull_method() : "not checked";
+      } else if (b == 3) {
+        checked_here = active && nov->options().nt2;
+        method = checked_here ? "NT2 (Mesgaran et al. 2014) > " + format_value(nov->options().nt2_threshold)
+                              : "not checked";
+      } else if (b == 4) {
+        checked_here = active && nov->options().pairs && !nov->pairs().empty();
+        method = checked_here ? "exact 2-D convex hulls of covariate pairs that share a term"
+                              : (active && nov->options().pairs ? "no term combines two continuous covariates"
+                                                                : "not checked");
+      }
+      json c{{"bit_value", 1 << b}, {"checked", checked_here}, {"method", method},
+             {"pixels", d.cause[b]}, {"share", share(d.cause[b], d.checked)}};
+      add_area(c, d.cause[b]);
+      causes[flag_name(b)] = c;
     }
     ex["causes"] = causes;
+    if (nov) {
+      json n;
+      std::string checks = "range";
+      for (auto [on, name] : {std::pair{nov->options().hull, "hull"}, {nov->options().pairs, "pairs"},
+                              {nov->options().nt2, "nt2"}, {nov->options().mess, "mess"}})
+        if (on) checks += std::string(",") + name;
+      n["checks"] = checks;
+      json covs = json::array();
+      for (int c : nov->covariates()) covs.push_back(spec.covariates[static_cast<std::size_t>(c)].name);
+      n["covariates"] = covs;
+      n["space"] = "model values (after transform and standardisation)";
+      n["complete_training_samples"] = nov->complete_samples();
+      n["hull_method"] = nov->hull_method();
+      if (nov->hull()) {
+        n["hull"] = {{"dimensions", nov->hull()->dim()}, {"rank", nov->hull()->rank()},
+                     {"facets", nov->hull()->facet_count()}, {"relative_tolerance", nov->hull()->tolerance()}};
+      }
+      if (nov->options().nt2)
+        n["nt2"] = {{"threshold", nov->options().nt2_threshold}, {"largest_training_distance", nov->nt2_max_distance()},
+                    {"pixels_above_threshold", d.nt2_above}, {"share_above_threshold", share(d.nt2_above, d.checked)}};
+      if (nov->options().mess) n["mess"] = {{"negative_pixels", d.mess_negative}, {"negative_share", share(d.mess_negative, d.checked)}};
+      json pairs = json::array();
+      for (std::size_t p = 0; p < nov->pairs().size(); ++p) {
+        const CovariatePair& pair = nov->pairs()[p];
+        const std::int64_t outside = p < d.pair_outside.size() ? d.pair_outside[p] : 0;
+        json j{{"covariates", {spec.covariates[static_cast<std::size_t>(pair.a)].name,
+                               spec.covariates[static_cast<std::size_t>(pair.b)].name}},
+               {"terms", pair.terms},
+               {"hull_vertices_rank", nov->pair_hulls()[p].rank()},
+               {"outside_pixels", outside},
+               {"outside_share", share(outside, d.checked)}};
+        add_area(j, outside);
+        pairs.push_back(j);
+      }
+      n["pairs"] = pairs;
+      n["notes"] = nov->notes();
+      ex["novelty"] = n;
+    }
     json per_cov = json::object();
     for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
       const Covariate& cov = spec.covariates[c];
@@ -215,6 +332,11 @@ nlohmann::ordered_json prediction_report(const ReportContext& ctx, const std::ve
         e["below_share"] = share(d.below[c], d.checked);
         e["above_share"] = share(d.above[c], d.checked);
         e["outside_share"] = share(d.below[c] + d.above[c], d.checked);
+        add_area(e, d.below[c] + d.above[c]);
+        if (nov && nov->options().mess) {
+          e["least_similar_pixels"] = d.limiting[c];
+          e["least_similar_share"] = share(d.limiting[c], d.checked);
+        }
       }
       per_cov[cov.name] = e;
     }

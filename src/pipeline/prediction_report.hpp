@@ -7,6 +7,7 @@
 
 #include "core/block_predictor.hpp"
 #include "core/model_spec.hpp"
+#include "core/novelty_model.hpp"
 #include "core/training_domain.hpp"
 #include "raster/raster_grid.hpp"
 
@@ -22,6 +23,7 @@ struct ReportContext {
   std::string tool_version;
   const ModelSpec* spec = nullptr;
   const TrainingDomain* domain = nullptr;  ///< null without training samples
+  const NoveltyModel* novelty = nullptr;   ///< null without training samples or joint checks
   std::vector<CovariateInput> inputs;
   RasterGrid grid;
   double level = 0.95;
@@ -44,5 +46,9 @@ std::string format_percent(double share);
 
 /// A number with up to 4 significant digits, no trailing zeros ("2310", "0.125").
 std::string format_value(double value);
+
+/// The area of `pixels` pixels for a sentence: "2,310 ha" in a metric CRS, else "1.2e+04 square
+/// map units" (CRS units), or "" when the grid has no geotransform.
+std::string format_area(std::int64_t pixels, const RasterGrid& grid);
 
 }  // namespace habcast

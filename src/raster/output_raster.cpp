@@ -3,6 +3,7 @@
 #include <cpl_conv.h>
 #include <cpl_error.h>
 #include <cpl_string.h>
+#include <gdal_rat.h>
 #include <ogr_spatialref.h>
 
 #include <algorithm>
@@ -122,6 +123,21 @@ void apply_colours(GDALRasterBand& band, const std::vector<ColourEntry>& colours
   }
 }
 
+void apply_attributes(GDALRasterBand& band, const AttributeTable& attributes) {
+  GDALDefaultRasterAttributeTable table;
+  table.CreateColumn("value", GFT_Integer, GFU_MinMax);
+  for (std::size_t c = 0; c < attributes.columns.size(); ++c)
+    table.CreateColumn(attributes.columns[c].c_str(), GFT_String, c == 0 ? GFU_Name : GFU_Generic);
+  table.SetRowCount(static_cast<int>(attributes.rows.size()));
+  for (std::size_t r = 0; r < attributes.rows.size(); ++r) {
+    const auto& [value, texts] = attributes.rows[r];
+    table.SetValue(static_cast<int>(r), 0, value);
+    for (std::size_t c = 0; c < texts.size() && c < attributes.columns.size(); ++c)
+      table.SetValue(static_cast<int>(r), static_cast<int>(c) + 1, texts[c].c_str());
+  }
+  band.SetDefaultRAT(&table);
+}
+
 /// Sets one config option for this thread and restores the previous value when it goes away.
 class ThreadConfig {
  public:
@@ -210,6 +226,7 @@ void OutputRaster::Impl::describe_bands() {
   }
   for (const auto& [key, value] : spec.metadata) dataset->SetMetadataItem(key.c_str(), value.c_str());
   if (!spec.colours.empty()) apply_colours(*dataset->GetRasterBand(1), spec.colours);
+  if (!spec.attributes.rows.empty()) apply_attributes(*dataset->GetRasterBand(1), spec.attributes);
   if (const std::string reason = take_gdal_error(); !reason.empty()) {
     throw IoError(located(temporary_path, 0, "cannot store band information (" + reason + ")."));
   }

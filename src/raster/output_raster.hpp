@@ -27,12 +27,20 @@ struct OutputBandInfo {
   std::string units;        ///< GDAL unit type, may be empty
 };
 
+/// A raster attribute table for band 1: an integer "value" column, then text columns (the first
+/// is the class name GIS software shows). GeoTIFF keeps it in the .aux.xml sidecar.
+struct AttributeTable {
+  std::vector<std::string> columns;  ///< names of the text columns
+  std::vector<std::pair<int, std::vector<std::string>>> rows;  ///< value -> one text per column
+};
+
 struct OutputSpec {
   std::string final_path;
   OutputType type = OutputType::float32;
   std::vector<OutputBandInfo> bands;  ///< one entry per band
   double nodata = -9999.0;
   std::vector<ColourEntry> colours;   ///< colour table + category names (band 1), uint8 only
+  AttributeTable attributes;          ///< raster attribute table of band 1 (none when empty)
   std::vector<std::string> creation_options;  ///< "KEY=VALUE", applied over habcast's defaults
   std::vector<std::pair<std::string, std::string>> metadata;  ///< dataset metadata items
 };

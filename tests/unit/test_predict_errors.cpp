@@ -56,7 +56,8 @@ TEST_CASE("a valid poisson model with unknown category codes predicts and flags"
   // No covariance in the model: no uncertainty raster, and the tool says so.
   CHECK_THAT(err, Contains("no covariance matrix"));
   CHECK(habcast::test::list_dir(s.out) ==
-        std::vector<std::string>{"extrapolation.tif", "extrapolation.tif.aux.xml", "report.json", "suitability.tif"});
+        std::vector<std::string>{"extrapolation.tif", "extrapolation.tif.aux.xml", "limiting.tif", "limiting.tif.aux.xml",
+                                 "novelty.tif", "report.json", "suitability.tif"});
   // Column 39 has code 3: flagged as an unseen level, no prediction.
   CHECK(habcast::test::read_pixel(s.out + "/extrapolation.tif", 1, 0, 39) == 4.0);
   CHECK(habcast::test::read_pixel(s.out + "/suitability.tif", 1, 0, 39) == -9999.0);
@@ -153,7 +154,7 @@ TEST_CASE("existing outputs are kept unless --overwrite is given", "[predict][er
   std::filesystem::remove(s.dir.file("cover.tif"));
   CHECK(s.run({"--overwrite"}, &err) == 3);
   CHECK(habcast::test::read_text(s.out + "/suitability.tif") == before);
-  CHECK(habcast::test::list_dir(s.out).size() == 4);
+  CHECK(habcast::test::list_dir(s.out).size() == 7);
 }
 
 TEST_CASE("a maximum extrapolated share (--max-extrapolated) turns too much extrapolation into exit code 5", "[predict][errors]") {

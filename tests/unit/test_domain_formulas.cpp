@@ -1,0 +1,115 @@
+// The novelty formulas against hand-worked examples (numbers written here, paper named beside
+// each) and against an independent R computation on the mite data (tests/reference/mite_novelty.R).
+#include <catch2/catch.hpp>
+#include <cmath>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include "core/extrapolation_flags.hpp"
+#include "core/model_file.hpp"
+#include "core/novelty_indices.hpp"
+#include "core/novelty_model.hpp"
+#include "core/term_plan.hpp"
+#include "core/training_domain.hpp"
+#include "core/training_samples.hpp"
+#include "core/whitening_frame.hpp"
+#include "test_support.hpp"
+
+using Catch::Matchers::WithinAbs;
+
+TEST_CASE("MESS similarity follows each case of its definition", "[domain]") {
+  // Elith, Kearney & Phillips 2010, Methods in Ecology and Evolution 1:330-342: with f the
+  // percentage of training values smaller than p, S = 100 (p - min)/(max - min) for f = 0,
+  // 2f for 0 < f <= 50, 2(100 - f) for 50 <= f < 100, 100 (max - p)/(max - min) for f = 100.
+  // Hand-worked on the training values 1, 2, ..., 10 (min 1, max 10, range 9):
+  const std::vector<double> v{1, 2, 3, 4, 5, 6, 7, 8, 9, 10};
+  CHECK_THAT(habcast::mess_similarity(v, 0.0), WithinAbs(-100.0 / 9.0, 1e-12));  // f = 0: (0 - 1)/9 = -11.11 %
+  CHECK(habcast::mess_similarity(v, 1.0) == 0.0);                                 // f = 0 at the minimum: 0
+  CHECK_THAT(habcast::mess_similarity(v, 3.5), WithinAbs(60.0, 1e-12));           // f = 30: 2 x 30
+  CHECK_THAT(habcast::mess_similarity(v, 5.5), WithinAbs(100.0, 1e-12));          // f = 50: both middle cases give 100
+  CHECK_THAT(habcast::mess_similarity(v, 8.0), WithinAbs(60.0, 1e-12));           // f = 70: 2 x (100 - 70)
+  CHECK_THAT(habcast::mess_similarity(v, 10.0), WithinAbs(20.0, 1e-12));          // f = 90 at the maximum: 2 x 10
+  CHECK_THAT(habcast::mess_similarity(v, 12.0), WithinAbs(-200.0 / 9.0, 1e-12));  // f = 100: (10 - 12)/9 = -22.22 %
+}
+
+TEST_CASE("NT1 sums the scaled distances beyond each covariate's range", "[domain]") {
+  // Mesgaran, Cousens & Webber 2014, Diversity and Distributions 20:1147-1159:
+  // NT1 = sum_j min(x_j - min_j, max_j - x_j, 0) / (max_j - min_j). Ranges [1, 10] and [0, 2];
+  // the point (12, -1): -2/9 + (-1/2) = -0.72222...; inside both ranges: 0.
+  const double nt1 = habcast::nt1_term(1, 10, 12) + habcast::nt1_term(0, 2, -1);
+  CHECK_THAT(nt1, WithinAbs(-2.0 / 9.0 - 0.5, 1e-15));
+  CHECK(habcast::nt1_term(1, 10, 5) + habcast::nt1_term(0, 2, 2) == 0.0);
+}
+
+TEST_CASE("NT2 is the Mahalanobis distance over the largest training distance", "[domain]") {
+  // Mesgaran et al. 2014: NT2 = D_M(x) / max_i D_M(x_i), D_M from the training centroid with the
+  // training covariance (divisor n - 1, as R's cov; from memory: the paper takes the ratio of
+  // distances, and the flag threshold 1 is the same for their squares). Hand-worked: the corners
+  // (0,0), (2,0), (0,2), (2,2) have mean (1,1) and covariance (4/3) I, so every corner has
+  // D^2 = 2 / (4/3) = 1.5; the point (1,3) has D^2 = 4 / (4/3) = 3, NT2 = sqrt(3 / 1.5) = sqrt(2).
+  Eigen::MatrixXd corners(4, 2);
+  corners << 0, 0, 2, 0, 0, 2, 2, 2;
+  const habcast::WhiteningFrame frame = habcast::whitening_frame(corners, 1e-9);
+  REQUIRE(frame.rank == 2);
+  double y[2];
+  const double corner[2] = {2, 0};
+  frame.whiten(corner, y);
+  CHECK_THAT(y[0] * y[0] + y[1] * y[1], WithinAbs(1.5, 1e-12));
+  const double point[2] = {1, 3};
+  frame.whiten(point, y);
+  CHECK_THAT(std::sqrt((y[0] * y[0] + y[1] * y[1]) / 1.5), WithinAbs(std::sqrt(2.0), 1e-12));
+}
+
+namespace {
+struct ReferenceRow {
+  double mess, nt1, nt2;
+  std::string limiting;
+};
+}  // namespace
+
+TEST_CASE("MESS, NT1, NT2 and the limiting covariate agree with an independent R computation", "[domain]") {
+  // tests/reference/mite_novelty.R: base R from the papers' formulas, on the mite training cores
+  // in the model's standardised space. novelty.csv has the model's covariate columns, so the
+  // training-table reader parses its query points.
+  const habcast::ModelSpec spec = habcast::read_model_file(habcast::test::source_path("tests/reference/mite/model.toml"));
+  const habcast::TermPlan plan(spec);
+  const habcast::TrainingSamples samples = habcast::read_training_samples(spec);
+  const habcast::TrainingDomain domain(spec, samples);
+  const habcast::NoveltyModel model(spec, plan, samples, habcast::NoveltyOptions{});
+
+  const std::string path = habcast::test::source_path("tests/reference/mite/novelty.csv");
+  const std::string text = habcast::test::read_text(path);
+  const habcast::TrainingSamples query = habcast::parse_training_samples(text, path, spec);
+  std::vector<ReferenceRow> expected;
+  std::istringstream lines(text);
+  std::string line;
+  bool header = true;
+  while (std::getline(lines, line)) {
+    if (line.empty() || line[0] == '#') continue;
+    if (header) {
+      header = false;
+      continue;
+    }
+    std::vector<std::string> f;
+    std::stringstream fields(line);
+    for (std::string cell; std::getline(fields, cell, ',');) f.push_back(cell);
+    REQUIRE(f.size() == 7);
+    expected.push_back({std::stod(f[3]), std::stod(f[5]), std::stod(f[6]), f[4]});
+  }
+  const auto n = query.raw.rows();
+  REQUIRE(static_cast<std::size_t>(n) == expected.size());
+  std::vector<std::uint8_t> valid(static_cast<std::size_t>(n), 1), flags(static_cast<std::size_t>(n), 0);
+  habcast::DomainTally tally(spec.covariates.size());
+  domain.flag(query.raw, n, valid.data(), flags.data(), tally);
+  habcast::NoveltyBlock out;
+  model.check(query.raw, n, valid.data(), flags.data(), out, tally);
+  for (std::size_t i = 0; i < expected.size(); ++i) {
+    INFO("query row " << i + 1);
+    // Outputs are Float32: compare to about 7 significant digits.
+    CHECK_THAT(out.mess[i], WithinAbs(expected[i].mess, 1e-5 * (1 + std::fabs(expected[i].mess))));
+    CHECK_THAT(out.nt1[i], WithinAbs(expected[i].nt1, 1e-7 * (1 + std::fabs(expected[i].nt1))));
+    CHECK_THAT(out.nt2[i], WithinAbs(expected[i].nt2, 1e-6));
+    CHECK(spec.covariates[out.limiting[i] - 1u].name == expected[i].limiting);
+  }
+}
