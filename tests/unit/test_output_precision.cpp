@@ -147,7 +147,7 @@ TEST_CASE("Outputs written with --max-error stay within that error of the exact 
   CHECK(std::filesystem::file_size(out + "/uncertainty.tif") < std::filesystem::file_size(lossless + "/uncertainty.tif"));
 }
 
-TEST_CASE("A maximum error outside (0, 1] is refused before anything is written", "[precision]") {
+TEST_CASE("A maximum error of 0 or less, or above 1, is refused before anything is written", "[precision]") {
   Scene scene;
   std::string out, err;
   CHECK(habcast::test::run_cli({"predict", scene.model, "-o", scene.dir.file("o"), "--max-error", "0"}, &out, &err) == 2);
