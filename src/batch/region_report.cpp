@@ -6,6 +6,7 @@
 #include <map>
 
 #include "core/extrapolation_flags.hpp"
+#include "core/utc_time.hpp"
 #include "pipeline/atomic_file.hpp"
 
 namespace habcast {
@@ -167,15 +168,6 @@ std::string csv_header(const ModelSpec& spec) {
   for (const Covariate& cov : spec.covariates)
     h += ",outside_" + cov.name + "_pixels,outside_" + cov.name + "_share,outside_" + cov.name + "_area_ha";
   return h + ",reason\n";
-}
-
-std::string utc_now() {
-  const std::time_t now = std::time(nullptr);
-  std::tm tm{};
-  gmtime_r(&now, &tm);
-  char buf[32];
-  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return buf;
 }
 
 bool is_done(const RegionTile& t) { return t.status == "done" || t.status == "up_to_date"; }

@@ -11,9 +11,11 @@
 #include "core/calibration.hpp"
 #include "core/discrimination.hpp"
 #include "core/error.hpp"
+#include "core/number_text.hpp"
 #include "pipeline/atomic_file.hpp"
 #include "pipeline/binary_map.hpp"
 #include "pipeline/evaluation_svg.hpp"
+#include "pipeline/output_guard.hpp"
 #include "pipeline/score_source.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/point_sampler.hpp"
@@ -42,25 +44,12 @@ class SplitMix64 {
   std::uint64_t state_;
 };
 
-std::string num(double v, int digits = 4) {
-  std::ostringstream os;
-  os.precision(digits);
-  os << v;
-  return os.str();
-}
-
 double json_number(double v) { return std::isfinite(v) ? v : std::numeric_limits<double>::quiet_NaN(); }
 
 nlohmann::ordered_json confusion_json(const Confusion& c) {
   return {{"threshold", c.threshold},       {"sensitivity", c.sensitivity()}, {"specificity", c.specificity()},
           {"tss", c.tss()},                 {"true_positive", c.true_positive}, {"false_negative", c.false_negative},
           {"true_negative", c.true_negative}, {"false_positive", c.false_positive}};
-}
-
-void refuse_to_clobber(const std::vector<std::string>& paths, bool overwrite) {
-  if (overwrite) return;
-  for (const std::string& p : paths)
-    if (!p.empty() && fs::exists(p)) throw UsageError(p + " already exists; pass --overwrite to replace it");
 }
 
 struct Observations {
@@ -91,7 +80,7 @@ Observations observe_points(const EvaluateOptions& o, ScoreSource& source, std::
       const double v = pts.values[0][i];
       if (std::isnan(v)) { ++obs.no_response; continue; }
       if (v != 0.0 && v != 1.0)
-        throw InputError(pts.where[i] + ": observed value " + num(v) + " in column \"" + o.response +
+        throw InputError(pts.where[i] + ": observed value " + significant(v, 4) + " in column \"" + o.response +
                          "\" is not 0 (absent) or 1 (present)");
       observed = static_cast<std::uint8_t>(v);
       if (o.presence_only && !observed) continue;  // presence-only: absences in the file are not used
@@ -223,16 +212,16 @@ EvaluateSummary run_evaluate(const EvaluateOptions& o, const std::string& tool_v
     t << "; not used: " << obs.outside << " outside the grid, " << obs.nodata << " on nodata, " << obs.no_response
       << " without an observation";
   t << ".\n\n";
-  t << "AUC " << num(d.auc) << " (SE " << num(d.auc_se, 2) << ", 95% interval " << num(d.auc_lower) << " to "
-    << num(d.auc_upper) << ")" << (o.presence_only ? ": presences against background, not absences" : "") << "\n";
-  t << "Best threshold by TSS: " << num(d.best.threshold) << " (TSS " << num(d.best.tss(), 3) << ", sensitivity "
-    << num(d.best.sensitivity(), 3) << ", specificity " << num(d.best.specificity(), 3) << ")\n";
+  t << "AUC " << significant(d.auc, 4) << " (SE " << significant(d.auc_se, 2) << ", 95% interval " << significant(d.auc_lower, 4) << " to "
+    << significant(d.auc_upper, 4) << ")" << (o.presence_only ? ": presences against background, not absences" : "") << "\n";
+  t << "Best threshold by TSS: " << significant(d.best.threshold, 4) << " (TSS " << significant(d.best.tss(), 3) << ", sensitivity "
+    << significant(d.best.sensitivity(), 3) << ", specificity " << significant(d.best.specificity(), 3) << ")\n";
   if (o.threshold) {
     const Confusion c = confusion_at(obs.scores, obs.observed, *o.threshold);
-    t << "At threshold " << num(*o.threshold) << ": sensitivity " << num(c.sensitivity(), 3) << ", specificity "
-      << num(c.specificity(), 3) << ", TSS " << num(c.tss(), 3) << "\n";
+    t << "At threshold " << significant(*o.threshold, 4) << ": sensitivity " << significant(c.sensitivity(), 3) << ", specificity "
+      << significant(c.specificity(), 3) << ", TSS " << significant(c.tss(), 3) << "\n";
   }
-  if (boyce) t << "Continuous Boyce index " << num(boyce->index, 3) << " (from -1 to 1; above 0 means presences favour high predictions)\n";
+  if (boyce) t << "Continuous Boyce index " << significant(boyce->index, 3) << " (from -1 to 1; above 0 means presences favour high predictions)\n";
   if (calibration) {
     t << "\nCalibration (" << o.bins << " bins):\n  bin            points  mean predicted  observed\n";
     for (const CalibrationBin& b : *calibration) {
@@ -253,14 +242,14 @@ EvaluateSummary run_evaluate(const EvaluateOptions& o, const std::string& tool_v
   }
   if (!o.binary_path.empty()) {
     const double threshold = o.threshold.value_or(d.best.threshold);
-    const std::string rule = o.threshold ? "fixed threshold " + num(threshold, 17) + " given with --threshold"
+    const std::string rule = o.threshold ? "fixed threshold " + significant(threshold, 17) + " given with --threshold"
                                          : "threshold maximising TSS (sensitivity + specificity - 1) at the " +
                                                std::to_string(d.presences + d.absences) + " evaluation points: " +
-                                               num(threshold, 17);
+                                               significant(threshold, 17);
     const BinaryMapCounts counts = write_binary_map(*source, o.binary_path, threshold, rule, tool_version);
     r["binary_map"] = {{"file", o.binary_path}, {"threshold", threshold}, {"rule", rule},
                        {"present_pixels", counts.present}, {"absent_pixels", counts.absent}, {"nodata_pixels", counts.nodata}};
-    t << "Wrote " << o.binary_path << " (1 where prediction >= " << num(threshold) << ")\n";
+    t << "Wrote " << o.binary_path << " (1 where prediction >= " << significant(threshold, 4) << ")\n";
   }
   r["warnings"] = summary.warnings;
   summary.text = t.str();

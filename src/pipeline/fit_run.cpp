@@ -14,8 +14,11 @@
 #include "core/formula.hpp"
 #include "core/model_file.hpp"
 #include "core/model_writer.hpp"
+#include "core/number_text.hpp"
 #include "core/samples_writer.hpp"
+#include "core/utc_time.hpp"
 #include "pipeline/atomic_file.hpp"
+#include "pipeline/output_guard.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/point_sampler.hpp"
 #include "raster/point_source.hpp"
@@ -29,13 +32,6 @@ namespace {
 namespace fs = std::filesystem;
 
 constexpr const char* kDefaultCrs = "EPSG:4326";
-
-std::string num(double v, int digits = 6) {
-  std::ostringstream os;
-  os.precision(digits);
-  os << v;
-  return os.str();
-}
 
 /// The offset option: "COLUMN" or "log(COLUMN)".
 struct OffsetSpec {
@@ -108,10 +104,10 @@ RasterGrid check_grids(const std::vector<SamplingInput>& inputs) {
     const auto& gt = grid.geotransform;
     const double gx0 = gt[0], gx1 = gt[0] + gt[1] * grid.width;
     const double gy0 = gt[3] + gt[5] * grid.height, gy1 = gt[3];
-    os << " Read as " << crs_name << ", the points fall in x " << num(xmin, 10) << " to " << num(xmax, 10) << ", y "
-       << num(ymin, 10) << " to " << num(ymax, 10) << " of the rasters' CRS (" << grid.crs_name << "), but the grid covers x "
-       << num(std::min(gx0, gx1), 10) << " to " << num(std::max(gx0, gx1), 10) << ", y " << num(std::min(gy0, gy1), 10)
-       << " to " << num(std::max(gy0, gy1), 10) << ". Check the points' CRS (--crs; the default is " << kDefaultCrs
+    os << " Read as " << crs_name << ", the points fall in x " << significant(xmin, 10) << " to " << significant(xmax, 10) << ", y "
+       << significant(ymin, 10) << " to " << significant(ymax, 10) << " of the rasters' CRS (" << grid.crs_name << "), but the grid covers x "
+       << significant(std::min(gx0, gx1), 10) << " to " << significant(std::max(gx0, gx1), 10) << ", y " << significant(std::min(gy0, gy1), 10)
+       << " to " << significant(std::max(gy0, gy1), 10) << ". Check the points' CRS (--crs; the default is " << kDefaultCrs
        << ", longitude in x and latitude in y), and that --x and --y name the right columns (not swapped).";
   }
   throw InputError(os.str());
@@ -130,7 +126,7 @@ Covariate categorical_covariate(const SamplingInput& in, const Eigen::ArrayXXd& 
     if (!use[static_cast<std::size_t>(i)]) continue;
     const double v = raw(i, column);
     if (v != std::floor(v))
-      throw InputError(in.path + ": categorical covariate \"" + in.name + "\" has the non-integer value " + num(v) +
+      throw InputError(in.path + ": categorical covariate \"" + in.name + "\" has the non-integer value " + significant(v, 6) +
                        " at a point; class codes must be whole numbers (is this raster really categorical?)");
     codes.insert(static_cast<std::int64_t>(v));
   }
@@ -209,21 +205,6 @@ void count_shared_pixels(const std::vector<std::int64_t>& pixel, const std::vect
   }
 }
 
-std::string utc_now() {
-  const std::time_t now = std::time(nullptr);
-  std::tm tm{};
-  gmtime_r(&now, &tm);
-  char buf[32];
-  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return buf;
-}
-
-void refuse_to_clobber(const std::vector<std::string>& paths, bool overwrite) {
-  if (overwrite) return;
-  for (const std::string& p : paths)
-    if (fs::exists(p)) throw UsageError(p + " already exists; pass --overwrite to replace it, or choose another -o");
-}
-
 }  // namespace
 
 FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
@@ -233,7 +214,7 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   FitSummary summary;
   summary.model_path = options.model_path;
   summary.samples_path = samples_path_for(options);
-  refuse_to_clobber({summary.model_path, summary.samples_path}, options.overwrite);
+  refuse_to_clobber({summary.model_path, summary.samples_path}, options.overwrite, ", or choose another -o");
 
   const std::vector<SamplingInput> inputs = select_inputs(options, summary.warnings);
   if (inputs.empty()) throw UsageError("--formula names no covariate; a model needs at least one");
@@ -301,7 +282,7 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
       const double v = points.values[col][i];
       off[r] = offset->log ? (v > 0.0 ? std::log(v) : std::numeric_limits<double>::quiet_NaN()) : v;
       if (offset->log && v <= 0.0)
-        throw InputError(points.where[i] + ": offset column \"" + offset->column + "\" is " + num(v) +
+        throw InputError(points.where[i] + ": offset column \"" + offset->column + "\" is " + significant(v, 6) +
                          "; log(" + offset->column + ") needs positive values");
     }
     if (std::isnan(y[r]) || std::isnan(w[r]) || std::isnan(off[r])) {
@@ -377,7 +358,7 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   spec.description = "Fitted by habcast fit " + tool_version + " on " + utc_now() + " from " + options.points.path + ": " +
                      options.formula + " (" + std::to_string(fit.iterations) + " IRLS iterations" +
                      (offset ? "; fitted with offset " + options.offset +
-                                   (options.prediction_offset ? ", predictions use offset " + num(*options.prediction_offset)
+                                   (options.prediction_offset ? ", predictions use offset " + significant(*options.prediction_offset, 6)
                                                               : ", predictions use offset 0")
                              : "") +
                      ")";
@@ -444,9 +425,9 @@ std::string format_fit_summary(const FitSummary& s) {
   const GlmFit& f = s.fit;
   os << "Model: " << to_string(s.spec.family) << " GLM, " << to_string(s.spec.link) << " link, " << s.spec.terms.size()
      << " terms; " << f.iterations << " IRLS iterations.\n";
-  os << "Deviance " << num(f.deviance, 8) << " on " << f.df_residual << " df (null " << num(f.null_deviance, 8) << " on "
-     << f.df_null << " df); AIC " << num(f.aic, 8);
-  if (f.dispersion_estimated) os << "; dispersion " << num(f.dispersion, 6);
+  os << "Deviance " << significant(f.deviance, 8) << " on " << f.df_residual << " df (null " << significant(f.null_deviance, 8) << " on "
+     << f.df_null << " df); AIC " << significant(f.aic, 8);
+  if (f.dispersion_estimated) os << "; dispersion " << significant(f.dispersion, 6);
   os << ".\n\n";
   os << format_coefficient_table(s.table, f.dispersion_estimated);
   bool standardised = false;

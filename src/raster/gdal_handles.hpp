@@ -1,6 +1,7 @@
 #pragma once
 // Internal to the raster layer: owners for GDAL handles and the shared way of opening an input.
 #include <gdal_priv.h>
+#include <ogr_spatialref.h>
 
 #include <memory>
 #include <string>
@@ -14,6 +15,16 @@ struct DatasetCloser {
 /// Owns an open dataset; closing ignores errors, which is right for inputs only. Outputs close
 /// explicitly and check the result (see OutputRaster::close).
 using DatasetPtr = std::unique_ptr<GDALDataset, DatasetCloser>;
+
+/// Owns a coordinate transformation made by OGRCreateCoordinateTransformation.
+struct TransformDeleter {
+  void operator()(OGRCoordinateTransformation* t) const noexcept { OGRCoordinateTransformation::DestroyCT(t); }
+};
+
+/// Frees text that GDAL/OGR allocated for the caller (exportToWkt and the like).
+struct CplFree {
+  void operator()(char* text) const noexcept { CPLFree(text); }
+};
 
 /// Opens `path` read-only as a raster. Throws InputError naming the file with GDAL's reason.
 DatasetPtr open_input_raster(const std::string& path, const std::vector<std::string>& open_options = {});

@@ -14,6 +14,7 @@
 #include <stdexcept>
 
 #include "core/error.hpp"
+#include "core/number_text.hpp"
 #include "raster/creation_options.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
@@ -52,24 +53,17 @@ void validate_with_driver(GDALDriver& driver, const CPLStringList& options, cons
                                "). Choose options from the GTiff creation options in GDAL's documentation."));
 }
 
-std::string number(double value) {
-  std::ostringstream text;
-  text.precision(15);
-  text << value;
-  return text.str();
-}
-
 void validate_nodata(const OutputSpec& spec) {
   const double nodata = spec.nodata;
   if (spec.type == OutputType::uint8 && !(nodata >= 0.0 && nodata <= 255.0 && std::floor(nodata) == nodata)) {
     throw UsageError(located(spec.final_path, 0,
-                             "the nodata value " + number(nodata) +
+                             "the nodata value " + significant(nodata, 15) +
                                  " cannot be stored in this 8-bit output. Choose a whole number "
                                  "from 0 to 255."));
   }
   if (spec.type == OutputType::float32 && !value_fits(GDT_Float32, nodata)) {
     throw UsageError(located(spec.final_path, 0,
-                             "the nodata value " + number(nodata) +
+                             "the nodata value " + significant(nodata, 15) +
                                  " cannot be stored in this 32-bit float output. Choose a value "
                                  "within +-3.4e38, or nan."));
   }

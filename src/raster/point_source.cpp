@@ -20,10 +20,6 @@ namespace habcast {
 
 namespace {
 
-struct CplFree {
-  void operator()(char* text) const noexcept { CPLFree(text); }
-};
-
 std::string lower_extension(const std::string& path) {
   std::string ext = std::filesystem::path(path).extension().string();
   std::transform(ext.begin(), ext.end(), ext.begin(), [](unsigned char c) { return static_cast<char>(std::tolower(c)); });

@@ -11,14 +11,6 @@
 
 namespace habcast {
 
-namespace {
-
-struct TransformDeleter {
-  void operator()(OGRCoordinateTransformation* t) const noexcept { OGRCoordinateTransformation::DestroyCT(t); }
-};
-
-}  // namespace
-
 struct PointTransformer::Impl {
   OGRSpatialReference source;
   OGRSpatialReference target;

@@ -9,15 +9,12 @@
 #include <sstream>
 
 #include "core/error.hpp"
+#include "core/number_text.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 
 namespace habcast {
 namespace {
-
-struct CplFree {
-  void operator()(char* text) const noexcept { CPLFree(text); }
-};
 
 void describe_crs(const OGRSpatialReference& srs, RasterGrid& grid) {
   // WKT2 keeps what WKT1 cannot express (datum ensembles, some projections), so the CRS survives
@@ -35,13 +32,6 @@ void describe_crs(const OGRSpatialReference& srs, RasterGrid& grid) {
   }
 }
 
-std::string number(double value) {
-  std::ostringstream text;
-  text.precision(15);
-  text << value;
-  return text.str();
-}
-
 std::string size_text(const RasterGrid& grid) {
   return std::to_string(grid.width) + " x " + std::to_string(grid.height) + " pixels";
 }
@@ -49,8 +39,8 @@ std::string size_text(const RasterGrid& grid) {
 std::string transform_text(const RasterGrid& grid) {
   const auto& gt = grid.geotransform;
   std::string text =
-      "origin (" + number(gt[0]) + ", " + number(gt[3]) + "), pixel size " + number(gt[1]) + " x " + number(gt[5]);
-  if (gt[2] != 0.0 || gt[4] != 0.0) text += ", rotation terms " + number(gt[2]) + " and " + number(gt[4]);
+      "origin (" + significant(gt[0], 15) + ", " + significant(gt[3], 15) + "), pixel size " + significant(gt[1], 15) + " x " + significant(gt[5], 15);
+  if (gt[2] != 0.0 || gt[4] != 0.0) text += ", rotation terms " + significant(gt[2], 15) + " and " + significant(gt[4], 15);
   return text;
 }
 
@@ -82,9 +72,9 @@ std::string resample_hint(const std::string& reference_path, const RasterGrid& r
   if (reference.has_geotransform && gt[2] == 0.0 && gt[4] == 0.0) {
     const double x_end = gt[0] + gt[1] * reference.width;
     const double y_end = gt[3] + gt[5] * reference.height;
-    hint += " -te " + number(std::min(gt[0], x_end)) + " " + number(std::min(gt[3], y_end)) + " " +
-            number(std::max(gt[0], x_end)) + " " + number(std::max(gt[3], y_end)) + " -tr " + number(std::abs(gt[1])) +
-            " " + number(std::abs(gt[5]));
+    hint += " -te " + significant(std::min(gt[0], x_end), 15) + " " + significant(std::min(gt[3], y_end), 15) + " " +
+            significant(std::max(gt[0], x_end), 15) + " " + significant(std::max(gt[3], y_end), 15) + " -tr " + significant(std::abs(gt[1]), 15) +
+            " " + significant(std::abs(gt[5]), 15);
   }
   if (!reference.crs_wkt.empty()) hint += " -t_srs " + crs_argument(reference_path, reference);
   return hint + ").";
@@ -130,7 +120,7 @@ void check_transform(const std::string& reference_path, const RasterGrid& refere
   const double misalignment = misalignment_in_pixels(reference, other);
   if (!(misalignment <= pixel_tolerance)) {  // written so that NaN fails too
     throw InputError(lead + transform_text(other) + " vs " + transform_text(reference) + "; the grids are up to " +
-                     number(misalignment) + " pixels apart (tolerance " + number(pixel_tolerance) + " pixels)." +
+                     significant(misalignment, 15) + " pixels apart (tolerance " + significant(pixel_tolerance, 15) + " pixels)." +
                      resample_hint(reference_path, reference));
   }
 }

@@ -13,6 +13,9 @@ struct Rgb {
   std::uint8_t r = 0, g = 0, b = 0;
 };
 
+/// Near-black for text, axes and outlines in every picture.
+inline constexpr Rgb kInk{20, 20, 20};
+
 /// Colour at position t in [0, 1] (clamped): L* = 28 + 64 t, hue 285 deg -> 95 deg, chroma
 /// reduced where needed to stay inside the sRGB gamut (IEC 61966-2-1), so L* stays exact up to
 /// 8-bit rounding.

@@ -8,16 +8,11 @@
 
 #include "core/link.hpp"
 #include "core/model_values.hpp"
+#include "core/number_text.hpp"
 
 namespace habcast {
 
 namespace {
-
-std::string number(double v) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%.4g", v);
-  return buf;
-}
 
 std::string axis_label(const Covariate& c) {
   std::string units = c.units;
@@ -99,7 +94,7 @@ std::vector<PlotTick> ticks(const Covariate& c, double lo, double hi) {
   std::vector<PlotTick> out;
   for (double raw : raw_ticks(c, raw_value(c, lo), raw_value(c, hi))) {
     const double m = model_value(c, raw);
-    if (std::isfinite(m)) out.push_back({m, number(raw)});
+    if (std::isfinite(m)) out.push_back({m, significant(raw, 4)});
   }
   return out;
 }
@@ -159,7 +154,7 @@ void stationary_and_axes(NichePlot& plot, const PairDescription& pair, double fr
     // simply cross the window.
     const double half = axis.half_width ? *axis.half_width : 0.4 * diagonal;
     std::string label = "axis " + std::to_string(k + 1);
-    if (axis.half_width) label += " (to " + number(100.0 * fraction) + " % of peak)";
+    if (axis.half_width) label += " (to " + significant(100.0 * fraction, 4) + " % of peak)";
     plot.principal_axes.push_back(through(s, axis.direction, half, label));
   }
 }
@@ -187,7 +182,7 @@ std::string held_summary(const ModelSpec& spec, const NicheDescription& d, int f
     if (static_cast<int>(c) == first || static_cast<int>(c) == second) continue;
     const Covariate& cov = spec.covariates[c];
     const double v = d.reference.values[static_cast<Eigen::Index>(c)];
-    std::string value = cov.categorical ? cov.levels[static_cast<std::size_t>(v)].name : number(raw_value(cov, v));
+    std::string value = cov.categorical ? cov.levels[static_cast<std::size_t>(v)].name : significant(raw_value(cov, v), 4);
     if (!cov.categorical && !cov.units.empty()) value += " " + cov.units;
     s += (s.empty() ? "" : ", ") + cov.name + " = " + value;
   }

@@ -6,32 +6,17 @@
 #include <cmath>
 #include <cstdio>
 
+#include "core/number_text.hpp"
 #include "render/canvas.hpp"
+#include "render/niche_plot_frame.hpp"
 #include "render/png_writer.hpp"
 
 namespace habcast {
 
 namespace {
 
-constexpr int kWidth = 760, kHeight = 560;
-constexpr int kLeft = 78, kTop = 62, kPlotW = 440, kPlotH = 420;
-constexpr int kLegendX = 542;
-const Rgb kInk{20, 20, 20};
+using namespace niche_page;
 const Rgb kWhite{255, 255, 255};
-
-std::string number(double v) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%.3g", v);
-  return buf;
-}
-
-struct Frame {
-  const NichePlot& p;
-  [[nodiscard]] double px(double x) const { return kLeft + (x - p.x0) / (p.x1 - p.x0) * kPlotW; }
-  [[nodiscard]] double py(double y) const { return kTop + (p.y1 - y) / (p.y1 - p.y0) * kPlotH; }
-  [[nodiscard]] double gx(double c) const { return kLeft + c / (p.grid - 1) * kPlotW; }
-  [[nodiscard]] double gy(double r) const { return kTop + r / (p.grid - 1) * kPlotH; }
-};
 
 std::vector<double> band_edges(const NichePlot& plot) {
   std::vector<double> edges;
@@ -70,7 +55,7 @@ void clipped_line(Canvas& canvas, Point2 a, Point2 b, Rgb c, int width, int dash
   }
 }
 
-void draw_lines(Canvas& canvas, const Frame& f) {
+void draw_lines(Canvas& canvas, const NichePlotFrame& f) {
   for (const ContourLevel& level : f.p.levels)
     for (const Polyline& line : level.lines) {
       std::vector<Point2> pts = line.points;
@@ -99,7 +84,7 @@ void draw_lines(Canvas& canvas, const Frame& f) {
   }
 }
 
-void draw_frame_and_labels(Canvas& canvas, const Frame& f) {
+void draw_frame_and_labels(Canvas& canvas, const NichePlotFrame& f) {
   canvas.rect_outline(kLeft - 1, kTop - 1, kPlotW + 2, kPlotH + 2, kInk);
   for (const PlotTick& t : f.p.x_ticks) {
     const double x = f.px(t.position);
@@ -126,7 +111,7 @@ void draw_legend(Canvas& canvas, const NichePlot& plot, const std::vector<double
   y += 16;
   // One swatch per band, highest first.
   for (std::size_t i = edges.size() + 1; i-- > 0;) {
-    const std::string label = i == edges.size() ? "> " + number(edges.back()) : (i == 0 ? "< " + number(edges.front()) : number(edges[i - 1]) + " - " + number(edges[i]));
+    const std::string label = i == edges.size() ? "> " + significant(edges.back(), 3) : (i == 0 ? "< " + significant(edges.front(), 3) : significant(edges[i - 1], 3) + " - " + significant(edges[i], 3));
     canvas.fill_rect(kLegendX, y, 22, 11, ramp_colour(edges.empty() ? 0.5 : static_cast<double>(i) / static_cast<double>(edges.size())));
     canvas.rect_outline(kLegendX, y, 22, 11, kInk);
     canvas.text(kLegendX + 30, y + 2, label, kInk);
@@ -135,7 +120,7 @@ void draw_legend(Canvas& canvas, const NichePlot& plot, const std::vector<double
   }
   y += 10;
   canvas.line(kLegendX, y + 4, kLegendX + 22, y + 4, kInk, 2);
-  canvas.text(kLegendX + 30, y + 1, number(plot.breadth_percent) + " % OF PEAK", kInk);
+  canvas.text(kLegendX + 30, y + 1, significant(plot.breadth_percent, 3) + " % OF PEAK", kInk);
   y += 16;
   if (!plot.training.empty()) {
     canvas.circle(kLegendX + 11, y + 4, 2.5, kInk, kWhite);
@@ -169,7 +154,7 @@ void draw_legend(Canvas& canvas, const NichePlot& plot, const std::vector<double
 
 void write_niche_plot_png(const NichePlot& plot, const std::string& path) {
   Canvas canvas(kWidth, kHeight);
-  const Frame f{plot};
+  const NichePlotFrame f{plot};
   const std::vector<double> edges = band_edges(plot);
   fill_field(canvas, plot, edges);
   draw_lines(canvas, f);

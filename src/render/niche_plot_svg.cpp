@@ -4,24 +4,18 @@
 #include <cmath>
 #include <cstdio>
 
+#include "core/number_text.hpp"
 #include "render/colour_ramp.hpp"
 #include "render/niche_plot.hpp"
+#include "render/niche_plot_frame.hpp"
 #include "render/svg_document.hpp"
 
 namespace habcast {
 
 namespace {
 
-constexpr double kWidth = 760, kHeight = 560;
-constexpr double kLeft = 78, kTop = 62, kPlotW = 440, kPlotH = 420;
-constexpr double kLegendX = 542;
+using namespace niche_page;
 constexpr const char* kFont = "DejaVu Sans, Verdana, Arial, sans-serif";
-
-std::string number(double v) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%.3g", v);
-  return buf;
-}
 
 /// Splits text at spaces into lines of at most `width` characters (longer words stay whole).
 std::vector<std::string> wrap(const std::string& text, std::size_t width) {
@@ -44,17 +38,6 @@ std::vector<std::string> wrap(const std::string& text, std::size_t width) {
   if (!line.empty()) lines.push_back(line);
   return lines;
 }
-
-struct Frame {
-  const NichePlot& p;
-  [[nodiscard]] double px(double x) const { return kLeft + (x - p.x0) / (p.x1 - p.x0) * kPlotW; }
-  [[nodiscard]] double py(double y) const { return kTop + (p.y1 - y) / (p.y1 - p.y0) * kPlotH; }
-  [[nodiscard]] Point2 model(Point2 q) const { return {px(q.x), py(q.y)}; }
-  [[nodiscard]] Point2 grid(Point2 q) const {
-    const double n = p.grid - 1;
-    return {kLeft + q.x / n * kPlotW, kTop + q.y / n * kPlotH};
-  }
-};
 
 Attributes text_style(double x, double y, double size, const std::string& anchor = "start") {
   return {{"x", svg_number(x)}, {"y", svg_number(y)}, {"font-family", kFont}, {"font-size", svg_number(size)},
@@ -82,17 +65,17 @@ Attributes contour_style(const ContourLevel& level) {
 
 const char* kConditionalDash[2] = {"2 3", "9 3 2 3"};
 
-void draw_contours(SvgDocument& svg, const Frame& f) {
+void draw_contours(SvgDocument& svg, const NichePlotFrame& f) {
   for (const ContourLevel& level : f.p.levels)
     for (const Polyline& line : level.lines) {
       std::vector<Point2> pts;
       for (const Point2& q : line.points) pts.push_back(f.grid(q));
       if (line.closed && !pts.empty()) pts.push_back(pts.front());
-      svg.element("polyline", with(contour_style(level), {{"points", svg_points(pts)}, {"data-level", number(level.value)}}));
+      svg.element("polyline", with(contour_style(level), {{"points", svg_points(pts)}, {"data-level", significant(level.value, 3)}}));
     }
 }
 
-void draw_contour_labels(SvgDocument& svg, const Frame& f) {
+void draw_contour_labels(SvgDocument& svg, const NichePlotFrame& f) {
   std::vector<Point2> placed;  // labels closer than this to an earlier one are left out
   for (const ContourLevel& level : f.p.levels) {
     if (level.breadth || level.lines.empty()) continue;
@@ -107,11 +90,11 @@ void draw_contour_labels(SvgDocument& svg, const Frame& f) {
     placed.push_back(q);
     svg.text("text", with(text_style(q.x, q.y + 3, 9, "middle"),
                           {{"class", "contour-label"}, {"stroke", "#ffffff"}, {"stroke-width", "3"}, {"paint-order", "stroke"}, {"fill", "#222222"}}),
-             number(level.value));
+             significant(level.value, 3));
   }
 }
 
-void draw_data(SvgDocument& svg, const Frame& f) {
+void draw_data(SvgDocument& svg, const NichePlotFrame& f) {
   if (f.p.hull.size() >= 3) {
     std::vector<Point2> pts;
     for (const Point2& q : f.p.hull) pts.push_back(f.model(q));
@@ -125,7 +108,7 @@ void draw_data(SvgDocument& svg, const Frame& f) {
   }
 }
 
-void draw_geometry(SvgDocument& svg, const Frame& f) {
+void draw_geometry(SvgDocument& svg, const NichePlotFrame& f) {
   for (std::size_t i = 0; i < f.p.conditional_optima.size(); ++i) {
     const PlotLine& l = f.p.conditional_optima[i];
     svg.element("line", with(line_attributes(f.model(l.from), f.model(l.to)),
@@ -145,7 +128,7 @@ void draw_geometry(SvgDocument& svg, const Frame& f) {
   }
 }
 
-void draw_axes(SvgDocument& svg, const Frame& f) {
+void draw_axes(SvgDocument& svg, const NichePlotFrame& f) {
   svg.element("rect", {{"class", "frame"}, {"x", svg_number(kLeft)}, {"y", svg_number(kTop)}, {"width", svg_number(kPlotW)},
                        {"height", svg_number(kPlotH)}, {"fill", "none"}, {"stroke", "#000000"}});
   for (const PlotTick& t : f.p.x_ticks) {
@@ -171,7 +154,7 @@ void legend_entry(SvgDocument& svg, double y, const std::string& label, const At
   svg.text("text", text_style(kLegendX + 32, y, 11), label);
 }
 
-void draw_legend(SvgDocument& svg, const Frame& f, double fraction_percent) {
+void draw_legend(SvgDocument& svg, const NichePlotFrame& f, double fraction_percent) {
   svg.begin("g", {{"class", "legend"}});
   double y = kTop + 4;
   for (const std::string& line : wrap(f.p.response_label, 30)) {
@@ -183,7 +166,7 @@ void draw_legend(SvgDocument& svg, const Frame& f, double fraction_percent) {
   for (const ContourLevel& l : f.p.levels) levels.push_back(&l);
   std::sort(levels.begin(), levels.end(), [](const ContourLevel* a, const ContourLevel* b) { return a->value > b->value; });
   for (const ContourLevel* l : levels) {
-    const std::string label = l->breadth ? number(l->value) + " (" + number(fraction_percent) + " % of peak)" : number(l->value);
+    const std::string label = l->breadth ? significant(l->value, 3) + " (" + significant(fraction_percent, 3) + " % of peak)" : significant(l->value, 3);
     legend_entry(svg, y, label, with(contour_style(*l), {}), "line");
     y += 17;
   }
@@ -216,7 +199,7 @@ void draw_legend(SvgDocument& svg, const Frame& f, double fraction_percent) {
 
 std::string niche_plot_svg(const NichePlot& plot) {
   SvgDocument svg(kWidth, kHeight);
-  const Frame f{plot};
+  const NichePlotFrame f{plot};
   svg.element("rect", {{"width", svg_number(kWidth)}, {"height", svg_number(kHeight)}, {"fill", "#ffffff"}});
   svg.text("title", {}, plot.title);
   svg.text("text", with(text_style(kLeft, 26, 15), {{"class", "title"}, {"font-weight", "bold"}}), plot.title);

@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "core/error.hpp"
+#include "core/number_text.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/raster_grid.hpp"
@@ -21,14 +22,7 @@ namespace habcast {
 namespace {
 
 constexpr int kMargin = 16, kTitle = 40, kLegend = 220, kFooter = 60, kMinMapHeight = 240;
-const Rgb kInk{20, 20, 20};
 const Rgb kNoData{228, 228, 228};
-
-std::string number(double v) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%.3g", v);
-  return buf;
-}
 
 /// One band read at the picture's size: GDAL picks the source pixels (nearest neighbour, from an
 /// overview when the file has one), so only map_width x map_height values are ever held.
@@ -94,9 +88,9 @@ void draw_legend(Canvas& canvas, const Field& f, int x0, int y0, bool has_flags)
   const int bar_top = y0 + 16, bar_h = 120;
   for (int y = 0; y < bar_h; ++y) canvas.line(x0, bar_top + y, x0 + 18, bar_top + y, ramp_colour(1.0 - static_cast<double>(y) / (bar_h - 1)));
   canvas.rect_outline(x0, bar_top, 19, bar_h, kInk);
-  canvas.text(x0 + 26, bar_top, number(f.hi), kInk);
-  canvas.text(x0 + 26, bar_top + bar_h / 2 - 3, number((f.lo + f.hi) / 2), kInk);
-  canvas.text(x0 + 26, bar_top + bar_h - 7, number(f.lo), kInk);
+  canvas.text(x0 + 26, bar_top, significant(f.hi, 3), kInk);
+  canvas.text(x0 + 26, bar_top + bar_h / 2 - 3, significant((f.lo + f.hi) / 2, 3), kInk);
+  canvas.text(x0 + 26, bar_top + bar_h - 7, significant(f.lo, 3), kInk);
   int y = bar_top + bar_h + 14;
   if (has_flags) {
     for (int yy = 0; yy < 12; ++yy)
@@ -125,10 +119,10 @@ void draw_scale(Canvas& canvas, const RasterGrid& grid, int raster_w, int map_w,
     canvas.fill_rect(x0, y0, bar, 4, kInk);
     canvas.line(x0, y0 - 3, x0, y0 + 6, kInk);
     canvas.line(x0 + bar, y0 - 3, x0 + bar, y0 + 6, kInk);
-    canvas.text(x0 + bar + 8, y0 - 1, length >= 1000 ? number(length / 1000) + " KM" : number(length) + " M", kInk);
-    note = "1 PIXEL HERE = " + number(metres_per_pixel) + " M ON THE GROUND (" + grid.crs_name + ")";
+    canvas.text(x0 + bar + 8, y0 - 1, length >= 1000 ? significant(length / 1000, 3) + " KM" : significant(length, 3) + " M", kInk);
+    note = "1 PIXEL HERE = " + significant(metres_per_pixel, 3) + " M ON THE GROUND (" + grid.crs_name + ")";
   } else if (grid.has_geotransform) {
-    note = "1 PIXEL HERE = " + number(map_pixel) + " CRS UNITS (NOT A PROJECTED CRS: NO SCALE BAR)";
+    note = "1 PIXEL HERE = " + significant(map_pixel, 3) + " CRS UNITS (NOT A PROJECTED CRS: NO SCALE BAR)";
   } else {
     note = "NO GEOREFERENCING: NO SCALE";
   }
