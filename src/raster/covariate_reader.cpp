@@ -10,12 +10,19 @@
 #include "raster/gdal_session.hpp"
 
 namespace habcast {
-namespace {
 
+// Named, not anonymous: CovariateReader::Impl holds one, and a member whose type has internal
+// linkage is a hazard GCC warns about (-Wsubobject-linkage) when sources are built together.
+namespace covariate_detail {
 struct Nodata {
   bool exact = false;  ///< compare pixels with `value`; NaN nodata needs no test (see read())
   double value = 0.0;
 };
+}  // namespace covariate_detail
+
+namespace {
+
+using covariate_detail::Nodata;
 
 /// The band's nodata value as it would be stored in the band's own data type, so that the
 /// comparison with pixels (read as double, which holds every value of types up to 32 bits
@@ -63,7 +70,7 @@ struct CovariateReader::Impl {
   int band_number = 1;
   DatasetPtr dataset;
   GDALRasterBand* band = nullptr;
-  Nodata nodata;
+  covariate_detail::Nodata nodata;
   bool scaled = false;
   double scale = 1.0;
   double offset = 0.0;

@@ -14,10 +14,10 @@ namespace {
 
 // A 10 x 10 UTM grid whose pixel (row r, column c) holds (r * 10 + c) / 100 as the "prediction";
 // pixel (9, 9) is nodata.
-struct Scene {
+struct EvaluateScene {
   test::TempDir dir{"evaluate"};
   std::string prediction = dir.file("suitability.tif");
-  Scene() {
+  EvaluateScene() {
     test::GridSpec g;
     g.width = 10;
     g.height = 10;
@@ -41,10 +41,10 @@ struct Scene {
 TEST_CASE("evaluate reproduces the hand-worked AUC and TSS from a prediction raster", "[evaluate]") {
   // The example of test_evaluate_metrics.cpp on pixels: presences 0.9, 0.8, 0.5, 0.4; absences
   // 0.7, 0.5, 0.3, 0.2, 0.1. By hand: AUC 16.5 / 20 = 0.825; best TSS 0.6 at threshold 0.4.
-  Scene s;
+  EvaluateScene s;
   const std::string csv = s.dir.file("points.csv");
-  test::write_text(csv, "x,y,seen\n" + Scene::at(0.9, 1) + Scene::at(0.8, 1) + Scene::at(0.5, 1) + Scene::at(0.4, 1) +
-                            Scene::at(0.7, 0) + Scene::at(0.5, 0) + Scene::at(0.3, 0) + Scene::at(0.2, 0) + Scene::at(0.1, 0) +
+  test::write_text(csv, "x,y,seen\n" + EvaluateScene::at(0.9, 1) + EvaluateScene::at(0.8, 1) + EvaluateScene::at(0.5, 1) + EvaluateScene::at(0.4, 1) +
+                            EvaluateScene::at(0.7, 0) + EvaluateScene::at(0.5, 0) + EvaluateScene::at(0.3, 0) + EvaluateScene::at(0.2, 0) + EvaluateScene::at(0.1, 0) +
                             "390000,5106000,1\n");
   std::string out, err;
   REQUIRE(test::run_cli({"evaluate", csv, "--prediction", s.prediction, "--crs", "EPSG:32630", "--response", "seen",
@@ -67,9 +67,9 @@ TEST_CASE("evaluate reproduces the hand-worked AUC and TSS from a prediction ras
 }
 
 TEST_CASE("evaluate's binary map thresholds every pixel and records the rule in its metadata", "[evaluate]") {
-  Scene s;
+  EvaluateScene s;
   const std::string csv = s.dir.file("points.csv");
-  test::write_text(csv, "x,y,seen\n" + Scene::at(0.9, 1) + Scene::at(0.8, 1) + Scene::at(0.1, 0) + Scene::at(0.2, 0));
+  test::write_text(csv, "x,y,seen\n" + EvaluateScene::at(0.9, 1) + EvaluateScene::at(0.8, 1) + EvaluateScene::at(0.1, 0) + EvaluateScene::at(0.2, 0));
   const std::string binary = s.dir.file("range.tif");
   const std::string svg = s.dir.file("eval.svg");
   std::string out, err;
@@ -98,9 +98,9 @@ TEST_CASE("evaluate's binary map thresholds every pixel and records the rule in 
 }
 
 TEST_CASE("Presence-only evaluation draws the same background for the same seed", "[evaluate]") {
-  Scene s;
+  EvaluateScene s;
   const std::string csv = s.dir.file("presences.csv");
-  test::write_text(csv, "x,y,seen\n" + Scene::at(0.95, 1) + Scene::at(0.85, 1) + Scene::at(0.9, 1) + Scene::at(0.6, 1));
+  test::write_text(csv, "x,y,seen\n" + EvaluateScene::at(0.95, 1) + EvaluateScene::at(0.85, 1) + EvaluateScene::at(0.9, 1) + EvaluateScene::at(0.6, 1));
   auto run = [&](const std::string& seed) {
     std::string out, err;
     REQUIRE(test::run_cli({"evaluate", csv, "--prediction", s.prediction, "--crs", "EPSG:32630", "--presence-only",
@@ -122,7 +122,7 @@ TEST_CASE("Presence-only evaluation draws the same background for the same seed"
 }
 
 TEST_CASE("evaluate explains missing inputs and points that all miss the grid", "[evaluate]") {
-  Scene s;
+  EvaluateScene s;
   const std::string csv = s.dir.file("points.csv");
   test::write_text(csv, "x,y,seen\n-4.5,46.1,1\n-4.49,46.1,0\n");
   std::string out, err;
@@ -130,10 +130,10 @@ TEST_CASE("evaluate explains missing inputs and points that all miss the grid", 
   CHECK(err.find("none of the 2 points has a prediction") != std::string::npos);
   CHECK(test::run_cli({"evaluate", csv, "--prediction", s.prediction}, &out, &err) == 2);
   CHECK(err.find("--presence-only") != std::string::npos);
-  test::write_text(csv, "x,y,seen\n" + Scene::at(0.9, 1) + Scene::at(0.8, 1));
+  test::write_text(csv, "x,y,seen\n" + EvaluateScene::at(0.9, 1) + EvaluateScene::at(0.8, 1));
   CHECK(test::run_cli({"evaluate", csv, "--prediction", s.prediction, "--response", "seen", "--crs", "EPSG:32630"}, &out, &err) == 3);
   CHECK(err.find("2 presences and 0 absences") != std::string::npos);
-  test::write_text(csv, "x,y,seen\n" + Scene::at(0.9, 2));
+  test::write_text(csv, "x,y,seen\n" + EvaluateScene::at(0.9, 2));
   CHECK(test::run_cli({"evaluate", csv, "--prediction", s.prediction, "--response", "seen", "--crs", "EPSG:32630"}, &out, &err) == 3);
   CHECK(err.find("points.csv:2: observed value 2") != std::string::npos);
 }

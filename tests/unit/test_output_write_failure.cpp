@@ -22,7 +22,7 @@ extern char** environ;
 namespace {
 
 constexpr const char* folder_variable = "HABCAST_TEST_WRITE_FAILURE_FOLDER";
-constexpr rlim_t file_size_limit = 64 * 1024;
+constexpr rlim_t kFileSizeLimit = 64 * 1024;
 
 }  // namespace
 
@@ -63,7 +63,7 @@ TEST_CASE("A write error that surfaces when the output is closed is an I/O error
 
   const pid_t child = fork();
   if (child == 0) {
-    const rlimit limit{file_size_limit, file_size_limit};
+    const rlimit limit{kFileSizeLimit, kFileSizeLimit};
     setrlimit(RLIMIT_FSIZE, &limit);
     signal(SIGXFSZ, SIG_IGN);  // write() then fails with EFBIG, as it would with ENOSPC
     execve(program.c_str(), argv.data(), envp.data());

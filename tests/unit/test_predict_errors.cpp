@@ -26,12 +26,12 @@ const char* kModel =
     "[coefficients]\nterms = [\"(Intercept)\", \"elev\", \"elev^2\", \"cover[forest]\"]\n"
     "estimates = [1.0, 0.2, -0.3, 0.5]\n";
 
-struct Scene {
+struct ErrorScene {
   TempDir dir{"errors"};
   std::string model = dir.file("model.toml");
   std::string out = dir.file("out");
   GridSpec grid{40, 30};
-  Scene() {
+  ErrorScene() {
     habcast::test::write_raster(dir.file("elev.tif"), grid, "Float32", [](int r, int c) { return 300.0 + r * 10 + c; });
     // Code 3 (column 39) is not a level of the model.
     habcast::test::write_raster(dir.file("cover.tif"), grid, "Byte", [](int, int c) { return c < 20 ? 1.0 : (c == 39 ? 3.0 : 2.0); },
@@ -50,7 +50,7 @@ struct Scene {
 }  // namespace
 
 TEST_CASE("a valid poisson model with unknown category codes predicts and flags", "[predict][errors]") {
-  Scene s;
+  ErrorScene s;
   std::string err;
   REQUIRE(s.run({}, &err) == 0);
   // No covariance in the model: no uncertainty raster, and the tool says so.
@@ -69,7 +69,7 @@ TEST_CASE("a valid poisson model with unknown category codes predicts and flags"
 }
 
 TEST_CASE("inputs that do not line up are refused before any output exists", "[predict][errors]") {
-  Scene s;
+  ErrorScene s;
   std::string err;
   SECTION("different size") {
     GridSpec g = s.grid;
@@ -143,7 +143,7 @@ TEST_CASE("inputs that do not line up are refused before any output exists", "[p
 }
 
 TEST_CASE("existing outputs are kept unless --overwrite is given", "[predict][errors]") {
-  Scene s;
+  ErrorScene s;
   REQUIRE(s.run({}) == 0);
   const std::string before = habcast::test::read_text(s.out + "/suitability.tif");
   std::string err;
@@ -158,7 +158,7 @@ TEST_CASE("existing outputs are kept unless --overwrite is given", "[predict][er
 }
 
 TEST_CASE("a maximum extrapolated share (--max-extrapolated) turns too much extrapolation into exit code 5", "[predict][errors]") {
-  Scene s;
+  ErrorScene s;
   std::string err;
   // elev 300..629 vs training 320..600: some columns/rows are outside.
   CHECK(s.run({"--max-extrapolated", "1"}, &err) == 5);
@@ -179,7 +179,7 @@ class InterruptingProgress final : public habcast::Progress {
 }  // namespace
 
 TEST_CASE("an interrupted run leaves no output and no temporary file", "[predict][errors]") {
-  Scene s;
+  ErrorScene s;
   habcast::PredictOptions options;
   options.model_path = s.model;
   options.output_dir = s.out;

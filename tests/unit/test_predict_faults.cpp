@@ -102,11 +102,11 @@ class Child {
 /// A model with covariance and training samples (all three rasters are written) over a
 /// size x size raster in 16 x 16 tiles: with --block-size 16 and one thread a 2000 x 2000 run
 /// takes 15,625 windows, long enough to be interrupted after it has started writing.
-struct Scene {
+struct FaultScene {
   TempDir dir{"faults"};
   std::string model = dir.file("m.toml");
 
-  explicit Scene(int size = 2000) {
+  explicit FaultScene(int size = 2000) {
     GridSpec grid{size, size};
     habcast::test::write_raster(dir.file("x.tif"), grid, "Float32",
                                 [](int r, int c) { return std::fmod(r * 0.013 + c * 0.007, 9.0); });
@@ -138,7 +138,7 @@ bool is_partial(const std::string& name) {
 }  // namespace
 
 TEST_CASE("a disk that fills during predict gives exit code 4 and keeps the earlier outputs", "[faults]") {
-  Scene s(300);
+  FaultScene s(300);
   const std::string out = s.dir.file("out");
   REQUIRE(habcast::test::run_cli({"predict", s.model, "-o", out, "-q"}) == 0);
   const auto before = contents(out);
@@ -153,7 +153,7 @@ TEST_CASE("a disk that fills during predict gives exit code 4 and keeps the earl
 }
 
 TEST_CASE("SIGINT and SIGTERM during predict exit with 130 and 143 and leave no file behind", "[faults]") {
-  Scene s;
+  FaultScene s;
   for (const int signal_number : {SIGINT, SIGTERM}) {
     const std::string out = s.dir.file("out-" + std::to_string(signal_number));
     Child child(s.slow_args(out));
@@ -167,7 +167,7 @@ TEST_CASE("SIGINT and SIGTERM during predict exit with 130 and 143 and leave no 
 }
 
 TEST_CASE("after SIGKILL only hidden partial files remain, and a re-run removes them and matches", "[faults]") {
-  Scene s(1000);  // 3,907 windows: still long enough to kill, and two full runs stay quick
+  FaultScene s(1000);  // 3,907 windows: still long enough to kill, and two full runs stay quick
   const std::string out = s.dir.file("out");
   {
     Child child(s.slow_args(out));
