@@ -56,6 +56,32 @@ double link_inverse_derivative(Link link, double eta) {
   return 1.0;
 }
 
+void link_inverse_with_derivative(Link link, const double* eta, double* mu, double* derivative, long n) {
+  if (link == Link::logit) {
+    // The same operations as logistic() and logistic_derivative(): t = exp(-|eta|) is what each
+    // of them computes, so the results are identical to calling them one by one.
+    for (long i = 0; i < n; ++i) {
+      const double t = std::exp(-std::fabs(eta[i]));
+      const double d = 1.0 + t;
+      mu[i] = eta[i] >= 0.0 ? 1.0 / d : t / d;
+      derivative[i] = t / (d * d);
+    }
+    return;
+  }
+  for (long i = 0; i < n; ++i) {
+    mu[i] = link_inverse(link, eta[i]);
+    derivative[i] = link_inverse_derivative(link, eta[i]);
+  }
+}
+
+void link_inverse_all(Link link, const double* eta, double* mu, long n) {
+  if (link == Link::logit) {
+    for (long i = 0; i < n; ++i) mu[i] = logistic(eta[i]);
+    return;
+  }
+  for (long i = 0; i < n; ++i) mu[i] = link_inverse(link, eta[i]);
+}
+
 double link_function(Link link, double mu) {
   switch (link) {
     case Link::logit: return std::log(mu) - std::log1p(-mu);

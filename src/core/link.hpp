@@ -14,6 +14,14 @@ double link_inverse(Link link, double eta);
 /// log link beyond overflow (+inf).
 double link_inverse_derivative(Link link, double eta);
 
+/// Both at once over n values: mu[i] = link_inverse(eta[i]) and derivative[i] =
+/// link_inverse_derivative(eta[i]), bit for bit, with the link chosen once and, for the logit,
+/// one exp() per value instead of two.
+void link_inverse_with_derivative(Link link, const double* eta, double* mu, double* derivative, long n);
+
+/// mu[i] = link_inverse(eta[i]) over n values, the link chosen once.
+void link_inverse_all(Link link, const double* eta, double* mu, long n);
+
 /// g(mu): the link itself, for fitting and for tests. mu must lie in the link's domain.
 double link_function(Link link, double mu);
 

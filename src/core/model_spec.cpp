@@ -11,13 +11,6 @@ int Covariate::level_index(std::int64_t code) const {
   return -1;
 }
 
-std::optional<std::int64_t> level_code(double value) {
-  // 2^63 is exact in double; converting anything at or beyond it (or NaN) would be undefined.
-  constexpr double limit = 9223372036854775808.0;
-  if (!(value >= -limit && value < limit) || value != std::floor(value)) return std::nullopt;
-  return static_cast<std::int64_t>(value);
-}
-
 int ModelSpec::covariate_index(const std::string& covariate_name) const {
   for (std::size_t i = 0; i < covariates.size(); ++i)
     if (covariates[i].name == covariate_name) return static_cast<int>(i);

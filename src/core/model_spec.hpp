@@ -44,7 +44,17 @@ struct Covariate {
 
 /// The level code a raster or table value stands for: the value itself when it is a whole number
 /// that a 64-bit integer can hold, else nothing (2.5, 1e30, NaN and infinities are codes of no level).
-std::optional<std::int64_t> level_code(double value);
+/// Inline: it runs for every pixel of every categorical covariate.
+inline std::optional<std::int64_t> level_code(double value) {
+  // 2^63 is exact in double; converting anything at or beyond it (or NaN) would be undefined.
+  // Inside that range truncation is defined, and a value is whole exactly when truncating it
+  // changes nothing.
+  constexpr double limit = 9223372036854775808.0;
+  if (!(value >= -limit && value < limit)) return std::nullopt;
+  const auto whole = static_cast<std::int64_t>(value);
+  if (static_cast<double>(whole) != value) return std::nullopt;
+  return whole;
+}
 
 struct ModelSpec {
   std::string path;  ///< the model file, as given

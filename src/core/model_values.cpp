@@ -37,14 +37,22 @@ void to_model_values(const ModelSpec& spec, const TermPlan& plan, const Eigen::A
     double* dst = out.col(c).data();
     const bool used = plan.uses_covariate(static_cast<int>(c));
     if (cov.categorical) {
+      // Class rasters come in runs of one class, so the last code's level is remembered (NaN,
+      // the start value, equals nothing, and nodata pixels never get here).
+      double last_code = std::numeric_limits<double>::quiet_NaN();
+      int last_level = -1;
       for (Eigen::Index i = 0; i < rows; ++i) {
         if (!predict_valid[i]) {
           dst[i] = 0.0;
           continue;
         }
         const double code = in[i];
-        const std::optional<std::int64_t> whole = level_code(code);
-        const int level = whole ? cov.level_index(*whole) : -1;
+        if (code != last_code) {
+          const std::optional<std::int64_t> whole = level_code(code);
+          last_level = whole ? cov.level_index(*whole) : -1;
+          last_code = code;
+        }
+        const int level = last_level;
         dst[i] = static_cast<double>(level);
         if (level < 0 && used) {
           predict_valid[i] = 0;

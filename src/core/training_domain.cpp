@@ -64,11 +64,19 @@ void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const s
     const double* v = raw.col(static_cast<Eigen::Index>(c)).data();
     if (spec_.covariates[c].categorical) {
       const std::vector<std::int64_t>& seen = seen_[c];
+      // Class rasters come in runs of one class: the last code's verdict is remembered (NaN, the
+      // start value, equals nothing).
+      double last_code = std::numeric_limits<double>::quiet_NaN();
+      bool last_unseen = false;
       for (Eigen::Index r = 0; r < rows; ++r) {
         if (!valid[r]) continue;
         const double code = v[r];
-        const std::optional<std::int64_t> whole = level_code(code);
-        if (!whole || !std::binary_search(seen.begin(), seen.end(), *whole)) {
+        if (code != last_code) {
+          const std::optional<std::int64_t> whole = level_code(code);
+          last_unseen = !whole || !std::binary_search(seen.begin(), seen.end(), *whole);
+          last_code = code;
+        }
+        if (last_unseen) {
           flags[r] |= flag::unseen_level;
           ++tally.unseen[c];
           // Values beyond any code (a float raster holding 1e30) are counted at the nearer end.

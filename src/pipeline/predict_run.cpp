@@ -13,14 +13,17 @@
 #include "core/evaluator.hpp"
 #include "core/extrapolation_flags.hpp"
 #include "core/model_file.hpp"
-#include "core/output_precision.hpp"
 #include "core/novelty_model.hpp"
+#include "core/output_precision.hpp"
 #include "core/term_plan.hpp"
 #include "core/training_domain.hpp"
 #include "core/training_samples.hpp"
+#include "core/utc_time.hpp"
 #include "pipeline/atomic_file.hpp"
 #include "pipeline/ordered_parallel.hpp"
+#include "pipeline/output_guard.hpp"
 #include "pipeline/prediction_report.hpp"
+#include "pipeline/recycling_pool.hpp"
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "raster/covariate_reader.hpp"
@@ -39,15 +42,6 @@ namespace fs = std::filesystem;
 constexpr const char* kCaution =
     "Model output, not ground truth. Check extrapolation.tif and uncertainty.tif, verify in the field, and follow "
     "local regulations and licensed practice before acting on this map.";
-
-std::string utc_now() {
-  const std::time_t now = std::time(nullptr);
-  std::tm tm{};
-  gmtime_r(&now, &tm);
-  char buf[32];
-  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return buf;
-}
 
 std::string covariate_list(const ModelSpec& spec) {
   std::string s;
@@ -171,14 +165,6 @@ struct Outputs {
   }
 };
 
-void refuse_to_clobber(const std::vector<std::string>& paths, bool overwrite) {
-  if (overwrite) return;
-  for (const std::string& p : paths)
-    if (fs::exists(p))
-      throw UsageError(p + " already exists; pass --overwrite to replace it (the old file is kept until the new "
-                           "one is complete), or choose another output folder with -o");
-}
-
 /// With --max-error the Float32 outputs hold values on a grid of step q, which LERC stores
 /// exactly when its own error allowance is q / 2 (its quantisation grid is then ours); the user's
 /// --co still override these.
@@ -262,7 +248,8 @@ Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, con
   if (with_flags) finals.push_back(extrapolation_path);
   if (with_novelty) finals.push_back(novelty_path);
   if (with_limiting) finals.push_back(limiting_path);
-  refuse_to_clobber(finals, options.overwrite);
+  refuse_to_clobber(finals, options.overwrite,
+                    " (the old file is kept until the new one is complete), or choose another output folder with -o");
   std::vector<std::string> names;
   for (const std::string& f : finals) names.push_back(fs::path(f).filename().string());
   remove_stale_partials(dir.string(), names);
@@ -380,7 +367,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     domain.emplace(spec, *samples);
     if (options.novelty.any()) novelty.emplace(spec, plan, *samples, options.novelty);
   }
-  if (!options.quicklook_path.empty()) refuse_to_clobber({options.quicklook_path}, options.overwrite);
+  if (!options.quicklook_path.empty()) refuse_to_clobber({options.quicklook_path}, options.overwrite, ", or choose another --quicklook path");
   if (options.max_extrapolated_percent && !domain)
     throw InputError(located(spec.path, 0, "--max-extrapolated needs training samples: add [training] samples = \"FILE.csv\""));
 
@@ -407,6 +394,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   set_gdal_cache(options.gdal_cache_bytes > 0 ? options.gdal_cache_bytes
                                               : cache_for_windows(windows, k + 5, static_cast<std::size_t>(threads)));
   PredictionTally total(k);
+  RecyclingPool<BlockOutputs> buffers;
   progress.start("predict", static_cast<std::int64_t>(windows.size()));
 
   run_ordered<BlockResult>(
@@ -419,12 +407,13 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
         worker.valid.assign(static_cast<std::size_t>(n), 1);
         for (std::size_t c = 0; c < k; ++c)
           worker.readers[c].read(w, worker.raw.col(static_cast<Eigen::Index>(c)).data(), worker.valid.data());
-        BlockResult result{{}, PredictionTally(k)};
+        BlockResult result{buffers.take(), PredictionTally(k)};
         worker.predictor.run(worker.raw, worker.valid, n, result.outputs, result.tally);
         return result;
       },
       [&](std::size_t item, BlockResult& result) {
         write_block(out, windows[item], result.outputs);
+        buffers.give(std::move(result.outputs));
         total.merge(result.tally);
         progress.advance(static_cast<std::int64_t>(item + 1));
       },
