@@ -10,6 +10,7 @@
 #include <toml++/toml.h>
 
 #include "core/error.hpp"
+#include "core/toml_table_reader.hpp"
 
 namespace habcast {
 
@@ -18,62 +19,6 @@ namespace {
 namespace fs = std::filesystem;
 
 constexpr int kFormatVersion = 1;
-
-long line_of(const toml::node& node) { return static_cast<long>(node.source().begin.line); }
-
-/// One table of the manifest; keys are taken one by one and whatever is left is a typo to report.
-class Table {
- public:
-  Table(const toml::table& table, std::string name, const std::string& file)
-      : table_(table), name_(std::move(name)), file_(file) {}
-
-  [[noreturn]] void fail(const toml::node& node, const std::string& why) const {
-    throw InputError(located(file_, line_of(node), why));
-  }
-
-  const toml::node* get(const std::string& key) {
-    seen_.insert(key);
-    return table_.get(key);
-  }
-
-  std::optional<std::string> string(const std::string& key) {
-    const toml::node* n = get(key);
-    if (!n) return std::nullopt;
-    if (!n->is_string()) fail(*n, name_ + key + " must be a quoted string");
-    return n->value<std::string>();
-  }
-
-  std::optional<double> number(const std::string& key) {
-    const toml::node* n = get(key);
-    if (!n) return std::nullopt;
-    if (!n->is_number() || !std::isfinite(*n->value<double>())) fail(*n, name_ + key + " must be a finite number");
-    return n->value<double>();
-  }
-
-  std::optional<bool> boolean(const std::string& key) {
-    const toml::node* n = get(key);
-    if (!n) return std::nullopt;
-    if (!n->is_boolean()) fail(*n, name_ + key + " must be true or false");
-    return n->value<bool>();
-  }
-
-  void reject_unknown(const std::string& allowed) const {
-    for (auto&& [key, value] : table_) {
-      (void)value;
-      if (!seen_.count(std::string(key.str())))
-        throw InputError(located(file_, static_cast<long>(key.source().begin.line),
-                                 "unknown key \"" + std::string(key.str()) + "\"" +
-                                     (name_.empty() ? " at the top level" : " in [" + name_.substr(0, name_.size() - 1) + "]") +
-                                     "; allowed keys are " + allowed));
-    }
-  }
-
- private:
-  const toml::table& table_;
-  std::string name_;  ///< "predict." etc., prefixed to key names in messages
-  const std::string& file_;
-  std::set<std::string> seen_;
-};
 
 /// Absolute, normalised: records compare paths as text, so the same file must always be spelled
 /// the same way, whatever the current folder of the process that reads the manifest.
@@ -90,7 +35,7 @@ bool valid_tile_id(const std::string& id) {
   return true;
 }
 
-void read_top(Table& top, BatchManifest& m) {
+void read_top(TomlTableReader& top, BatchManifest& m) {
   const toml::node* v = top.get("habcast_batch");
   if (!v)
     throw InputError(located(m.path, 1, "not a habcast batch manifest: the key habcast_batch = " +
@@ -101,7 +46,7 @@ void read_top(Table& top, BatchManifest& m) {
   if (!model) throw InputError(located(m.path, 1, "missing model = \"MODEL.toml\" (the model file every tile uses)"));
   if (!model->is_string()) top.fail(*model, "model must be a quoted path to a model file");
   m.model_path = resolve(m.path, *model->value<std::string>());
-  m.model_line = line_of(*model);
+  m.model_line = toml_line(*model);
   const toml::node* output = top.get("output");
   if (!output) throw InputError(located(m.path, 1, "missing output = \"FOLDER\" (where the tiles, mosaic and report go)"));
   if (!output->is_string()) top.fail(*output, "output must be a quoted path to a folder");
@@ -111,8 +56,8 @@ void read_top(Table& top, BatchManifest& m) {
 void read_predict(const toml::table& root, BatchManifest& m) {
   const toml::node* node = root.get("predict");
   if (!node) return;
-  if (!node->is_table()) throw InputError(located(m.path, line_of(*node), "predict must be a table [predict]"));
-  Table t(*node->as_table(), "predict.", m.path);
+  if (!node->is_table()) throw InputError(located(m.path, toml_line(*node), "predict must be a table [predict]"));
+  TomlTableReader t(*node->as_table(), "predict.", "in [predict]", m.path);
   if (auto level = t.number("level")) {
     if (!(*level > 0.0 && *level < 1.0)) t.fail(*t.get("level"), "predict.level must lie strictly between 0 and 1, e.g. 0.95");
     m.level = *level;
@@ -142,19 +87,19 @@ void read_pattern(const toml::table& root, BatchManifest& m) {
   const toml::node* node = root.get("tiles");
   if (!node) return;
   if (!node->is_table())
-    throw InputError(located(m.path, line_of(*node), "tiles must be a table [tiles] with pattern = \"...\"; "
+    throw InputError(located(m.path, toml_line(*node), "tiles must be a table [tiles] with pattern = \"...\"; "
                                                      "for an explicit list use [[tile]] entries"));
-  Table t(*node->as_table(), "tiles.", m.path);
+  TomlTableReader t(*node->as_table(), "tiles.", "in [tiles]", m.path);
   const toml::node* p = t.get("pattern");
   if (!p || !p->is_string())
-    throw InputError(located(m.path, line_of(p ? *p : *node),
+    throw InputError(located(m.path, toml_line(p ? *p : *node),
                              "[tiles] needs pattern = \"tiles/{tile}/{covariate}.tif\" (a quoted path with both placeholders)"));
   const std::string text = *p->value<std::string>();
   if (text.find("{tile}") == std::string::npos || text.find("{covariate}") == std::string::npos)
     t.fail(*p, "pattern \"" + text + "\" must contain both {tile} and {covariate}, e.g. \"tiles/{tile}/{covariate}.tif\"");
   m.pattern = resolve(m.path, text);
   m.pattern_as_written = text;
-  m.pattern_line = line_of(*p);
+  m.pattern_line = toml_line(*p);
   t.reject_unknown("pattern");
 }
 
@@ -162,17 +107,17 @@ void read_tile_table(const toml::table& root, BatchManifest& m) {
   const toml::node* node = root.get("tile");
   if (!node) return;
   if (!node->is_array_of_tables())
-    throw InputError(located(m.path, line_of(*node), "tile entries must be written as [[tile]] tables with id = \"...\""));
+    throw InputError(located(m.path, toml_line(*node), "tile entries must be written as [[tile]] tables with id = \"...\""));
   std::map<std::string, long> first_line;
   for (const toml::node& item : *node->as_array()) {
     const toml::table& table = *item.as_table();
     ManifestTile tile;
-    tile.line = line_of(item);
+    tile.line = toml_line(item);
     const toml::node* id = table.get("id");
     if (!id || !id->is_string())
       throw InputError(located(m.path, tile.line, "each [[tile]] needs id = \"NAME\" (letters, digits, _ - .)"));
     tile.id = *id->value<std::string>();
-    tile.line = line_of(*id);
+    tile.line = toml_line(*id);
     if (!valid_tile_id(tile.id))
       throw InputError(located(m.path, tile.line, "tile id \"" + tile.id +
                                                       "\" may hold only letters, digits, _, - and . (it names a folder)"));
@@ -183,7 +128,7 @@ void read_tile_table(const toml::table& root, BatchManifest& m) {
       const std::string name(key.str());
       if (name == "id") continue;
       if (!value.is_string())
-        throw InputError(located(m.path, line_of(value), "tile \"" + tile.id + "\": " + name +
+        throw InputError(located(m.path, toml_line(value), "tile \"" + tile.id + "\": " + name +
                                                              " must be a quoted path to that covariate's raster"));
       tile.rasters.emplace_back(name, resolve(m.path, *value.value<std::string>()));
       tile.raster_lines.push_back(static_cast<long>(key.source().begin.line));
@@ -203,7 +148,7 @@ BatchManifest parse_batch_manifest(const std::string& text, const std::string& p
   } catch (const toml::parse_error& e) {
     throw InputError(located(path, static_cast<long>(e.source().begin.line), "not valid TOML: " + std::string(e.description())));
   }
-  Table top(root, "", path);
+  TomlTableReader top(root, "", "at the top level", path);
   read_top(top, m);
   top.get("predict");
   top.get("tiles");

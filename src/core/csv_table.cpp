@@ -12,7 +12,20 @@ namespace habcast {
 
 namespace {
 
-std::vector<std::string> split_record(const std::string& line, char separator) {
+char detect_separator(const std::string& header_line) {
+  if (header_line.find(',') != std::string::npos) return ',';
+  if (header_line.find(';') != std::string::npos) return ';';
+  if (header_line.find('\t') != std::string::npos) return '\t';
+  return ',';
+}
+
+bool skippable(const std::string& line) {
+  return line.empty() || line == "\r" || line[0] == '#';
+}
+
+}  // namespace
+
+std::vector<std::string> split_csv_record(const std::string& line, char separator) {
   std::vector<std::string> fields;
   std::string field;
   bool quoted = false;
@@ -44,19 +57,6 @@ std::vector<std::string> split_record(const std::string& line, char separator) {
   }
   return fields;
 }
-
-char detect_separator(const std::string& header_line) {
-  if (header_line.find(',') != std::string::npos) return ',';
-  if (header_line.find(';') != std::string::npos) return ';';
-  if (header_line.find('\t') != std::string::npos) return '\t';
-  return ',';
-}
-
-bool skippable(const std::string& line) {
-  return line.empty() || line == "\r" || line[0] == '#';
-}
-
-}  // namespace
 
 bool is_missing_cell(const std::string& cell) { return cell.empty() || cell == "NA" || cell == "NaN" || cell == "nan"; }
 
@@ -104,7 +104,7 @@ CsvTable parse_csv_table(const std::string& text, const std::string& path) {
     if (skippable(line)) continue;
     if (line.size() >= 3 && line.compare(0, 3, "\xEF\xBB\xBF") == 0) line.erase(0, 3);  // UTF-8 BOM
     separator = detect_separator(line);
-    t.header = split_record(line, separator);
+    t.header = split_csv_record(line, separator);
     t.header_line = number;
     break;
   }
@@ -112,7 +112,7 @@ CsvTable parse_csv_table(const std::string& text, const std::string& path) {
   while (std::getline(in, line)) {
     ++number;
     if (skippable(line)) continue;
-    std::vector<std::string> fields = split_record(line, separator);
+    std::vector<std::string> fields = split_csv_record(line, separator);
     if (fields.size() != t.header.size())
       throw InputError(located(path, number, "has " + std::to_string(fields.size()) + " fields but the header has " +
                                                  std::to_string(t.header.size())));

@@ -33,6 +33,11 @@ CsvTable parse_csv_table(const std::string& text, const std::string& path);
 /// Reads and parses the file; throws InputError naming it when it cannot be read.
 CsvTable read_csv_table(const std::string& path);
 
+/// Splits one CSV record (RFC 4180 quoting, no newline inside a field) at `separator`, trimming
+/// spaces, tabs and a carriage return around each field. Shared by every CSV reader, so all of
+/// them read the same file the same way.
+std::vector<std::string> split_csv_record(const std::string& line, char separator = ',');
+
 /// True for an empty cell or one of NA, NaN, nan.
 bool is_missing_cell(const std::string& cell);
 

@@ -52,4 +52,14 @@ const char* to_string(Transform transform) {
   return "?";
 }
 
+std::string response_description(const ModelSpec& spec) {
+  const std::string of = spec.response.empty() ? "" : " of " + spec.response;
+  switch (spec.family) {
+    case Family::binomial: return "predicted probability" + of;
+    case Family::poisson: return "predicted expected count" + of;
+    case Family::gaussian: return "predicted mean" + of;
+  }
+  return "prediction";
+}
+
 }  // namespace habcast

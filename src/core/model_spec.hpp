@@ -96,4 +96,8 @@ const char* to_string(Family family);
 const char* to_string(Link link);
 const char* to_string(Transform transform);
 
+/// What the model predicts, in words: "predicted probability of presence", "predicted expected
+/// count of nests", ... (band descriptions, plot legends).
+std::string response_description(const ModelSpec& spec);
+
 }  // namespace habcast

@@ -7,46 +7,12 @@
 #include <sstream>
 #include <vector>
 
+#include "core/csv_table.hpp"
 #include "core/error.hpp"
 
 namespace habcast {
 
 namespace {
-
-/// Splits one CSV record (RFC 4180 quoting; no embedded newlines). Trims surrounding spaces of
-/// unquoted fields.
-std::vector<std::string> split_csv(const std::string& line) {
-  std::vector<std::string> fields;
-  std::string field;
-  bool quoted = false;
-  for (std::size_t i = 0; i < line.size(); ++i) {
-    const char ch = line[i];
-    if (quoted) {
-      if (ch == '"' && i + 1 < line.size() && line[i + 1] == '"') {
-        field += '"';
-        ++i;
-      } else if (ch == '"') {
-        quoted = false;
-      } else {
-        field += ch;
-      }
-    } else if (ch == '"') {
-      quoted = true;
-    } else if (ch == ',') {
-      fields.push_back(field);
-      field.clear();
-    } else {
-      field += ch;
-    }
-  }
-  fields.push_back(field);
-  for (std::string& f : fields) {
-    const auto b = f.find_first_not_of(" \t\r");
-    const auto e = f.find_last_not_of(" \t\r");
-    f = b == std::string::npos ? std::string() : f.substr(b, e - b + 1);
-  }
-  return fields;
-}
 
 // "NaN" is not "not recorded": a computed NaN in a training table is a mistake to report, not skip.
 bool is_missing(const std::string& v) { return v.empty() || v == "NA"; }
@@ -84,7 +50,7 @@ TrainingSamples parse_training_samples(const std::string& text, const std::strin
   while (std::getline(in, line)) {
     ++line_number;
     if (line.empty() || line[0] == '#') continue;  // comment lines carry provenance
-    header = split_csv(line);
+    header = split_csv_record(line);
     break;
   }
   if (header.empty()) throw InputError(located(path, 0, "the training table is empty; it needs a header row naming the covariates"));
@@ -107,7 +73,7 @@ TrainingSamples parse_training_samples(const std::string& text, const std::strin
   while (std::getline(in, line)) {
     ++line_number;
     if (line.empty() || line == "\r" || line[0] == '#') continue;
-    const std::vector<std::string> fields = split_csv(line);
+    const std::vector<std::string> fields = split_csv_record(line);
     if (fields.size() != header.size())
       throw InputError(located(path, line_number, "has " + std::to_string(fields.size()) + " fields but the header has " +
                                                       std::to_string(header.size())));

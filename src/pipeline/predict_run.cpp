@@ -102,16 +102,6 @@ long long cache_for_windows(const std::vector<Window>& windows, std::size_t band
   return std::clamp(bytes, 32LL << 20, 256LL << 20);
 }
 
-std::string response_description(const ModelSpec& spec) {
-  const std::string of = spec.response.empty() ? "" : " of " + spec.response;
-  switch (spec.family) {
-    case Family::binomial: return "predicted probability" + of;
-    case Family::poisson: return "predicted expected count" + of;
-    case Family::gaussian: return "predicted mean" + of;
-  }
-  return "prediction";
-}
-
 std::string percent_label(double level) {
   char buf[32];
   std::snprintf(buf, sizeof buf, "%g%%", level * 100.0);

@@ -20,16 +20,6 @@ std::string axis_label(const Covariate& c) {
   return units.empty() ? c.name : c.name + " (" + units + ")";
 }
 
-std::string response_label(const ModelSpec& spec) {
-  const std::string of = spec.response.empty() ? "" : " of " + spec.response;
-  switch (spec.family) {
-    case Family::binomial: return "predicted probability" + of;
-    case Family::poisson: return "predicted expected count" + of;
-    case Family::gaussian: return "predicted mean" + of;
-  }
-  return "prediction";
-}
-
 struct Span {
   double lo = std::numeric_limits<double>::infinity();
   double hi = -std::numeric_limits<double>::infinity();
@@ -204,7 +194,7 @@ NichePlot layout_niche_plot(const ModelSpec& spec, const NicheDescription& descr
   plot.subtitle = held_summary(spec, description, pair.first, pair.second);
   plot.x_label = axis_label(cx);
   plot.y_label = axis_label(cy);
-  plot.response_label = response_label(spec);
+  plot.response_label = response_description(spec);
   choose_window(plot, pair);
   plot.x_ticks = ticks(cx, plot.x0, plot.x1);
   plot.y_ticks = ticks(cy, plot.y0, plot.y1);
