@@ -1,5 +1,7 @@
 #pragma once
 // Per-covariate novelty formulas, applied to model values (after transform and standardisation).
+#include <cstddef>
+#include <cstdint>
 #include <vector>
 
 namespace habcast {
@@ -14,6 +16,27 @@ namespace habcast {
 ///   f = 100:        100 (max - p) / (max - min)   (negative above the maximum)
 /// The multivariate similarity (MESS) is the minimum over covariates.
 double mess_similarity(const std::vector<double>& sorted, double p);
+
+/// A covariate's sorted training values with a bucket table over their range, so that the
+/// number of values smaller than p (std::lower_bound's index) is found in a couple of steps
+/// instead of a dozen unpredictable ones of a binary search over thousands of values. Exact: the
+/// bucket's answer is verified against its neighbours and a full search settles any doubt.
+class SortedValues {
+ public:
+  explicit SortedValues(std::vector<double> sorted);  ///< ascending, at least one value
+
+  [[nodiscard]] const std::vector<double>& values() const { return sorted_; }
+  /// Index of the first value not less than p (0 .. size).
+  [[nodiscard]] std::size_t count_below(double p) const;
+  /// mess_similarity(values(), p), faster.
+  [[nodiscard]] double mess_similarity(double p) const;
+
+ private:
+  std::vector<double> sorted_;
+  double origin_ = 0.0;
+  double buckets_per_unit_ = 0.0;                  ///< 0 when all values are equal
+  std::vector<std::uint32_t> first_at_or_above_;  ///< per bucket edge k: lower_bound(origin + k / buckets_per_unit)
+};
 
 /// One covariate's term of NT1 (Mesgaran, Cousens & Webber 2014, Diversity and Distributions
 /// 20:1147-1159): min(p - min, max - p, 0) / (max - min). Zero inside the range, negative outside;

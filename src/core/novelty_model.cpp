@@ -74,7 +74,7 @@ void NoveltyModel::build_univariate(const ModelSpec& spec, const TrainingSamples
                                    number(raw_value(cov, values.front())) +
                                    " (zero variance): the model cannot have learned its effect, and similarity "
                                    "and NT2 are undefined." + fix));
-    sorted_.push_back(std::move(values));
+    sorted_.emplace_back(std::move(values));
   }
 }
 
@@ -230,13 +230,13 @@ void NoveltyModel::check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const st
       double nt1 = 0.0;
       std::size_t limiting = 0;
       for (std::size_t j = 0; j < d; ++j) {
-        const std::vector<double>& s = sorted_[j];
-        const double similarity = mess_similarity(s, out.z[j]);
+        const SortedValues& s = sorted_[j];
+        const double similarity = s.mess_similarity(out.z[j]);
         if (similarity < mess) {
           mess = similarity;
           limiting = j;
         }
-        nt1 += nt1_term(s.front(), s.back(), out.z[j]);
+        nt1 += nt1_term(s.values().front(), s.values().back(), out.z[j]);
       }
       out.mess[i] = novelty_output(mess);
       out.nt1[i] = novelty_output(nt1);

@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "core/model_spec.hpp"
+#include "core/novelty_indices.hpp"
 #include "core/term_plan.hpp"
 #include "core/training_domain.hpp"
 #include "core/training_hull.hpp"
@@ -85,7 +86,7 @@ class NoveltyModel {
   const ModelSpec& spec_;
   NoveltyOptions options_;
   std::vector<int> covariates_;
-  std::vector<std::vector<double>> sorted_;  ///< per covariate: training model values, ascending
+  std::vector<SortedValues> sorted_;  ///< per covariate: training model values, ascending
   Eigen::MatrixXd complete_points_;          ///< training rows with every covariate recorded
   std::int64_t complete_ = 0;
   std::optional<WhiteningFrame> frame_;      ///< for NT2

@@ -1,7 +1,9 @@
 // The novelty formulas against hand-worked examples (numbers written here, paper named beside
 // each) and against an independent R computation on the mite data (tests/reference/mite_novelty.R).
 #include <catch2/catch.hpp>
+#include <algorithm>
 #include <cmath>
+#include <random>
 #include <sstream>
 #include <string>
 #include <vector>
@@ -111,5 +113,33 @@ TEST_CASE("MESS, NT1, NT2 and the limiting covariate agree with an independent R
     CHECK_THAT(out.nt1[i], WithinAbs(expected[i].nt1, 1e-7 * (1 + std::fabs(expected[i].nt1))));
     CHECK_THAT(out.nt2[i], WithinAbs(expected[i].nt2, 1e-6));
     CHECK(spec.covariates[out.limiting[i] - 1u].name == expected[i].limiting);
+  }
+}
+
+TEST_CASE("the bucketed MESS search finds what a binary search finds", "[domain]") {
+  // predict counts the training values below each pixel's value through a bucket table; the
+  // count (and so MESS) must equal std::lower_bound's exactly: with ties, at and beyond both
+  // ends, on bucket edges, for uneven spacing, and for a covariate with one repeated value.
+  std::mt19937_64 random(20261202);
+  std::uniform_int_distribution<int> level(0, 40);
+  std::vector<std::vector<double>> samples(3);
+  for (int i = 0; i < 301; ++i) samples[0].push_back(level(random) * 0.25);  // many ties
+  std::lognormal_distribution<double> skewed(0.0, 2.0);
+  for (int i = 0; i < 500; ++i) samples[1].push_back(skewed(random));  // crowded low, sparse high
+  samples[2] = std::vector<double>(7, 3.0);
+  for (std::vector<double>& s : samples) {
+    std::sort(s.begin(), s.end());
+    const habcast::SortedValues index(s);
+    std::vector<double> probes = {-1.0, s.front(), s.back(), s.back() + 1.0, std::nextafter(s.front(), -1e9),
+                                  std::nextafter(s.back(), 1e9)};
+    for (double v : s) probes.insert(probes.end(), {v, std::nextafter(v, -1e9), std::nextafter(v, 1e9)});
+    std::uniform_real_distribution<double> anywhere(s.front() - 1.0, s.back() + 1.0);
+    for (int i = 0; i < 2000; ++i) probes.push_back(anywhere(random));
+    for (double p : probes) {
+      const auto expected = static_cast<std::size_t>(std::lower_bound(s.begin(), s.end(), p) - s.begin());
+      INFO("p = " << p);
+      CHECK(index.count_below(p) == expected);
+      if (s.front() < s.back()) CHECK(index.mess_similarity(p) == habcast::mess_similarity(s, p));
+    }
   }
 }

@@ -1,7 +1,9 @@
 // Link functions and the normal distribution against published and reference values.
 #include <catch2/catch.hpp>
 #include <cmath>
+#include <cstring>
 #include <limits>
+#include <vector>
 
 #include "core/link.hpp"
 #include "core/normal_distribution.hpp"
@@ -92,4 +94,27 @@ TEST_CASE("log and identity links", "[link]") {
   for (Link link : {Link::logit, Link::probit, Link::cloglog, Link::log, Link::identity})
     for (double mu : {0.01, 0.3, 0.5, 0.9})
       CHECK_THAT(habcast::link_inverse(link, habcast::link_function(link, mu)), WithinRel(mu, 1e-13));
+}
+
+TEST_CASE("the batched link evaluation gives the same bits as one call per value", "[link]") {
+  // predict evaluates whole chunks with link_inverse_with_derivative / link_inverse_all (the logit
+  // shares one exp() between mu and its derivative); outputs must not change by a single bit.
+  std::vector<double> eta = {0.0, -0.0, 1e-300, -1e-300, 0.25, -0.25, 3.0, -3.0, 36.7, -36.7, 40.0, -40.0,
+                             700.0, -700.0, 745.2, -745.2, 1000.0, -1000.0,
+                             std::numeric_limits<double>::infinity(), -std::numeric_limits<double>::infinity(),
+                             std::numeric_limits<double>::quiet_NaN()};
+  for (double x = -50.0; x <= 50.0; x += 0.173) eta.push_back(x);
+  const auto n = static_cast<long>(eta.size());
+  const auto same = [](double a, double b) { return (std::isnan(a) && std::isnan(b)) || std::memcmp(&a, &b, sizeof a) == 0; };
+  for (Link link : {Link::logit, Link::probit, Link::cloglog, Link::log, Link::identity}) {
+    std::vector<double> mu(eta.size()), derivative(eta.size()), only_mu(eta.size());
+    habcast::link_inverse_with_derivative(link, eta.data(), mu.data(), derivative.data(), n);
+    habcast::link_inverse_all(link, eta.data(), only_mu.data(), n);
+    for (std::size_t i = 0; i < eta.size(); ++i) {
+      INFO("link " << static_cast<int>(link) << ", eta " << eta[i]);
+      CHECK(same(mu[i], habcast::link_inverse(link, eta[i])));
+      CHECK(same(only_mu[i], habcast::link_inverse(link, eta[i])));
+      CHECK(same(derivative[i], habcast::link_inverse_derivative(link, eta[i])));
+    }
+  }
 }
