@@ -4,8 +4,15 @@
 // tool that reads these inputs and writes these outputs with this codec can be much faster, so
 // habcast's wall time is judged against this program's.
 //
+// Deflate's cost depends on what it compresses, so copies of the inputs are not quite the same
+// work as habcast's own output values. With --values DIR (uncompressed copies of habcast's
+// suitability.tif, uncertainty.tif and extrapolation.tif, made by run.py) the outputs take those
+// exact values instead: the floor then decodes the same inputs and encodes the same output bytes,
+// plus a plain read of the uncompressed values (a memory copy from the page cache), so it errs
+// on the slow side by that copy.
+//
 // Usage: habcast_io_floor OUT_DIR FLOAT1.tif FLOAT2.tif FLOAT3.tif FLOAT4.tif BYTE.tif
-//                         [--threads N|ALL_CPUS] [--window PIXELS]
+//                         [--threads N|ALL_CPUS] [--window PIXELS] [--values DIR]
 #include <cpl_conv.h>
 #include <gdal_priv.h>
 
@@ -31,6 +38,7 @@ struct Args {
   std::vector<std::string> inputs;  // four Float32 rasters, then one Byte raster
   std::string threads = "ALL_CPUS";
   int window = 1024;
+  std::string values_dir;  // uncompressed copies of habcast's outputs, or empty
 };
 
 Args parse(int argc, char** argv) {
@@ -39,12 +47,14 @@ Args parse(int argc, char** argv) {
     const std::string arg = argv[i];
     if (arg == "--threads" && i + 1 < argc) a.threads = argv[++i];
     else if (arg == "--window" && i + 1 < argc) a.window = std::atoi(argv[++i]);
+    else if (arg == "--values" && i + 1 < argc) a.values_dir = argv[++i];
     else if (a.out_dir.empty()) a.out_dir = arg;
     else a.inputs.push_back(arg);
   }
   if (a.out_dir.empty() || a.inputs.size() != 5 || a.window < 1)
     throw std::runtime_error(
-        "usage: habcast_io_floor OUT_DIR F1.tif F2.tif F3.tif F4.tif BYTE.tif [--threads N] [--window PIXELS]");
+        "usage: habcast_io_floor OUT_DIR F1.tif F2.tif F3.tif F4.tif BYTE.tif [--threads N] [--window PIXELS] "
+        "[--values DIR]");
   return a;
 }
 
@@ -93,17 +103,36 @@ void run(const Args& a) {
   const auto n = static_cast<std::size_t>(a.window) * static_cast<std::size_t>(a.window);
   std::vector<std::vector<float>> values(4, std::vector<float>(n));
   std::vector<std::uint8_t> codes(n);
+  // Sources of the output values: (dataset, band) per output band, or none for input copies.
+  std::vector<Dataset> given;
+  if (!a.values_dir.empty())
+    for (const char* name : {"suitability.tif", "uncertainty.tif", "extrapolation.tif"})
+      given.push_back(open_input(a.values_dir + "/" + name, "1"));
+  std::vector<float> out_values(given.empty() ? 0 : n);
+  std::vector<std::uint8_t> out_codes(given.empty() ? 0 : n);
   for (int y = 0; y < height; y += a.window) {
     const int h = std::min(a.window, height - y);
     for (int x = 0; x < width; x += a.window) {
       const int w = std::min(a.window, width - x);
       for (std::size_t c = 0; c < 4; ++c) io(*in[c]->GetRasterBand(1), GF_Read, x, y, w, h, values[c].data(), GDT_Float32);
       io(*in[4]->GetRasterBand(1), GF_Read, x, y, w, h, codes.data(), GDT_Byte);
-      // Trivial computation: each output band takes one input's values.
-      io(*suitability->GetRasterBand(1), GF_Write, x, y, w, h, values[0].data(), GDT_Float32);
-      for (int b = 1; b <= 3; ++b)
-        io(*uncertainty->GetRasterBand(b), GF_Write, x, y, w, h, values[static_cast<std::size_t>(b)].data(), GDT_Float32);
-      io(*flags->GetRasterBand(1), GF_Write, x, y, w, h, codes.data(), GDT_Byte);
+      if (given.empty()) {
+        // Trivial computation: each output band takes one input's values.
+        io(*suitability->GetRasterBand(1), GF_Write, x, y, w, h, values[0].data(), GDT_Float32);
+        for (int b = 1; b <= 3; ++b)
+          io(*uncertainty->GetRasterBand(b), GF_Write, x, y, w, h, values[static_cast<std::size_t>(b)].data(),
+             GDT_Float32);
+        io(*flags->GetRasterBand(1), GF_Write, x, y, w, h, codes.data(), GDT_Byte);
+        continue;
+      }
+      io(*given[0]->GetRasterBand(1), GF_Read, x, y, w, h, out_values.data(), GDT_Float32);
+      io(*suitability->GetRasterBand(1), GF_Write, x, y, w, h, out_values.data(), GDT_Float32);
+      for (int b = 1; b <= 3; ++b) {
+        io(*given[1]->GetRasterBand(b), GF_Read, x, y, w, h, out_values.data(), GDT_Float32);
+        io(*uncertainty->GetRasterBand(b), GF_Write, x, y, w, h, out_values.data(), GDT_Float32);
+      }
+      io(*given[2]->GetRasterBand(1), GF_Read, x, y, w, h, out_codes.data(), GDT_Byte);
+      io(*flags->GetRasterBand(1), GF_Write, x, y, w, h, out_codes.data(), GDT_Byte);
     }
   }
 }

@@ -15,6 +15,7 @@ packages=(
   libcli11-dev catch2 libtomlplusplus-dev nlohmann-json3-dev
   libqhull-dev libtbb-dev
   python3 python3-gdal python3-numpy
+  time  # /usr/bin/time: the benchmark's per-run peak memory
 )
 for flag in "$@"; do
   case "$flag" in
