@@ -3,7 +3,8 @@
 # runs each for a fixed time, starting from the seed corpus in fuzz/corpus/<target>/.
 # Usage: scripts/fuzz.sh [SECONDS_PER_TARGET] [TARGET...]
 #   SECONDS_PER_TARGET  default 30 (CI-sized); use e.g. 3600 for a long run.
-#   TARGET              fuzz_model_file, fuzz_term, fuzz_training_samples (default: all)
+#   TARGET              fuzz_model_file, fuzz_term, fuzz_training_samples, fuzz_batch_manifest
+#                       (default: all)
 # Prints executions and findings per target and in total; exits 1 when anything was found. Inputs
 # that crash are kept in build-fuzz/findings/<target>/ (reproduce: build-fuzz/fuzz/<target> FILE).
 # New corpus entries go to build-fuzz/corpus/<target>/, never into the repository's seeds.
@@ -13,7 +14,7 @@ cd "$(dirname "$0")/.."
 seconds="${1:-30}"
 shift || true
 targets=("$@")
-((${#targets[@]})) || targets=(fuzz_model_file fuzz_term fuzz_training_samples)
+((${#targets[@]})) || targets=(fuzz_model_file fuzz_term fuzz_training_samples fuzz_batch_manifest)
 [[ "$seconds" =~ ^[0-9]+$ ]] || { echo "fuzz.sh: SECONDS_PER_TARGET must be a whole number, got '$seconds'" >&2; exit 2; }
 
 scripts/install-deps.sh --with-fuzz
