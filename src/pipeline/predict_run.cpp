@@ -220,7 +220,11 @@ OutputSpec limiting_spec(const OutputSpec& base, const std::string& path, const 
 }
 
 Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, const RasterGrid& grid, bool with_se,
-                       bool with_flags, const NoveltyModel* novelty, const std::string& version) {
+                       bool with_flags, const NoveltyModel* novelty, const std::string& version, int threads) {
+  // GDAL compresses output blocks in this many threads: as many as --threads allows, so that a
+  // job given one core (a cluster slot, --threads 1) uses one core. A user's --co NUM_THREADS=...
+  // still wins (it comes later in the list).
+  const std::string compression_threads = "NUM_THREADS=" + std::to_string(threads);
   const fs::path dir(options.output_dir);
   Outputs out;
   const std::string suitability_path = (dir / "suitability.tif").string();
@@ -253,6 +257,7 @@ Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, con
   s.nodata = kFloatNodata;
   s.bands = {{response_description(spec), units}};
   s.creation_options = float_creation_options(options);
+  s.creation_options.insert(s.creation_options.begin(), compression_threads);
   s.metadata = metadata;
   if (options.max_error) {
     const double q = quantum_for_max_error(*options.max_error);
@@ -281,6 +286,7 @@ Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, con
     e.nodata = flag::nodata;
     e.bands = {{"extrapolation flags (bit field; see category names)", ""}};
     e.creation_options = options.creation_options;
+    e.creation_options.insert(e.creation_options.begin(), compression_threads);
     e.metadata = metadata;
     e.metadata.emplace_back("HABCAST_FLAG_BITS",
                             "1=outside training range of a covariate; 2=in range but outside the training hull; "
@@ -378,7 +384,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   if (ec || !fs::is_directory(options.output_dir))
     throw IoError(options.output_dir + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
   Outputs out = create_outputs(options, spec, grid, spec.covariance.has_value(), domain.has_value(),
-                               novelty ? &*novelty : nullptr, tool_version);
+                               novelty ? &*novelty : nullptr, tool_version, threads);
 
   const std::size_t k = spec.covariates.size();
   set_gdal_cache(options.gdal_cache_bytes > 0 ? options.gdal_cache_bytes

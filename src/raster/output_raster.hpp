@@ -49,7 +49,8 @@ class OutputRaster {
  public:
   /// Creates the temporary file next to spec.final_path on `grid` (size, geotransform, CRS).
   /// Defaults: TILED=YES, BLOCKXSIZE=BLOCKYSIZE=256, COMPRESS=DEFLATE, PREDICTOR=3 for float32 and
-  /// 2 for uint8, BIGTIFF=IF_SAFER, NUM_THREADS=ALL_CPUS; spec.creation_options override them.
+  /// 2 for uint8, BIGTIFF=IF_SAFER, NUM_THREADS=ALL_CPUS (predict puts its
+  /// --threads there); spec.creation_options override them.
   /// Throws IoError naming the path when creation fails, UsageError for a malformed option.
   OutputRaster(const OutputSpec& spec, const RasterGrid& grid);
   ~OutputRaster();
