@@ -8,6 +8,9 @@
 #include <memory>
 #include <optional>
 #include <thread>
+#if defined(__GLIBC__)
+#include <malloc.h>
+#endif
 
 #include "core/block_predictor.hpp"
 #include "core/evaluator.hpp"
@@ -38,6 +41,18 @@ namespace habcast {
 namespace {
 
 namespace fs = std::filesystem;
+
+/// GDAL's cache blocks come and go by the thousand; glibc keeps the freed pages, and the
+/// scattered holes let the resident set creep up with raster size (measured: the heap peak was
+/// the same at 26 and 100 Mpix, the resident set was not). Handing free pages back every few
+/// dozen windows keeps it flat.
+constexpr std::size_t kTrimEvery = 32;
+
+void return_free_memory() {
+#if defined(__GLIBC__)
+  malloc_trim(0);
+#endif
+}
 
 constexpr const char* kCaution =
     "Model output, not ground truth. Check extrapolation.tif and uncertainty.tif, verify in the field, and follow "
@@ -412,6 +427,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
         buffers.give(std::move(result.outputs));
         total.merge(result.tally);
         progress.advance(static_cast<std::int64_t>(item + 1));
+        if ((item + 1) % kTrimEvery == 0) return_free_memory();
       },
       [] { return stop_signal() != 0; });
   throw_if_stopped();
