@@ -133,6 +133,7 @@ void NoveltyModel::build_joint(const ModelSpec& spec, const TrainingSamples& sam
   } else {
     try {
       hull_.emplace(complete_points_, options_.hull_tolerance);
+      hull_shares_nt2_frame_ = options_.nt2 && frame_ && hull_->frame().same_as(*frame_);
       hull_method_ = "exact convex hull (Qhull) of " + std::to_string(complete_) + " samples in " + std::to_string(d) +
                      " dimensions, " + std::to_string(hull_->facet_count()) + " facets, relative tolerance " +
                      number(hull_->tolerance());
@@ -246,8 +247,9 @@ void NoveltyModel::check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const st
         ++tally.limiting[static_cast<std::size_t>(covariates_[limiting])];
       }
     }
+    double off_plane = 0.0;
     if (options_.nt2) {
-      frame_->whiten(out.z.data(), out.y.data());
+      off_plane = frame_->whiten(out.z.data(), out.y.data());
       double r2 = 0.0;
       for (int j = 0; j < frame_->rank; ++j) r2 += out.y[static_cast<std::size_t>(j)] * out.y[static_cast<std::size_t>(j)];
       const double nt2 = nt2_max_ > 0.0 ? std::sqrt(r2) / nt2_max_ : 0.0;
@@ -258,7 +260,12 @@ void NoveltyModel::check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const st
       }
     }
     if (!in_range) continue;
-    if (hull_ && !hull_->contains(out.z.data(), out.y.data(), hull_start)) flags[i] |= flag::outside_hull;
+    if (hull_) {
+      // NT2 has just whitened z in the hull's own frame (checked equal when built): reuse it.
+      const bool inside = hull_shares_nt2_frame_ ? hull_->contains_whitened(out.y.data(), off_plane, hull_start)
+                                                 : hull_->contains(out.z.data(), out.y.data(), hull_start);
+      if (!inside) flags[i] |= flag::outside_hull;
+    }
     for (std::size_t p = 0; p < pairs_.size(); ++p) {
       xy[0] = out.z[pair_a[p]];
       xy[1] = out.z[pair_b[p]];

@@ -90,6 +90,7 @@ class NoveltyModel {
   Eigen::MatrixXd complete_points_;          ///< training rows with every covariate recorded
   std::int64_t complete_ = 0;
   std::optional<WhiteningFrame> frame_;      ///< for NT2
+  bool hull_shares_nt2_frame_ = false;       ///< the hull's frame equals frame_: whiten once per pixel
   double nt2_max_ = 0.0;
   std::optional<TrainingHull> hull_;
   std::vector<CovariatePair> pairs_;

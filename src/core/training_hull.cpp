@@ -83,7 +83,12 @@ double TrainingHull::gauge_by_scan(const double* y) const {
 }
 
 bool TrainingHull::contains(const double* x, double* y, int& start) const {
-  if (frame_.whiten(x, y) > frame_.flat_tolerance) return false;
+  const double off_plane = frame_.whiten(x, y);
+  return contains_whitened(y, off_plane, start);
+}
+
+bool TrainingHull::contains_whitened(const double* y, double off_plane, int& start) const {
+  if (off_plane > frame_.flat_tolerance) return false;
   if (gauge_.rows() == 0) return true;  // a single distinct point, and x is on it
   double r2 = 0.0;
   for (int j = 0; j < frame_.rank; ++j) r2 += y[j] * y[j];

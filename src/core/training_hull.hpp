@@ -50,6 +50,10 @@ class TrainingHull {
   /// that decided (keep it between neighbouring points; any value in range is valid).
   bool contains(const double* x, double* y, int& start) const;
 
+  /// The same test for a point already whitened in frame() (`y`, rank() values) whose distance
+  /// from the training plane whiten() returned as `off_plane`.
+  bool contains_whitened(const double* y, double off_plane, int& start) const;
+
   /// Same test by a plain scan of every facet (no shortcuts): the reference for tests.
   bool contains_by_scan(const double* x) const;
 

@@ -22,6 +22,14 @@ double WhiteningFrame::whiten(const double* x, double* y) const {
   return off;
 }
 
+bool WhiteningFrame::same_as(const WhiteningFrame& other) const {
+  const auto same = [](const auto& a, const auto& b) {
+    return a.rows() == b.rows() && a.cols() == b.cols() && (a.size() == 0 || a == b);
+  };
+  return rank == other.rank && flat_tolerance == other.flat_tolerance && same(mean, other.mean) &&
+         same(to_white, other.to_white) && same(flat, other.flat);
+}
+
 WhiteningFrame whitening_frame(const Eigen::MatrixXd& points, double tolerance) {
   const Eigen::Index n = points.rows();
   const Eigen::Index d = points.cols();

@@ -17,6 +17,9 @@ struct WhiteningFrame {
   /// Whitened coordinates of one point `x` (d values) into `y` (rank values); returns the largest
   /// absolute distance of x from the training plane along the flat directions (0 at full rank).
   double whiten(const double* x, double* y) const;
+
+  /// Exactly the same frame (bit for bit), so whitened coordinates from one serve the other.
+  [[nodiscard]] bool same_as(const WhiteningFrame& other) const;
 };
 
 /// Builds the frame of `points` (n x d, n >= 2) with the sample covariance (divisor n - 1, as R's
