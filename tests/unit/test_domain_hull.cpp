@@ -13,6 +13,7 @@
 #include "core/term_plan.hpp"
 #include "core/training_hull.hpp"
 #include "core/training_samples.hpp"
+#include "core/whitening_frame.hpp"
 #include "test_support.hpp"
 
 namespace {
@@ -125,10 +126,16 @@ TEST_CASE("hull membership agrees with a linear-programming reference on 100,000
   // points found on the boundary are on the same boundary for both.
   const Eigen::MatrixXd enlarged = (X.rowwise() - centre.transpose()) * (1.0 + hull.tolerance());
   const Eigen::MatrixXd X_reference = enlarged.rowwise() + centre.transpose();
-  int start = 0, disagree_lp = 0, disagree_scan = 0, inside = 0, near_checked = 0;
-  std::vector<double> y(d);
+  int start = 0, start_whitened = 0, disagree_lp = 0, disagree_scan = 0, disagree_whitened = 0, inside = 0,
+      near_checked = 0;
+  std::vector<double> y(d), y_given(d);
+  // predict whitens once for NT2 and hands those coordinates to the hull when the frames agree.
+  const habcast::WhiteningFrame nt2_frame = habcast::whitening_frame(X, hull.tolerance());
+  REQUIRE(nt2_frame.same_as(hull.frame()));
   for (std::size_t k = 0; k < points.size(); ++k) {
     const bool fast = hull.contains(points[k].data(), y.data(), start);
+    const double off_plane = nt2_frame.whiten(points[k].data(), y_given.data());
+    if (hull.contains_whitened(y_given.data(), off_plane, start_whitened) != fast) ++disagree_whitened;
     const bool reference = lp_inside(X_reference, points[k]);
     inside += reference ? 1 : 0;
     if (fast != reference) ++disagree_lp;
@@ -142,6 +149,7 @@ TEST_CASE("hull membership agrees with a linear-programming reference on 100,000
   }
   CHECK(disagree_lp == 0);
   CHECK(disagree_scan == 0);
+  CHECK(disagree_whitened == 0);
   CHECK(near_checked == 40000);
   CHECK(inside > 30000);   // both sides are well represented
   CHECK(inside < 70000);
