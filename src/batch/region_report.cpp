@@ -6,6 +6,7 @@
 #include <map>
 
 #include "core/extrapolation_flags.hpp"
+#include "core/number_text.hpp"
 #include "core/utc_time.hpp"
 #include "pipeline/atomic_file.hpp"
 
@@ -126,11 +127,7 @@ std::string csv_field(const std::string& text) {
   return out + "\"";
 }
 
-std::string csv_number(double v) {
-  char buf[40];
-  std::snprintf(buf, sizeof buf, "%.10g", v);
-  return buf;
-}
+std::string csv_number(double v) { return significant(v, 10); }
 
 std::string csv_row(const std::string& id, const std::string& status, bool ran, double seconds, const Counts& c,
                     bool done, const ModelSpec& spec, bool with_area, const std::string& reason) {

@@ -4,6 +4,7 @@
 #include <cstdio>
 
 #include "core/model_values.hpp"
+#include "core/number_text.hpp"
 
 namespace habcast::cli {
 
@@ -37,11 +38,7 @@ TransformedLine transformed_line(const Covariate& target, const Covariate& given
   return line;
 }
 
-std::string num(double v) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%.4g", v);
-  return buf;
-}
+std::string num(double v) { return significant(v, 4); }
 
 std::string with_units(double v, const std::string& units) { return units.empty() ? num(v) : num(v) + " " + units; }
 

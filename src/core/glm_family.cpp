@@ -1,4 +1,5 @@
 #include "core/glm_family.hpp"
+#include "core/number_text.hpp"
 
 #include <cmath>
 #include <numbers>
@@ -34,13 +35,6 @@ double log_binomial_density(double k, double n, double p) {
 double log_poisson_density(double y, double mu) {
   if (y == 0.0) return -mu;
   return y * std::log(mu) - mu - std::lgamma(y + 1.0);
-}
-
-std::string number(double v) {
-  std::ostringstream os;
-  os.precision(10);
-  os << v;
-  return os.str();
 }
 
 }  // namespace
@@ -99,28 +93,28 @@ std::optional<ResponseProblem> check_response(Family family, Link link, const Ei
     const double v = y[i];
     const double w = weights[i];
     if (!std::isfinite(w) || w <= 0.0)
-      return ResponseProblem{i, "weight " + number(w) + " is not a positive number; drop the row instead of giving it weight 0"};
+      return ResponseProblem{i, "weight " + significant(w, 10) + " is not a positive number; drop the row instead of giving it weight 0"};
     if (!std::isfinite(v)) return ResponseProblem{i, "the response is missing or not a finite number"};
     switch (family) {
       case Family::binomial:
         if (v < 0.0 || v > 1.0)
-          return ResponseProblem{i, "response " + number(v) +
+          return ResponseProblem{i, "response " + significant(v, 10) +
                                         " does not fit family binomial, which needs 0 (absent) or 1 (present), or a "
                                         "proportion with the number of trials as weight; for counts use --family poisson"};
         if (std::fabs(w * v - std::round(w * v)) > 1e-3)  // R warns at the same tolerance
-          return ResponseProblem{i, "response " + number(v) + " times weight " + number(w) +
+          return ResponseProblem{i, "response " + significant(v, 10) + " times weight " + significant(w, 10) +
                                         " is not a whole number of successes; binomial needs 0/1 responses (weight 1) "
                                         "or proportions of whole numbers of trials"};
         break;
       case Family::poisson:
         if (v < 0.0 || v != std::floor(v))
-          return ResponseProblem{i, "response " + number(v) +
+          return ResponseProblem{i, "response " + significant(v, 10) +
                                         " does not fit family poisson, which needs whole counts 0, 1, 2, ...; for a "
                                         "continuous response use --family gaussian"};
         break;
       case Family::gaussian:
         if (link == Link::log && v <= 0.0)
-          return ResponseProblem{i, "response " + number(v) +
+          return ResponseProblem{i, "response " + significant(v, 10) +
                                         " is not positive, so the log link has no starting value; use --link identity"};
         break;
     }

@@ -10,19 +10,13 @@
 #include "core/error.hpp"
 #include "core/glm_family.hpp"
 #include "core/link.hpp"
+#include "core/number_text.hpp"
 
 namespace habcast {
 
 namespace {
 
 constexpr double kEps = std::numeric_limits<double>::epsilon();
-
-std::string number(double v, int digits = 6) {
-  std::ostringstream os;
-  os.precision(digits);
-  os << v;
-  return os.str();
-}
 
 // R's family objects keep mu and d mu / d eta away from the boundary while fitting (binomial
 // linkinv within [eps, 1 - eps], log link at least eps, mu.eta at least eps) so that IRLS weights
@@ -246,7 +240,7 @@ void check_boundary(const GlmProblem& p, const State& s, Irls& irls) {
   }
   std::string terms;
   for (Eigen::Index j : diverging)
-    terms += (terms.empty() ? "" : ", ") + ("\"" + p.term_names[static_cast<std::size_t>(j)] + "\" = " + number(s.beta[j], 4));
+    terms += (terms.empty() ? "" : ", ") + ("\"" + p.term_names[static_cast<std::size_t>(j)] + "\" = " + significant(s.beta[j], 4));
   // Observations fitted (almost) exactly at the boundary: where the diverging terms act.
   if (at_boundary == 0)
     for (Eigen::Index i = 0; i < s.mu.size(); ++i)
@@ -285,8 +279,8 @@ GlmFit fit_glm(const GlmProblem& problem, const IrlsOptions& options) {
   check_boundary(problem, s, irls);
   if (!irls.converged())
     throw InputError("the model did not converge: IRLS stopped after " + std::to_string(irls.iterations()) +
-                     " iterations with a relative deviance change of " + number(irls.last_change(), 3) +
-                     " (needs < " + number(options.tolerance, 3) + "). Allow more iterations (--max-iterations), "
+                     " iterations with a relative deviance change of " + significant(irls.last_change(), 3) +
+                     " (needs < " + significant(options.tolerance, 3) + "). Allow more iterations (--max-iterations), "
                      "standardise the covariates, or simplify the model");
 
   GlmFit fit;

@@ -10,17 +10,12 @@
 #include "core/extrapolation_flags.hpp"
 #include "core/model_values.hpp"
 #include "core/novelty_indices.hpp"
+#include "core/number_text.hpp"
 #include "core/qhull_facets.hpp"
 
 namespace habcast {
 
 namespace {
-
-std::string number(double v) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%.6g", v);
-  return buf;
-}
 
 /// Novelty values written to Float32 never reach the nodata value, however far out a pixel is.
 float novelty_output(double v) { return static_cast<float>(std::max(v, -9000.0)); }
@@ -59,7 +54,7 @@ void NoveltyModel::build_univariate(const ModelSpec& spec, const TrainingSamples
       const double z = model_value(cov, raw);
       if (!std::isfinite(z))
         throw InputError(located(samples.path, 0,
-                                 "sample " + std::to_string(i + 1) + ": " + cov.name + " = " + number(raw) +
+                                 "sample " + std::to_string(i + 1) + ": " + cov.name + " = " + significant(raw, 6) +
                                      " is outside the domain of its " + to_string(cov.transform) + " transform." + fix));
       values.push_back(z);
     }
@@ -71,7 +66,7 @@ void NoveltyModel::build_univariate(const ModelSpec& spec, const TrainingSamples
     if (values.front() == values.back())
       throw InputError(located(samples.path, 0,
                                "every sample has " + cov.name + " = " +
-                                   number(raw_value(cov, values.front())) +
+                                   significant(raw_value(cov, values.front()), 6) +
                                    " (zero variance): the model cannot have learned its effect, and similarity "
                                    "and NT2 are undefined." + fix));
     sorted_.emplace_back(std::move(values));
@@ -125,7 +120,7 @@ void NoveltyModel::build_joint(const ModelSpec& spec, const TrainingSamples& sam
     hull_method_ = "not built: " + std::to_string(d) + " covariates exceed --hull-max-dim " +
                    std::to_string(options_.hull_max_dim) +
                    "; standing in: 2-D hulls of interacting pairs (bit 16) and NT2 > " +
-                   number(options_.nt2_threshold) + " (bit 8)";
+                   significant(options_.nt2_threshold, 6) + " (bit 8)";
     notes_.push_back("The full training hull was not built for " + std::to_string(d) + " covariates (limit " +
                      std::to_string(options_.hull_max_dim) +
                      "); pairwise hulls of interacting covariates and NT2 stand in for it, and they can miss "
@@ -136,7 +131,7 @@ void NoveltyModel::build_joint(const ModelSpec& spec, const TrainingSamples& sam
       hull_shares_nt2_frame_ = options_.nt2 && frame_ && hull_->frame().same_as(*frame_);
       hull_method_ = "exact convex hull (Qhull) of " + std::to_string(complete_) + " samples in " + std::to_string(d) +
                      " dimensions, " + std::to_string(hull_->facet_count()) + " facets, relative tolerance " +
-                     number(hull_->tolerance());
+                     significant(hull_->tolerance(), 6);
       if (hull_->rank() < d) {
         hull_method_ += "; flat: the samples span " + std::to_string(hull_->rank()) + " dimensions";
         notes_.push_back("The training samples of " + names(covariates_) + " span only " + std::to_string(hull_->rank()) +

@@ -5,6 +5,7 @@
 #include <sstream>
 
 #include "core/extrapolation_flags.hpp"
+#include "core/number_text.hpp"
 
 namespace habcast {
 
@@ -16,11 +17,7 @@ std::string format_percent(double share) {
   return buf;
 }
 
-std::string format_value(double value) {
-  char buf[64];
-  std::snprintf(buf, sizeof buf, "%.4g", value);
-  return buf;
-}
+std::string format_value(double value) { return significant(value, 4); }
 
 std::string format_area(std::int64_t pixels, const RasterGrid& grid) {
   if (!grid.has_geotransform) return "";
