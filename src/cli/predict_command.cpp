@@ -119,7 +119,7 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
                   "covariates not given here are read from the raster the model file names");
   cmd->add_option("-o,--output", args->options.output_dir, "Output folder (created if missing)")->required();
   cmd->add_option("--level", args->options.level, "Confidence level of the limits")->default_val(0.95);
-  cmd->add_option("--threads", args->options.threads, "Worker threads, and threads GDAL compresses outputs with (0 = all cores)")->default_val(0)->check(CLI::NonNegativeNumber);
+  cmd->add_option("--threads", args->options.threads, "Threads to keep busy, counting reading, model and GDAL compression (0 = all cores; 1 = one core, for a cluster slot)")->default_val(0)->check(CLI::NonNegativeNumber);
   cmd->add_option("--block-size", args->options.block_size,
                   "Edge of a processing window in pixels; memory grows with its square times threads")
       ->default_val(512);

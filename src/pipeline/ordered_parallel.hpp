@@ -16,6 +16,9 @@ namespace habcast {
 
 /// `work(item, worker)` runs on worker `worker` (0..threads-1) and returns a Result;
 /// `consume(item, result)` runs on the calling thread in item order 0, 1, 2, ...
+/// With `threads` <= 1 everything runs on the calling thread, one item after the other: a job
+/// given one core (a cluster slot) then keeps exactly one core busy, where a worker thread beside
+/// a consuming caller would keep two busy.
 /// `should_stop()` is polled by the calling thread between results; when it returns true no new
 /// items start, workers finish, and run_ordered returns early. The first exception thrown by
 /// `work` or `consume` stops the run and is rethrown on the calling thread after all workers joined.
@@ -24,7 +27,13 @@ void run_ordered(std::size_t items, int threads, std::size_t max_in_flight,
                  const std::function<Result(std::size_t item, int worker)>& work,
                  const std::function<void(std::size_t item, Result& result)>& consume,
                  const std::function<bool()>& should_stop) {
-  if (threads < 1) threads = 1;
+  if (threads <= 1) {
+    for (std::size_t item = 0; item < items && !should_stop(); ++item) {
+      Result result = work(item, 0);
+      consume(item, result);
+    }
+    return;
+  }
   if (max_in_flight < static_cast<std::size_t>(threads)) max_in_flight = static_cast<std::size_t>(threads);
 
   std::mutex mutex;
