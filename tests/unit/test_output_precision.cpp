@@ -94,17 +94,48 @@ struct Scene {
 
 }  // namespace
 
-TEST_CASE("The rounding grid is the largest power of two within twice the maximum error", "[precision]") {
-  CHECK(habcast::quantum_for_max_error(1e-4) == std::ldexp(1.0, -13));  // 2^-13 = 1.22e-4 <= 2e-4 < 2^-12
-  CHECK(habcast::quantum_for_max_error(1e-3) == std::ldexp(1.0, -9));   // 1.95e-3 <= 2e-3 < 3.9e-3
+TEST_CASE("The rounding grid is the largest three-bit step within twice the maximum error", "[precision]") {
+  // Hand-worked: 2e = m * 2^x with m in [0.5, 1), q = floor(8m) * 2^(x - 3).
+  // 2e-4 = 0.8192 * 2^-12 -> floor(6.5536) = 6 -> q = 6 * 2^-15 = 1.831e-4 (a power of two: 1.22e-4).
+  CHECK(habcast::quantum_for_max_error(1e-4) == 6.0 * std::ldexp(1.0, -15));
+  // 2e-3 = 0.512 * 2^-8 -> floor(4.096) = 4 -> q = 4 * 2^-11 = 2^-9.
+  CHECK(habcast::quantum_for_max_error(1e-3) == std::ldexp(1.0, -9));
   CHECK(habcast::quantum_for_max_error(std::ldexp(1.0, -14)) == std::ldexp(1.0, -13));  // exact power
-  CHECK(habcast::quantum_for_max_error(0.3) == 0.5);
+  CHECK(habcast::quantum_for_max_error(0.3) == 0.5);     // 0.6 = 0.6 * 2^0 -> floor(4.8) = 4 -> 4/8
+  CHECK(habcast::quantum_for_max_error(0.35) == 0.625);  // 0.7 -> floor(5.6) = 5 -> 5/8
+  CHECK(habcast::quantum_for_max_error(0.4375) == 0.875);  // 0.875 = 7/8 exactly: the whole allowance
+  for (double e = 1e-7; e < 1.0; e *= 1.37) {
+    const double q = habcast::quantum_for_max_error(e);
+    INFO("max error " << e);
+    CHECK(q <= 2 * e);
+    CHECK(q > 0.8 * e * 2 * 0.999);  // at least 4/5 of the allowance is used
+  }
   CHECK_THROWS(habcast::quantum_for_max_error(0.0));
   CHECK_THROWS(habcast::quantum_for_max_error(std::nan("")));
   // 0.123456 * 1024 = 126.42..., so the nearest multiple of 2^-10 is 126 / 1024.
   CHECK(habcast::round_to_quantum(0.123456, std::ldexp(1.0, -10)) == 126.0 / 1024.0);
+  // 1 / 0.375 = 2.67 -> 3 * 0.375 = 1.125; 0.1875 / 0.375 = 0.5 exactly -> the even neighbour, 0.
+  CHECK(habcast::round_to_quantum(1.0, 0.375) == 1.125);
+  CHECK(habcast::round_to_quantum(0.1875, 0.375) == 0.0);
   CHECK(habcast::round_to_quantum(0.123456, 0.0) == 0.123456);
   CHECK(std::isinf(habcast::round_to_quantum(INFINITY, 0.5)));
+  // Never further than q / 2, also where value / q rounds in double (most steps are not powers of
+  // two): midpoints of the grid and their nearest doubles on both sides, for steps of every
+  // three-bit mantissa over several binades.
+  for (const double e : {1e-4, 1.2e-4, 1.45e-4, 1.7e-4, 0.03, 0.3}) {
+    const double q = habcast::quantum_for_max_error(e);
+    double worst = 0.0;
+    for (int k = -20000; k < 20000; ++k) {
+      double v = (k + 0.5) * q;
+      for (int step = 0; step < 3; ++step) {
+        const double below = v - step * std::ldexp(std::fabs(v), -52), above = v + step * std::ldexp(std::fabs(v), -52);
+        for (const double x : {below, above, std::nextafter(below, -1e9), std::nextafter(above, 1e9)})
+          worst = std::max(worst, std::fabs(habcast::round_to_quantum(x, q) - x) - q / 2);
+      }
+    }
+    INFO("step " << q);
+    CHECK(worst <= 0.0);
+  }
 }
 
 TEST_CASE("Outputs written with --max-error stay within that error of the exact prediction", "[precision]") {
