@@ -11,8 +11,11 @@
 // plus a plain read of the uncompressed values (a memory copy from the page cache), so it errs
 // on the slow side by that copy.
 //
+// With --read-only nothing is written: the time to decode the inputs alone, which no choice of
+// output codec or precision (predict --max-error) can go below.
+//
 // Usage: habcast_io_floor OUT_DIR FLOAT1.tif FLOAT2.tif FLOAT3.tif FLOAT4.tif BYTE.tif
-//                         [--threads N|ALL_CPUS] [--window PIXELS] [--values DIR]
+//                         [--threads N|ALL_CPUS] [--window PIXELS] [--values DIR] [--read-only]
 #include <cpl_conv.h>
 #include <gdal_priv.h>
 
@@ -38,6 +41,7 @@ struct Args {
   std::vector<std::string> inputs;  // four Float32 rasters, then one Byte raster
   std::string threads = "ALL_CPUS";
   int window = 1024;
+  bool read_only = false;
   std::string values_dir;  // uncompressed copies of habcast's outputs, or empty
 };
 
@@ -48,13 +52,14 @@ Args parse(int argc, char** argv) {
     if (arg == "--threads" && i + 1 < argc) a.threads = argv[++i];
     else if (arg == "--window" && i + 1 < argc) a.window = std::atoi(argv[++i]);
     else if (arg == "--values" && i + 1 < argc) a.values_dir = argv[++i];
+    else if (arg == "--read-only") a.read_only = true;
     else if (a.out_dir.empty()) a.out_dir = arg;
     else a.inputs.push_back(arg);
   }
   if (a.out_dir.empty() || a.inputs.size() != 5 || a.window < 1)
     throw std::runtime_error(
         "usage: habcast_io_floor OUT_DIR F1.tif F2.tif F3.tif F4.tif BYTE.tif [--threads N] [--window PIXELS] "
-        "[--values DIR]");
+        "[--values DIR] [--read-only]");
   return a;
 }
 
@@ -95,9 +100,12 @@ void run(const Args& a) {
   std::vector<Dataset> in;
   for (const std::string& p : a.inputs) in.push_back(open_input(p, a.threads));
   const GDALDataset& ref = *in.front();
-  Dataset suitability = create_output(a.out_dir + "/suitability.tif", ref, 1, GDT_Float32, a.threads);
-  Dataset uncertainty = create_output(a.out_dir + "/uncertainty.tif", ref, 3, GDT_Float32, a.threads);
-  Dataset flags = create_output(a.out_dir + "/extrapolation.tif", ref, 1, GDT_Byte, a.threads);
+  Dataset suitability, uncertainty, flags;
+  if (!a.read_only) {
+    suitability = create_output(a.out_dir + "/suitability.tif", ref, 1, GDT_Float32, a.threads);
+    uncertainty = create_output(a.out_dir + "/uncertainty.tif", ref, 3, GDT_Float32, a.threads);
+    flags = create_output(a.out_dir + "/extrapolation.tif", ref, 1, GDT_Byte, a.threads);
+  }
   const int width = in.front()->GetRasterXSize();
   const int height = in.front()->GetRasterYSize();
   const auto n = static_cast<std::size_t>(a.window) * static_cast<std::size_t>(a.window);
@@ -116,6 +124,7 @@ void run(const Args& a) {
       const int w = std::min(a.window, width - x);
       for (std::size_t c = 0; c < 4; ++c) io(*in[c]->GetRasterBand(1), GF_Read, x, y, w, h, values[c].data(), GDT_Float32);
       io(*in[4]->GetRasterBand(1), GF_Read, x, y, w, h, codes.data(), GDT_Byte);
+      if (a.read_only) continue;
       if (given.empty()) {
         // Trivial computation: each output band takes one input's values.
         io(*suitability->GetRasterBand(1), GF_Write, x, y, w, h, values[0].data(), GDT_Float32);

@@ -6,7 +6,7 @@ Usage:  /usr/bin/python3 bench/run.py [--sizes 25,100] [--reps 3] [--warmup 1] [
 Builds habcast and habcast_io_floor (project default build type, RelWithDebInfo), generates the
 invented stacks if missing, then for each size runs every contender in a fresh process, in
 turn (the order rotates every round), `warmup` unmeasured rounds then `reps` measured ones.
-Reports medians of wall time, Mpix/s, CPU time (user + sys) and peak RSS (from wait4's rusage of
+Reports medians of wall time, Mpix/s, CPU time (user + sys) and peak RSS (from /usr/bin/time, for
 that one child), the ratios habcast/floor and peer/habcast, checks that habcast's and the peer's
 outputs agree to 1e-5, measures 1 vs 2 threads (speed-up and bit-identity of the outputs), and
 writes everything to bench/results/bench-<UTC time>.json.
@@ -26,6 +26,8 @@ from pathlib import Path
 import numpy as np
 from osgeo import gdal
 
+import precision_budget
+
 gdal.UseExceptions()
 
 BENCH = Path(__file__).resolve().parent
@@ -34,6 +36,7 @@ COVARIATES = ["tmin", "precip", "slope", "soil_ph", "landcover"]
 OUTPUTS = [("suitability.tif", 1), ("uncertainty.tif", 1), ("uncertainty.tif", 2), ("uncertainty.tif", 3),
            ("extrapolation.tif", 1)]
 TOLERANCE = 1e-5  # agreement required between habcast and the peer (probability units)
+MAX_ERROR = 1e-4  # the --max-error row
 
 
 def sh(cmd, **kw):
@@ -132,6 +135,8 @@ def contenders(habcast, floor, stack, out_root, args):
         "floor": lambda out: [str(floor), str(out), *inputs, "--values", str(out_root / "floor-values")],
         # ... and, for reference, copies of its inputs (deflate's cost depends on the data).
         "floor (input copies)": lambda out: [str(floor), str(out), *inputs],
+        # Decoding the inputs alone: no output codec or --max-error can make a run faster than this.
+        "read inputs only": lambda out: [str(floor), str(out), *inputs, "--read-only"],
     }
     help_text = subprocess.run([str(habcast), "predict", "--help"], capture_output=True, text=True).stdout
     if args.domain_option.split()[0] in help_text:
@@ -141,7 +146,7 @@ def contenders(habcast, floor, stack, out_root, args):
         # ... and predict's defaults, which also write novelty.tif (3 Float32 bands) and limiting.tif.
         runs["habcast default"] = lambda out: base + ["-o", str(out)]
     if "--max-error" in help_text:
-        runs["habcast--max-error"] = lambda out: base + ["-o", str(out), *same_outputs, "--max-error", "1e-4"]
+        runs["habcast--max-error"] = lambda out: base + ["-o", str(out), *same_outputs, "--max-error", f"{MAX_ERROR:g}"]
     return {name: (make, out_root / name) for name, make in runs.items()}
 
 
@@ -192,6 +197,12 @@ def race(habcast, floor, stack, args):
     if "habcast--max-error" in t:
         result["bytes_lossless_over_max_error"] = t["habcast"]["output_bytes"] / t["habcast--max-error"]["output_bytes"]
         result["time_lossless_over_max_error"] = t["habcast"]["wall_s"] / t["habcast--max-error"]["wall_s"]
+        # The most any --max-error could save in time: everything but decoding the inputs.
+        result["time_lossless_over_read_only"] = t["habcast"]["wall_s"] / t["read inputs only"]["wall_s"]
+        # What an entropy coder could reach at that error on these very values (precision_budget.py).
+        budget = precision_budget.estimate(tools["habcast"][1], MAX_ERROR, echo=lambda line: print("  " + line))
+        result["bytes_lossless_over_entropy_estimate"] = budget["lossless_bytes"] / budget["estimate_bytes"]
+        result["entropy_bits_per_value"] = budget["bits_per_value"]
     result["peer_agreement"] = compare(tools["habcast"][1], tools["peer"][1], TOLERANCE)
     return result
 
@@ -224,7 +235,8 @@ def print_table(results):
         agree = r["peer_agreement"]
         print(f"{key:>10}   habcast/floor {r['habcast_over_floor']:.2f}   peer/habcast {r['peer_over_habcast']:.2f}"
               f"   peer agrees to {TOLERANCE:g}: {agree['agree']} (max |diff| {agree['max_abs_diff']})")
-        for extra in ("habcast_over_floor_input_copies", "checks_over_habcast", "default_over_habcast", "bytes_lossless_over_max_error", "time_lossless_over_max_error"):
+        for extra in ("habcast_over_floor_input_copies", "checks_over_habcast", "default_over_habcast", "bytes_lossless_over_max_error", "time_lossless_over_max_error",
+                      "time_lossless_over_read_only", "bytes_lossless_over_entropy_estimate"):
             if extra in r:
                 print(f"{key:>10}   {extra} {r[extra]:.2f}")
     if "threads" in results:
