@@ -336,6 +336,7 @@ void write_block(Outputs& out, const Window& w, const BlockOutputs& b) {
     out.novelty->write(3, w, b.novelty.nt2.data());
   }
   if (out.limiting) out.limiting->write(1, w, b.novelty.limiting.data());
+  for (OutputRaster* r : out.all()) r->flush_completed_blocks(w);
 }
 
 void check_novelty_options(const NoveltyOptions& o) {

@@ -169,6 +169,7 @@ struct OutputRaster::Impl {
   void describe_bands();
   template <typename T>
   void write(int band, const Window& window, const T* values, GDALDataType type);
+  void flush_completed_blocks(const Window& window);
 };
 
 void OutputRaster::Impl::create(const RasterGrid& grid) {
@@ -249,6 +250,32 @@ void OutputRaster::Impl::write(int band, const Window& window, const T* values, 
   }
 }
 
+void OutputRaster::Impl::flush_completed_blocks(const Window& window) {
+  if (!dataset) throw std::logic_error("OutputRaster::flush_completed_blocks after close() for " + spec.final_path);
+  int block_width = 0, block_height = 0;
+  dataset->GetRasterBand(1)->GetBlockSize(&block_width, &block_height);
+  const int width = dataset->GetRasterXSize(), height = dataset->GetRasterYSize();
+  // Block b's last row/column, clipped to the raster; the block is complete once the window that
+  // holds its bottom-right pixel is written (windows arrive in row-major order).
+  const auto last_row = [&](int by) { return std::min((by + 1) * block_height, height) - 1; };
+  const auto last_col = [&](int bx) { return std::min((bx + 1) * block_width, width) - 1; };
+  take_gdal_error();
+  for (int by = window.y / block_height; by <= (window.y + window.height - 1) / block_height; ++by) {
+    if (last_row(by) >= window.y + window.height) continue;
+    for (int bx = window.x / block_width; bx <= (window.x + window.width - 1) / block_width; ++bx) {
+      if (last_col(bx) >= window.x + window.width) continue;
+      // Band 1 first: for pixel-interleaved files its flush writes every band's part of the block.
+      for (int band = 1; band <= dataset->GetRasterCount(); ++band) {
+        if (dataset->GetRasterBand(band)->FlushBlock(bx, by, TRUE) != CE_None) {
+          throw IoError("writing block " + std::to_string(bx) + "," + std::to_string(by) + " of band " +
+                        std::to_string(band) + " of " + describe() + " failed (" + gdal_reason() +
+                        "). Check free disk space and permissions.");
+        }
+      }
+    }
+  }
+}
+
 OutputRaster::OutputRaster(const OutputSpec& spec, const RasterGrid& grid) : impl_(std::make_unique<Impl>()) {
   ensure_gdal();
   validate_spec(spec);
@@ -285,6 +312,8 @@ void OutputRaster::write(int band, const Window& window, const float* values) {
 void OutputRaster::write(int band, const Window& window, const std::uint8_t* values) {
   impl_->write(band, window, values, GDT_Byte);
 }
+
+void OutputRaster::flush_completed_blocks(const Window& window) { impl_->flush_completed_blocks(window); }
 
 void OutputRaster::build_overviews() {
   Impl& self = *impl_;

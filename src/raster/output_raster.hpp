@@ -60,6 +60,12 @@ class OutputRaster {
   void write(int band, const Window& window, const float* values);
   void write(int band, const Window& window, const std::uint8_t* values);
 
+  /// Hands GDAL every block whose last pixel lies in `window` (so complete, when windows are
+  /// written in row-major order) to compress and write now, in block order. Without this GDAL
+  /// writes dirty blocks when its cache evicts them, an order that depends on the other threads'
+  /// reads, and identical runs would give files with the same pixels but different bytes.
+  void flush_completed_blocks(const Window& window);
+
   /// Builds internal overviews (AVERAGE for float32, NEAREST for uint8) at factors 2,4,8,...
   /// while the smaller side stays >= 256 pixels.
   void build_overviews();
