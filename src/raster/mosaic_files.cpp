@@ -1,8 +1,11 @@
 #include "raster/mosaic_files.hpp"
 
 #include <cpl_error.h>
+#include <gdal_priv.h>
+#include <gdal_rat.h>
 #include <gdal_utils.h>
 
+#include <algorithm>
 #include <filesystem>
 #include <memory>
 
@@ -33,7 +36,25 @@ bool close_checked(GDALDatasetH dataset) {
   return last != CE_Failure && last != CE_Fatal;
 }
 
-/// Removes the temporary file unless it was renamed into place.
+/// Gives each band of the mosaic what GDALBuildVRT leaves out: the first tile's band description,
+/// unit, category names and attribute table (flag names live in the tiles' .aux.xml sidecars,
+/// which a VRT does not read), and its colour table where the VRT has none.
+void copy_band_labels(GDALDatasetH vrt, const std::string& first_tile) {
+  DatasetPtr tile = open_input_raster(first_tile);
+  auto* mosaic = GDALDataset::FromHandle(vrt);
+  const int bands = std::min(mosaic->GetRasterCount(), tile->GetRasterCount());
+  for (int b = 1; b <= bands; ++b) {
+    GDALRasterBand* from = tile->GetRasterBand(b);
+    GDALRasterBand* to = mosaic->GetRasterBand(b);
+    to->SetDescription(from->GetDescription());
+    to->SetUnitType(from->GetUnitType());
+    if (char** names = from->GetCategoryNames()) to->SetCategoryNames(names);
+    if (to->GetColorTable() == nullptr && from->GetColorTable() != nullptr) to->SetColorTable(from->GetColorTable());
+    if (const GDALRasterAttributeTable* table = from->GetDefaultRAT()) to->SetDefaultRAT(table);
+  }
+}
+
+/// Removes the temporary file (and its .aux.xml) unless it was renamed into place.
 class TemporaryName {
  public:
   explicit TemporaryName(std::string final_path)
@@ -42,6 +63,7 @@ class TemporaryName {
     if (committed_) return;
     std::error_code ignored;
     std::filesystem::remove(temporary_, ignored);
+    std::filesystem::remove(temporary_ + ".aux.xml", ignored);
   }
   TemporaryName(const TemporaryName&) = delete;
   TemporaryName& operator=(const TemporaryName&) = delete;
@@ -51,6 +73,7 @@ class TemporaryName {
     std::filesystem::rename(temporary_, final_, ec);
     if (ec) throw IoError(final_ + ": cannot rename the finished file into place: " + ec.message());
     committed_ = true;
+    move_sidecar(temporary_, final_);
   }
 
  private:
@@ -76,6 +99,12 @@ void build_vrt(const std::string& vrt_path, const std::vector<std::string>& sour
   GDALDatasetH vrt = GDALBuildVRT(out.path().c_str(), static_cast<int>(names.size()), nullptr, names.data(),
                                   options.get(), &usage_error);
   if (!vrt) throw IoError(vrt_path + ": building the mosaic failed (" + gdal_reason() + ")");
+  try {
+    copy_band_labels(vrt, sources.front());
+  } catch (...) {
+    GDALClose(vrt);
+    throw;
+  }
   if (!close_checked(vrt)) throw IoError(vrt_path + ": writing the mosaic failed (" + gdal_reason() + ")");
   out.commit();
 }

@@ -364,17 +364,22 @@ void OutputRaster::commit() {
                               "program holds the file open."));
   }
   self.committed = true;
+  move_sidecar(self.temporary_path, self.spec.final_path);
+}
+
+void move_sidecar(const std::string& temporary_path, const std::string& final_path) {
   // The sidecar holds what GeoTIFF cannot (category names); one left by an earlier run would
   // override the new file's own information, so it goes when there is no new one.
-  const std::string sidecar = sidecar_of(self.temporary_path);
+  std::error_code error;
+  const std::string sidecar = sidecar_of(temporary_path);
   if (fs::exists(sidecar, error)) {
-    fs::rename(sidecar, sidecar_of(self.spec.final_path), error);
+    fs::rename(sidecar, sidecar_of(final_path), error);
   } else {
-    fs::remove(sidecar_of(self.spec.final_path), error);
+    fs::remove(sidecar_of(final_path), error);
   }
   if (error) {
-    throw IoError(located(sidecar_of(self.spec.final_path), 0,
-                          "cannot be updated (" + error.message() + "). Category names of " + self.spec.final_path +
+    throw IoError(located(sidecar_of(final_path), 0,
+                          "cannot be updated (" + error.message() + "). Category names of " + final_path +
                               " may be wrong; check permissions on the folder."));
   }
 }

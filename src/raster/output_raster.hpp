@@ -89,6 +89,11 @@ class OutputRaster {
 /// Temporary name used for `final_path`: ".<name>.<pid>.partial" in the same folder.
 std::string temporary_path_for(const std::string& final_path);
 
+/// After a raster was renamed from `temporary_path` to `final_path`: GDAL's .aux.xml sidecar
+/// (category names, attribute table) follows it, and a sidecar an earlier run left beside
+/// final_path goes when there is no new one. Throws IoError naming the sidecar.
+void move_sidecar(const std::string& temporary_path, const std::string& final_path);
+
 /// Deletes leftover "*.partial" files in `folder` for `final_names` whose writer process is gone
 /// (after a SIGKILL). Returns how many were removed.
 int remove_stale_partials(const std::string& folder, const std::vector<std::string>& final_names);

@@ -10,6 +10,7 @@
 #include <filesystem>
 #include <nlohmann/json.hpp>
 #include <string>
+#include <vector>
 
 #include "batch_test_scene.hpp"
 #include "raster/gdal_session.hpp"
@@ -45,6 +46,17 @@ struct MosaicRun {
   }
 };
 
+std::vector<std::string> category_names(GDALRasterBand& band) {
+  // GDAL 3.6's GeoTIFF driver reads the .aux.xml sidecar lazily, on the first georeferencing or
+  // metadata request (as gdalinfo and GIS software make on opening); category names alone do not
+  // trigger it, so ask for the geotransform first, as they do.
+  double transform[6];
+  if (band.GetDataset() != nullptr) band.GetDataset()->GetGeoTransform(transform);
+  std::vector<std::string> names;
+  for (char** n = band.GetCategoryNames(); n != nullptr && *n != nullptr; ++n) names.emplace_back(*n);
+  return names;
+}
+
 }  // namespace
 
 TEST_CASE("the VRT mosaic opens in GDAL on the whole grid and equals one prediction over it", "[batch]") {
@@ -69,7 +81,15 @@ TEST_CASE("the VRT mosaic opens in GDAL on the whole grid and equals one predict
       int has = 0;
       CHECK(v.ds->GetRasterBand(band)->GetNoDataValue(&has) == w.ds->GetRasterBand(band)->GetNoDataValue());
       CHECK(has);
+      // What GIS software shows beside the pixels: band names, flag names, colours.
+      CHECK(std::string(v.ds->GetRasterBand(band)->GetDescription()) == w.ds->GetRasterBand(band)->GetDescription());
+      CHECK(category_names(*v.ds->GetRasterBand(band)) == category_names(*w.ds->GetRasterBand(band)));
+      const GDALColorTable* vc = v.ds->GetRasterBand(band)->GetColorTable();
+      const GDALColorTable* wc = w.ds->GetRasterBand(band)->GetColorTable();
+      CHECK((vc == nullptr) == (wc == nullptr));
+      if (vc && wc) CHECK(vc->GetColorEntryCount() == wc->GetColorEntryCount());
     }
+    if (std::string(layer) == "extrapolation") CHECK(category_names(*v.ds->GetRasterBand(1)).size() > 1);
   }
 }
 
@@ -104,7 +124,14 @@ TEST_CASE("with --cog each layer is also a Cloud Optimized GeoTIFF holding the m
     // GDAL's COG driver tags its files so (GDAL documentation, COG driver: LAYOUT=COG).
     const char* layout = c.ds->GetMetadataItem("LAYOUT", "IMAGE_STRUCTURE");
     CHECK(std::string(layout ? layout : "") == "COG");
+    Opened v(m.s.out() + "/" + layer + ".vrt");
+    // Flag names travel in the COG's .aux.xml sidecar, which must follow it out of its temporary name.
+    CHECK(category_names(*c.ds->GetRasterBand(1)) == category_names(*v.ds->GetRasterBand(1)));
     CHECK(same_bits(habcast::test::read_band(cog), habcast::test::read_band(m.s.out() + "/" + layer + ".vrt")));
+  }
+  for (const auto& entry : fs::directory_iterator(m.s.out())) {
+    INFO(entry.path().string());
+    CHECK(entry.path().filename().string().find(".partial") == std::string::npos);
   }
 }
 
