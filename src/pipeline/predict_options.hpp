@@ -21,7 +21,7 @@ struct PredictOptions {
   bool overviews = false;
   bool overwrite = false;
   std::optional<double> max_extrapolated_percent;  ///< exit code 5 above this share of valid pixels
-  /// Lossy Float32 outputs: round to a power-of-two grid and store with LERC, |error| <= this.
+  /// Lossy Float32 outputs: round to a three-bit grid step <= 2 * this and store with LERC, |error| <= this.
   std::optional<double> max_error;
   NoveltyOptions novelty;             ///< which joint training-domain checks run, and their thresholds
   bool novelty_rasters = true;        ///< write novelty.tif and limiting.tif
