@@ -153,7 +153,9 @@ def contenders(habcast, floor, stack, out_root, args):
     }
     help_text = subprocess.run([str(habcast), "predict", "--help"], capture_output=True, text=True).stdout
     if args.domain_option.split()[0] in help_text:
-        # Every check (exact hull, pairwise hulls, NT2, MESS) feeding the same flag raster ...
+        # The issue's own case: the exact hull of the training sites (with the range check) ...
+        runs["habcast+hull"] = lambda out: base + ["-o", str(out), "--checks", "range,hull"]
+        # ... every check (exact hull, pairwise hulls, NT2, MESS) feeding the same flag raster ...
         runs["habcast+checks"] = lambda out: base + ["-o", str(out), *args.domain_option.split(),
                                                      "--no-novelty-rasters"]
         # ... and predict's defaults, which also write novelty.tif (3 Float32 bands) and limiting.tif.
@@ -205,6 +207,7 @@ def race(habcast, floor, stack, args):
     result["habcast_over_floor_input_copies"] = t["habcast"]["wall_s"] / t["floor (input copies)"]["wall_s"]
     result["peer_over_habcast"] = t["peer"]["wall_s"] / t["habcast"]["wall_s"]
     if "habcast+checks" in t:
+        result["hull_over_habcast"] = t["habcast+hull"]["wall_s"] / t["habcast"]["wall_s"]
         result["checks_over_habcast"] = t["habcast+checks"]["wall_s"] / t["habcast"]["wall_s"]
         result["default_over_habcast"] = t["habcast default"]["wall_s"] / t["habcast"]["wall_s"]
     if "habcast--max-error" in t:
@@ -249,7 +252,7 @@ def print_table(results):
         agree = r["peer_agreement"]
         print(f"{key:>10}   habcast/floor {r['habcast_over_floor']:.2f}   peer/habcast {r['peer_over_habcast']:.2f}"
               f"   peer agrees to {TOLERANCE:g}: {agree['agree']} (max |diff| {agree['max_abs_diff']})")
-        for extra in ("habcast_over_floor_input_copies", "checks_over_habcast", "default_over_habcast", "bytes_lossless_over_max_error", "time_lossless_over_max_error",
+        for extra in ("habcast_over_floor_input_copies", "hull_over_habcast", "checks_over_habcast", "default_over_habcast", "bytes_lossless_over_max_error", "time_lossless_over_max_error",
                       "time_lossless_over_read_only", "bytes_lossless_over_entropy_estimate"):
             if extra in r:
                 print(f"{key:>10}   {extra} {r[extra]:.2f}")
