@@ -19,6 +19,7 @@ void PredictionTally::merge(const PredictionTally& other) {
   unknown_level += other.unknown_level;
   undefined_term += other.undefined_term;
   not_representable += other.not_representable;
+  moved_off_nodata += other.moved_off_nodata;
   predicted += other.predicted;
   low_certainty += other.low_certainty;
   sum_response += other.sum_response;
@@ -42,6 +43,15 @@ bool representable(double v) {
 }
 
 float to_output(double v) { return representable(v) ? static_cast<float>(v) : kFloatNodata; }
+
+/// A computed value that lands exactly on the nodata marker (possible for an identity link, whose
+/// means and limits can take any value) would read as "no data"; it moves one Float32 step
+/// towards zero instead (a relative change of 6e-8), and is counted.
+float off_nodata(float v, std::int64_t& moved) {
+  if (v != kFloatNodata) return v;
+  ++moved;
+  return std::nextafter(kFloatNodata, 0.0f);
+}
 
 }  // namespace
 
@@ -90,7 +100,7 @@ void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutpu
       ++tally.not_representable;
       continue;
     }
-    out.suitability[o] = static_cast<float>(mu);
+    out.suitability[o] = off_nodata(static_cast<float>(mu), tally.moved_off_nodata);
     if (tally.predicted == 0) {
       tally.min_response = mu;
       tally.max_response = mu;
@@ -102,8 +112,9 @@ void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutpu
     tally.sum_response += mu;
     if (with_se) {
       out.se[o] = to_output(prediction_.se_mu[i]);
-      out.lower[o] = to_output(prediction_.lower[i]);
-      out.upper[o] = to_output(prediction_.upper[i]);
+      // Non-representable limits stay nodata; a finite limit equal to the marker moves off it.
+      out.lower[o] = representable(prediction_.lower[i]) ? off_nodata(static_cast<float>(prediction_.lower[i]), tally.moved_off_nodata) : kFloatNodata;
+      out.upper[o] = representable(prediction_.upper[i]) ? off_nodata(static_cast<float>(prediction_.upper[i]), tally.moved_off_nodata) : kFloatNodata;
       if (is_low_certainty(spec_.family, prediction_.lower[i], prediction_.upper[i])) ++tally.low_certainty;
     }
   }

@@ -26,6 +26,7 @@ struct PredictionTally {
   std::int64_t unknown_level = 0;      ///< categorical code not declared in the model
   std::int64_t undefined_term = 0;     ///< a term function undefined (log of <= 0, ...)
   std::int64_t not_representable = 0; ///< response beyond the Float32 range (written as nodata)
+  std::int64_t moved_off_nodata = 0;   ///< predicted values equal to the nodata marker, moved one Float32 step
   std::int64_t predicted = 0;          ///< pixels with a suitability value
   std::int64_t low_certainty = 0;      ///< predicted pixels whose interval is wide (see is_low_certainty)
   double sum_response = 0.0;

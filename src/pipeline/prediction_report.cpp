@@ -145,6 +145,11 @@ std::vector<std::string> prediction_warnings(const ReportContext& ctx) {
     out.push_back(format_percent(share(t.low_certainty, t.predicted)) + " of predicted pixels have " + what +
                   " (level " + format_value(ctx.level) + "); read them as uncertain, not as values (uncertainty.tif).");
   }
+  if (t.moved_off_nodata > 0) {
+    out.push_back(std::to_string(t.moved_off_nodata) + " predicted values (suitability or limits) equalled the nodata marker " +
+                  format_value(static_cast<double>(kFloatNodata)) +
+                  " and were stored one Float32 step towards zero, so they do not read as missing data.");
+  }
   const std::int64_t with_data = t.pixels - t.missing_input;
   const std::int64_t unpredicted = with_data - t.predicted;
   if (unpredicted > 0) {
@@ -224,7 +229,8 @@ nlohmann::ordered_json prediction_report(const ReportContext& ctx, const std::ve
                       {"unknown_level", t.unknown_level},
                       {"outside_transform", t.outside_transform},
                       {"undefined_term", t.undefined_term},
-                      {"not_representable", t.not_representable}};
+                      {"not_representable", t.not_representable},
+                      {"moved_off_nodata", t.moved_off_nodata}};
   if (t.predicted > 0)
     report["response"] = {{"mean", t.sum_response / static_cast<double>(t.predicted)},
                           {"min", t.min_response},

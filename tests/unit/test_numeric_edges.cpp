@@ -141,3 +141,27 @@ TEST_CASE("covariate values at the edge of float range give finite outputs or no
     }
   }
 }
+
+TEST_CASE("an identity-link prediction equal to the nodata marker is moved off it, not lost", "[numeric]") {
+  // eta = 0 + 1 * x with x = -9999 (not nodata in x.tif): the mean is exactly the outputs' nodata
+  // value. Stored as is it would read as "no data"; it must stay a prediction, one Float32 step
+  // towards zero (IEEE 754 nextafter), and be counted and reported.
+  TempDir dir{"on-nodata"};
+  const std::vector<double> xs{-9999.0, 0.0, 5.0};
+  habcast::test::write_raster(dir.file("x.tif"), GridSpec{3, 1}, "Float32",
+                              [&](int, int c) { return xs[static_cast<std::size_t>(c)]; });
+  habcast::test::write_text(dir.file("m.toml"),
+                            "habcast_model = 1\n[model]\nfamily = \"gaussian\"\nlink = \"identity\"\n"
+                            "[covariates.x]\nraster = \"x.tif\"\n[coefficients]\nterms = [\"(Intercept)\", \"x\"]\n"
+                            "estimates = [0.0, 1.0]\ncovariance = [[1e-4, 0.0], [0.0, 1e-4]]\n");
+  std::string err;
+  REQUIRE(habcast::test::run_cli({"predict", dir.file("m.toml"), "-o", dir.file("out")}, nullptr, &err) == 0);
+  const std::vector<double> mu = habcast::test::read_band(dir.file("out/suitability.tif"));
+  CHECK(mu[0] == static_cast<double>(std::nextafter(-9999.0f, 0.0f)));
+  CHECK(mu[1] == 0.0);
+  CHECK(mu[2] == 5.0);
+  const auto report = nlohmann::json::parse(habcast::test::read_text(dir.file("out/report.json")));
+  CHECK(report["pixels"]["predicted"].get<long long>() == 3);
+  CHECK(report["pixels"]["moved_off_nodata"].get<long long>() == 1);
+  CHECK_THAT(err, Contains("equalled the nodata marker"));
+}
