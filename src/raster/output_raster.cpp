@@ -264,9 +264,15 @@ void OutputRaster::Impl::flush_completed_blocks(const Window& window) {
     if (last_row(by) >= window.y + window.height) continue;
     for (int bx = window.x / block_width; bx <= (window.x + window.width - 1) / block_width; ++bx) {
       if (last_col(bx) >= window.x + window.width) continue;
-      // Band 1 first: for pixel-interleaved files its flush writes every band's part of the block.
+      // Band 1 first: for pixel-interleaved files its write covers every band's part of the block.
+      // Written, not dropped: the clean block stays in GDAL's cache, whose eviction then recycles
+      // its memory for a new block (dropping it would free and re-allocate 256 KiB per block).
       for (int band = 1; band <= dataset->GetRasterCount(); ++band) {
-        if (dataset->GetRasterBand(band)->FlushBlock(bx, by, TRUE) != CE_None) {
+        GDALRasterBlock* block = dataset->GetRasterBand(band)->TryGetLockedBlockRef(bx, by);
+        if (block == nullptr) continue;
+        const CPLErr written = block->GetDirty() ? block->Write() : CE_None;
+        block->DropLock();
+        if (written != CE_None) {
           throw IoError("writing block " + std::to_string(bx) + "," + std::to_string(by) + " of band " +
                         std::to_string(band) + " of " + describe() + " failed (" + gdal_reason() +
                         "). Check free disk space and permissions.");
