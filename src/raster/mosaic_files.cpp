@@ -41,6 +41,10 @@ bool close_checked(GDALDatasetH dataset) {
 /// which a VRT does not read), and its colour table where the VRT has none.
 void copy_band_labels(GDALDatasetH vrt, const std::string& first_tile) {
   DatasetPtr tile = open_input_raster(first_tile);
+  // GDAL 3.6's GeoTIFF driver reads the .aux.xml sidecar lazily, on the first georeferencing or
+  // metadata request; category names alone do not trigger it, so ask first.
+  double transform[6];
+  tile->GetGeoTransform(transform);
   auto* mosaic = GDALDataset::FromHandle(vrt);
   const int bands = std::min(mosaic->GetRasterCount(), tile->GetRasterCount());
   for (int b = 1; b <= bands; ++b) {
