@@ -53,6 +53,12 @@ float off_nodata(float v, std::int64_t& moved) {
   return std::nextafter(kFloatNodata, 0.0f);
 }
 
+/// A value for a Float32 output band that must never be mistaken for nodata: nodata where Float32
+/// cannot hold it, moved off the marker where it equals it.
+float to_output_off_nodata(double v, std::int64_t& moved) {
+  return representable(v) ? off_nodata(static_cast<float>(v), moved) : kFloatNodata;
+}
+
 }  // namespace
 
 void BlockPredictor::run(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows,
@@ -112,9 +118,8 @@ void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutpu
     tally.sum_response += mu;
     if (with_se) {
       out.se[o] = to_output(prediction_.se_mu[i]);
-      // Non-representable limits stay nodata; a finite limit equal to the marker moves off it.
-      out.lower[o] = representable(prediction_.lower[i]) ? off_nodata(static_cast<float>(prediction_.lower[i]), tally.moved_off_nodata) : kFloatNodata;
-      out.upper[o] = representable(prediction_.upper[i]) ? off_nodata(static_cast<float>(prediction_.upper[i]), tally.moved_off_nodata) : kFloatNodata;
+      out.lower[o] = to_output_off_nodata(prediction_.lower[i], tally.moved_off_nodata);
+      out.upper[o] = to_output_off_nodata(prediction_.upper[i], tally.moved_off_nodata);
       if (is_low_certainty(spec_.family, prediction_.lower[i], prediction_.upper[i])) ++tally.low_certainty;
     }
   }
