@@ -67,7 +67,7 @@ class TemporaryName {
     if (committed_) return;
     std::error_code ignored;
     std::filesystem::remove(temporary_, ignored);
-    std::filesystem::remove(temporary_ + ".aux.xml", ignored);
+    std::filesystem::remove(sidecar_of(temporary_), ignored);
   }
   TemporaryName(const TemporaryName&) = delete;
   TemporaryName& operator=(const TemporaryName&) = delete;

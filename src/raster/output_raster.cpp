@@ -24,8 +24,6 @@ namespace {
 
 namespace fs = std::filesystem;
 
-std::string sidecar_of(const std::string& path) { return path + ".aux.xml"; }
-
 std::string window_text(const Window& window) {
   return "window at column " + std::to_string(window.x) + ", row " + std::to_string(window.y) + " (" +
          std::to_string(window.width) + " x " + std::to_string(window.height) + " pixels)";
@@ -372,6 +370,8 @@ void OutputRaster::commit() {
   self.committed = true;
   move_sidecar(self.temporary_path, self.spec.final_path);
 }
+
+std::string sidecar_of(const std::string& path) { return path + ".aux.xml"; }
 
 void move_sidecar(const std::string& temporary_path, const std::string& final_path) {
   // The sidecar holds what GeoTIFF cannot (category names); one left by an earlier run would

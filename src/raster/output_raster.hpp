@@ -89,6 +89,9 @@ class OutputRaster {
 /// Temporary name used for `final_path`: ".<name>.<pid>.partial" in the same folder.
 std::string temporary_path_for(const std::string& final_path);
 
+/// GDAL's .aux.xml sidecar of a raster file (category names, attribute table).
+std::string sidecar_of(const std::string& path);
+
 /// After a raster was renamed from `temporary_path` to `final_path`: GDAL's .aux.xml sidecar
 /// (category names, attribute table) follows it, and a sidecar an earlier run left beside
 /// final_path goes when there is no new one. Throws IoError naming the sidecar.
