@@ -20,7 +20,7 @@
 #include <string>
 #include <vector>
 
-#include "pipeline/predict_run.hpp"
+#include "predict/predict_run.hpp"
 #include "raster/gdal_session.hpp"
 
 namespace {

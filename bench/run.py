@@ -158,7 +158,7 @@ def contenders(habcast, floor, stack, out_root, args):
         # ... every check (exact hull, pairwise hulls, NT2, MESS) feeding the same flag raster ...
         runs["habcast+checks"] = lambda out: base + ["-o", str(out), *args.domain_option.split(),
                                                      "--no-novelty-rasters"]
-        # ... and predict's defaults, which also write novelty.tif (3 Float32 bands) and limiting.tif.
+        # ... and predict's defaults, which also write novelty.tif (3 Float32 bands) and least_similar.tif.
         runs["habcast default"] = lambda out: base + ["-o", str(out)]
     if "--max-error" in help_text:
         runs["habcast--max-error"] = lambda out: base + ["-o", str(out), *same_outputs, "--max-error", f"{MAX_ERROR:g}"]

@@ -5,7 +5,7 @@
 #include <string>
 
 #include "batch/manifest.hpp"
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   const std::string text(reinterpret_cast<const char*>(data), size);

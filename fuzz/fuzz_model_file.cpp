@@ -4,9 +4,9 @@
 #include <cstdint>
 #include <string>
 
-#include "core/error.hpp"
-#include "core/model_file.hpp"
-#include "core/term_plan.hpp"
+#include "core/base/error.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/term_plan.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   const std::string text(reinterpret_cast<const char*>(data), size);

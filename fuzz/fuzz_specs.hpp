@@ -1,7 +1,7 @@
 #pragma once
 // The fixed model the term and training-table fuzzers parse against: it has every kind of
 // covariate the parsers distinguish (continuous, with a transform, categorical with levels).
-#include "core/model_spec.hpp"
+#include "core/model/model_spec.hpp"
 
 namespace habcast::fuzz {
 

@@ -5,8 +5,8 @@
 #include <cstdint>
 #include <string>
 
-#include "core/error.hpp"
-#include "core/term_syntax.hpp"
+#include "core/base/error.hpp"
+#include "core/model/term_syntax.hpp"
 #include "fuzz_specs.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {

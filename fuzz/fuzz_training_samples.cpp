@@ -4,9 +4,9 @@
 #include <cstdint>
 #include <string>
 
-#include "core/error.hpp"
-#include "core/training_domain.hpp"
-#include "core/training_samples.hpp"
+#include "core/base/error.hpp"
+#include "core/domain/training_domain.hpp"
+#include "core/domain/training_samples.hpp"
 #include "fuzz_specs.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {

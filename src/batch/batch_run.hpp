@@ -7,7 +7,7 @@
 #include <vector>
 
 #include "batch/shard.hpp"
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "pipeline/progress.hpp"
 
 namespace habcast {

@@ -4,7 +4,7 @@
 #include <fstream>
 #include <vector>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 
 namespace habcast {
 

@@ -9,8 +9,8 @@
 #include <sstream>
 #include <toml++/toml.h>
 
-#include "core/error.hpp"
-#include "core/toml_table_reader.hpp"
+#include "core/base/error.hpp"
+#include "core/base/toml_table_reader.hpp"
 
 namespace habcast {
 

@@ -3,7 +3,7 @@
 #include <filesystem>
 #include <map>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/mosaic_files.hpp"
 #include "raster/output_raster.hpp"
 

@@ -5,9 +5,9 @@
 #include <filesystem>
 #include <map>
 
-#include "core/extrapolation_flags.hpp"
-#include "core/number_text.hpp"
-#include "core/utc_time.hpp"
+#include "core/base/number_text.hpp"
+#include "core/base/utc_time.hpp"
+#include "core/domain/extrapolation_flags.hpp"
 #include "pipeline/atomic_file.hpp"
 
 namespace habcast {

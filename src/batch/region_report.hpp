@@ -7,7 +7,7 @@
 #include <string>
 #include <vector>
 
-#include "core/model_spec.hpp"
+#include "core/model/model_spec.hpp"
 
 namespace habcast {
 

@@ -2,7 +2,7 @@
 
 #include <charconv>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 
 namespace habcast {
 

@@ -6,7 +6,7 @@
 #include <regex>
 #include <set>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 
 namespace habcast {
 

@@ -6,7 +6,7 @@
 #include <vector>
 
 #include "batch/manifest.hpp"
-#include "core/model_spec.hpp"
+#include "core/model/model_spec.hpp"
 
 namespace habcast {
 

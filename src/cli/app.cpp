@@ -6,7 +6,7 @@
 #include <ostream>
 
 #include "cli/commands.hpp"
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 
 namespace habcast::cli {
 

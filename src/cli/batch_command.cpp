@@ -6,7 +6,7 @@
 
 #include "batch/batch_run.hpp"
 #include "cli/commands.hpp"
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "pipeline/stop_signal.hpp"
 
 namespace habcast::cli {

@@ -1,6 +1,6 @@
 #include "cli/commands.hpp"
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 
 namespace habcast::cli {
 

@@ -3,8 +3,8 @@
 #include <cmath>
 
 #include "cli/describe_values.hpp"
-#include "core/link.hpp"
-#include "core/model_values.hpp"
+#include "core/model/link.hpp"
+#include "core/model/model_values.hpp"
 
 namespace habcast::cli {
 

@@ -5,8 +5,8 @@
 #include <string>
 #include <vector>
 
-#include "core/model_spec.hpp"
-#include "core/niche_description.hpp"
+#include "core/model/model_spec.hpp"
+#include "core/niche/niche_description.hpp"
 
 namespace habcast::cli {
 

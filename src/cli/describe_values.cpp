@@ -3,8 +3,8 @@
 #include <cmath>
 #include <cstdio>
 
-#include "core/model_values.hpp"
-#include "core/number_text.hpp"
+#include "core/base/number_text.hpp"
+#include "core/model/model_values.hpp"
 
 namespace habcast::cli {
 

@@ -4,8 +4,8 @@
 #include <optional>
 #include <string>
 
-#include "core/model_spec.hpp"
-#include "core/niche_description.hpp"
+#include "core/model/model_spec.hpp"
+#include "core/niche/niche_description.hpp"
 
 namespace habcast::cli {
 

@@ -5,8 +5,8 @@
 #include <memory>
 
 #include "cli/commands.hpp"
-#include "core/error.hpp"
-#include "pipeline/evaluate_run.hpp"
+#include "core/base/error.hpp"
+#include "evaluate/evaluate_run.hpp"
 #include "pipeline/stop_signal.hpp"
 
 namespace habcast::cli {

@@ -5,8 +5,8 @@
 #include <memory>
 
 #include "cli/commands.hpp"
-#include "core/error.hpp"
-#include "pipeline/fit_run.hpp"
+#include "core/base/error.hpp"
+#include "fit/fit_run.hpp"
 
 namespace habcast::cli {
 

@@ -5,10 +5,10 @@
 #include <memory>
 
 #include "cli/commands.hpp"
-#include "core/error.hpp"
-#include "pipeline/predict_run.hpp"
-#include "pipeline/prediction_report.hpp"
+#include "core/base/error.hpp"
 #include "pipeline/stop_signal.hpp"
+#include "predict/predict_run.hpp"
+#include "predict/prediction_report.hpp"
 
 namespace habcast::cli {
 
@@ -24,7 +24,7 @@ constexpr const char* kPredictHelp =
     "                     training, 8 = in range but NT2 > threshold, 16 = in range but outside the\n"
     "                     2-D hull of two covariates that share a term; 255 = no data (legend included)\n"
     "  novelty.tif        Float32, 3 bands: MESS similarity (%), NT1, NT2 ratio\n"
-    "  limiting.tif       UInt8, the covariate with the smallest similarity (attribute table names it)\n"
+    "  least_similar.tif  UInt8, the covariate with the lowest similarity (attribute table names it)\n"
     "  report.json        counts, shares and areas per cause and covariate, warnings, timing\n"
     "Joint checks run on the model values (after transform and standardisation) of the continuous\n"
     "covariates the model uses; see docs/extrapolation-flags.md.\n"
@@ -148,7 +148,7 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--checks", args->checks,
                   "Training-domain checks, comma-separated, from: range (always on: bits 1 and 4),\n"
                   "hull (bit 2), pairs (bit 16), nt2 (bit 8, novelty band 3), mess (MESS and NT1,\n"
-                  "novelty bands 1-2, limiting.tif). Default: all")
+                  "novelty bands 1-2, least_similar.tif). Default: all")
       ->delimiter(',')
       ->check(CLI::IsMember({"range", "hull", "pairs", "nt2", "mess"}))
       ->default_str("range,hull,pairs,nt2,mess");
@@ -163,7 +163,7 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
                   "stand in (Qhull's facets grow like n^(d/2): ~23,000 for 2,000 samples in 6-D)")
       ->default_val(6);
   cmd->add_flag("--no-novelty-rasters", args->no_novelty_rasters,
-                "Do not write novelty.tif and limiting.tif (the flags and report still use the checks)");
+                "Do not write novelty.tif and least_similar.tif (the flags and report still use the checks)");
   cmd->add_flag("-q,--quiet", args->quiet, "No progress bar and no summary; warnings still go to stderr");
   cmd->add_option("--log-format", args->log_format,
                   "text (default) or json: JSON lines of progress and warnings on stderr, report on stdout")

@@ -4,7 +4,7 @@
 #include <fstream>
 #include <system_error>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/output_raster.hpp"
 
 namespace habcast {

@@ -2,7 +2,7 @@
 
 #include <filesystem>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 
 namespace habcast {
 

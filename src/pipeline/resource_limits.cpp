@@ -3,8 +3,8 @@
 #include <algorithm>
 #include <cstdio>
 
-#include "core/block_predictor.hpp"
-#include "core/error.hpp"
+#include "core/base/error.hpp"
+#include "core/prediction/block_predictor.hpp"
 
 namespace habcast {
 

@@ -3,7 +3,7 @@
 #include <atomic>
 #include <csignal>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 
 namespace habcast {
 

@@ -5,7 +5,7 @@
 #include <stdexcept>
 #include <vector>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 

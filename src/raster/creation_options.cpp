@@ -3,7 +3,7 @@
 #include <algorithm>
 #include <cctype>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 
 namespace habcast {
 namespace {

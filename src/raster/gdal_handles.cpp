@@ -6,7 +6,7 @@
 #include <cstdint>
 #include <limits>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/gdal_session.hpp"
 
 namespace habcast {

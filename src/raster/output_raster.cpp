@@ -13,8 +13,8 @@
 #include <sstream>
 #include <stdexcept>
 
-#include "core/error.hpp"
-#include "core/number_text.hpp"
+#include "core/base/error.hpp"
+#include "core/base/number_text.hpp"
 #include "raster/creation_options.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"

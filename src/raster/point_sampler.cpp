@@ -6,7 +6,7 @@
 #include <cmath>
 #include <limits>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/covariate_reader.hpp"
 #include "raster/gdal_handles.hpp"
 

@@ -11,8 +11,8 @@
 #include <limits>
 #include <memory>
 
-#include "core/csv_table.hpp"
-#include "core/error.hpp"
+#include "core/base/csv_table.hpp"
+#include "core/base/error.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 

@@ -5,7 +5,7 @@
 #include <cmath>
 #include <limits>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 

@@ -8,8 +8,8 @@
 #include <memory>
 #include <sstream>
 
-#include "core/error.hpp"
-#include "core/number_text.hpp"
+#include "core/base/error.hpp"
+#include "core/base/number_text.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 

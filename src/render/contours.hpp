@@ -6,7 +6,7 @@
 #include <Eigen/Core>
 #include <vector>
 
-#include "core/convex_hull_2d.hpp"
+#include "core/numeric/convex_hull_2d.hpp"
 
 namespace habcast {
 

@@ -6,9 +6,9 @@
 #include <limits>
 #include <stdexcept>
 
-#include "core/link.hpp"
-#include "core/model_values.hpp"
-#include "core/number_text.hpp"
+#include "core/base/number_text.hpp"
+#include "core/model/link.hpp"
+#include "core/model/model_values.hpp"
 
 namespace habcast {
 

@@ -9,9 +9,9 @@
 #include <utility>
 #include <vector>
 
-#include "core/convex_hull_2d.hpp"
-#include "core/model_spec.hpp"
-#include "core/niche_description.hpp"
+#include "core/model/model_spec.hpp"
+#include "core/niche/niche_description.hpp"
+#include "core/numeric/convex_hull_2d.hpp"
 #include "render/contours.hpp"
 
 namespace habcast {

@@ -6,7 +6,7 @@
 #include <cmath>
 #include <cstdio>
 
-#include "core/number_text.hpp"
+#include "core/base/number_text.hpp"
 #include "render/canvas.hpp"
 #include "render/niche_plot_frame.hpp"
 #include "render/png_writer.hpp"

@@ -4,7 +4,7 @@
 #include <cmath>
 #include <cstdio>
 
-#include "core/number_text.hpp"
+#include "core/base/number_text.hpp"
 #include "render/colour_ramp.hpp"
 #include "render/niche_plot.hpp"
 #include "render/niche_plot_frame.hpp"

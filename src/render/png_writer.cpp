@@ -6,7 +6,7 @@
 #include <filesystem>
 #include <memory>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 

@@ -9,8 +9,8 @@
 #include <limits>
 #include <vector>
 
-#include "core/error.hpp"
-#include "core/number_text.hpp"
+#include "core/base/error.hpp"
+#include "core/base/number_text.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/raster_grid.hpp"

@@ -5,7 +5,7 @@
 #include <utility>
 #include <vector>
 
-#include "core/convex_hull_2d.hpp"
+#include "core/numeric/convex_hull_2d.hpp"
 
 namespace habcast {
 

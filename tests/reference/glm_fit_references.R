@@ -1,4 +1,4 @@
-# Reference fits for habcast's IRLS (src/core/irls.cpp), computed with R's stats::glm on open data
+# Reference fits for habcast's IRLS (src/core/stats/irls.cpp), computed with R's stats::glm on open data
 # shipped by Debian packages: r-base-core (datasets: warpbreaks, cars), r-cran-mass (birthwt) and
 # r-cran-vegan (mite, mite.env).
 #

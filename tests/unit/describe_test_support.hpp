@@ -10,8 +10,8 @@
 #include <string>
 #include <vector>
 
-#include "core/model_file.hpp"
-#include "core/model_spec.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/model_spec.hpp"
 #include "test_support.hpp"
 
 namespace habcast::test {

@@ -6,11 +6,11 @@
 #include <string>
 #include <vector>
 
-#include "core/csv_table.hpp"
-#include "core/design_matrix.hpp"
-#include "core/formula.hpp"
-#include "core/irls.hpp"
-#include "core/model_spec.hpp"
+#include "core/base/csv_table.hpp"
+#include "core/model/design_matrix.hpp"
+#include "core/model/formula.hpp"
+#include "core/model/model_spec.hpp"
+#include "core/stats/irls.hpp"
 
 namespace habcast::test {
 

@@ -7,8 +7,8 @@
 #include "batch/manifest.hpp"
 #include "batch/tile_list.hpp"
 #include "batch_test_scene.hpp"
-#include "core/error.hpp"
-#include "core/model_file.hpp"
+#include "core/base/error.hpp"
+#include "core/model/model_file.hpp"
 
 namespace {
 

@@ -14,7 +14,7 @@
 
 #include "batch/batch_run.hpp"
 #include "batch_test_scene.hpp"
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "pipeline/stop_signal.hpp"
 
 namespace {

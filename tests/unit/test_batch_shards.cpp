@@ -7,7 +7,7 @@
 
 #include "batch/shard.hpp"
 #include "batch_test_scene.hpp"
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 
 using Catch::Matchers::Contains;
 

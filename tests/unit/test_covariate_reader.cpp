@@ -6,7 +6,7 @@
 #include <string>
 #include <vector>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/covariate_reader.hpp"
 #include "raster_test_support.hpp"
 

@@ -4,14 +4,14 @@
 #include <Eigen/LU>
 #include <cmath>
 
-#include "core/canonical_analysis.hpp"
-#include "core/link.hpp"
-#include "core/model_file.hpp"
-#include "core/model_values.hpp"
-#include "core/niche_description.hpp"
-#include "core/quadratic_form.hpp"
-#include "core/term_plan.hpp"
-#include "core/training_samples.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/model/link.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/model_values.hpp"
+#include "core/model/term_plan.hpp"
+#include "core/niche/canonical_analysis.hpp"
+#include "core/niche/niche_description.hpp"
+#include "core/niche/quadratic_form.hpp"
 #include "describe_test_support.hpp"
 
 namespace habcast {

@@ -3,7 +3,7 @@
 #include <cmath>
 #include <limits>
 
-#include "core/convex_hull_2d.hpp"
+#include "core/numeric/convex_hull_2d.hpp"
 
 namespace habcast {
 namespace {

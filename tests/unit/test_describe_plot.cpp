@@ -3,10 +3,10 @@
 #include <cmath>
 #include <set>
 
-#include "core/model_file.hpp"
-#include "core/niche_description.hpp"
-#include "core/term_plan.hpp"
-#include "core/training_samples.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/term_plan.hpp"
+#include "core/niche/niche_description.hpp"
 #include "describe_test_support.hpp"
 #include "render/colour_ramp.hpp"
 #include "render/contours.hpp"

@@ -8,14 +8,14 @@
 #include <string>
 #include <vector>
 
-#include "core/extrapolation_flags.hpp"
-#include "core/model_file.hpp"
-#include "core/novelty_indices.hpp"
-#include "core/novelty_model.hpp"
-#include "core/term_plan.hpp"
-#include "core/training_domain.hpp"
-#include "core/training_samples.hpp"
-#include "core/whitening_frame.hpp"
+#include "core/domain/extrapolation_flags.hpp"
+#include "core/domain/novelty_indices.hpp"
+#include "core/domain/novelty_model.hpp"
+#include "core/domain/training_domain.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/term_plan.hpp"
+#include "core/numeric/whitening_frame.hpp"
 #include "test_support.hpp"
 
 using Catch::Matchers::WithinAbs;
@@ -66,11 +66,11 @@ TEST_CASE("NT2 is the Mahalanobis distance over the largest training distance", 
 namespace {
 struct ReferenceRow {
   double mess, nt1, nt2;
-  std::string limiting;
+  std::string least_similar;
 };
 }  // namespace
 
-TEST_CASE("MESS, NT1, NT2 and the limiting covariate agree with an independent R computation", "[domain]") {
+TEST_CASE("MESS, NT1, NT2 and the least_similar covariate agree with an independent R computation", "[domain]") {
   // tests/reference/mite_novelty.R: base R from the papers' formulas, on the mite training cores
   // in the model's standardised space. novelty.csv has the model's covariate columns, so the
   // training-table reader parses its query points.
@@ -112,7 +112,7 @@ TEST_CASE("MESS, NT1, NT2 and the limiting covariate agree with an independent R
     CHECK_THAT(out.mess[i], WithinAbs(expected[i].mess, 1e-5 * (1 + std::fabs(expected[i].mess))));
     CHECK_THAT(out.nt1[i], WithinAbs(expected[i].nt1, 1e-7 * (1 + std::fabs(expected[i].nt1))));
     CHECK_THAT(out.nt2[i], WithinAbs(expected[i].nt2, 1e-6));
-    CHECK(spec.covariates[out.limiting[i] - 1u].name == expected[i].limiting);
+    CHECK(spec.covariates[out.least_similar[i] - 1u].name == expected[i].least_similar);
   }
 }
 

@@ -8,12 +8,12 @@
 #include <random>
 #include <vector>
 
-#include "core/model_file.hpp"
-#include "core/novelty_model.hpp"
-#include "core/term_plan.hpp"
-#include "core/training_hull.hpp"
-#include "core/training_samples.hpp"
-#include "core/whitening_frame.hpp"
+#include "core/domain/novelty_model.hpp"
+#include "core/domain/training_hull.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/term_plan.hpp"
+#include "core/numeric/whitening_frame.hpp"
 #include "test_support.hpp"
 
 namespace {

@@ -103,25 +103,25 @@ TEST_CASE("hull and pair flags are exact where the hull boundary crosses the ras
                                                                  "report.json", "suitability.tif"});
 }
 
-TEST_CASE("novelty.tif and limiting.tif hold MESS, NT1, NT2 and the least similar covariate", "[domain][raster]") {
+TEST_CASE("novelty.tif and least_similar.tif hold MESS, NT1, NT2 and the least similar covariate", "[domain][raster]") {
   Scene s;
   const std::string out = s.dir.file("out");
   REQUIRE(habcast::test::run_cli({"predict", s.model, "-o", out, "-q", "--threads", "2"}) == 0);
   const std::string novelty = out + "/novelty.tif";
-  const std::string limiting = out + "/limiting.tif";
+  const std::string least_similar = out + "/least_similar.tif";
 
   // MESS by hand (Elith et al. 2010): training tmin and precip are both {0, 0, 1, 4}.
   // (row 4, col 8): tmin 2, f = 75 -> 2 x 25 = 50; precip 1, f = 50 -> 100. MESS 50, tmin limits.
   CHECK(habcast::test::read_pixel(novelty, 1, 4, 8) == Approx(50.0).margin(1e-4));
   CHECK(habcast::test::read_pixel(novelty, 2, 4, 8) == 0.0);
-  CHECK(habcast::test::read_pixel(limiting, 1, 4, 8) == 1.0);
+  CHECK(habcast::test::read_pixel(least_similar, 1, 4, 8) == 1.0);
   // (row 0, col 20): tmin 5 above the maximum 4: f = 100 -> 100 (4 - 5) / 4 = -25; precip 0 at its
   // minimum: 0. MESS -25; NT1 (Mesgaran et al. 2014) = (4 - 5) / 4 = -0.25.
   CHECK(habcast::test::read_pixel(novelty, 1, 0, 20) == Approx(-25.0).margin(1e-4));
   CHECK(habcast::test::read_pixel(novelty, 2, 0, 20) == Approx(-0.25).margin(1e-7));
-  CHECK(habcast::test::read_pixel(limiting, 1, 0, 20) == 1.0);
+  CHECK(habcast::test::read_pixel(least_similar, 1, 0, 20) == 1.0);
   // (row 18, col 2): precip 4.5 above 4: precip limits.
-  CHECK(habcast::test::read_pixel(limiting, 1, 18, 2) == 2.0);
+  CHECK(habcast::test::read_pixel(least_similar, 1, 18, 2) == 2.0);
 
   // NT2 at every pixel against the direct computation, and flag 8 exactly where NT2 > 1 in range.
   const DirectNt2 nt2;
@@ -142,7 +142,7 @@ TEST_CASE("novelty.tif and limiting.tif hold MESS, NT1, NT2 and the least simila
 
   // The attribute table and category names name the covariates.
   habcast::ensure_gdal();
-  GDALDataset* ds = GDALDataset::Open(limiting.c_str(), GDAL_OF_RASTER | GDAL_OF_READONLY);
+  GDALDataset* ds = GDALDataset::Open(least_similar.c_str(), GDAL_OF_RASTER | GDAL_OF_READONLY);
   REQUIRE(ds != nullptr);
   const GDALRasterAttributeTable* rat = ds->GetRasterBand(1)->GetDefaultRAT();
   REQUIRE(rat != nullptr);

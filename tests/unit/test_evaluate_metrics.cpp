@@ -3,10 +3,10 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 
-#include "core/boyce_index.hpp"
-#include "core/calibration.hpp"
-#include "core/discrimination.hpp"
-#include "core/error.hpp"
+#include "core/base/error.hpp"
+#include "core/stats/boyce_index.hpp"
+#include "core/stats/calibration.hpp"
+#include "core/stats/discrimination.hpp"
 
 using namespace habcast;
 

@@ -2,8 +2,8 @@
 // to do, never with a silently wrong model file.
 #include <catch2/catch.hpp>
 
-#include "core/error.hpp"
-#include "core/formula.hpp"
+#include "core/base/error.hpp"
+#include "core/model/formula.hpp"
 #include "fit_reference_support.hpp"
 
 using namespace habcast;

@@ -3,8 +3,8 @@
 #include <catch2/catch.hpp>
 #include <filesystem>
 
-#include "core/model_file.hpp"
-#include "core/training_samples.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/model/model_file.hpp"
 #include "test_support.hpp"
 
 using namespace habcast;

@@ -5,11 +5,11 @@
 #include <cstdlib>
 #include <filesystem>
 
-#include "core/csv_table.hpp"
-#include "core/design_matrix.hpp"
-#include "core/evaluator.hpp"
-#include "core/model_file.hpp"
-#include "core/training_samples.hpp"
+#include "core/base/csv_table.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/model/design_matrix.hpp"
+#include "core/model/evaluator.hpp"
+#include "core/model/model_file.hpp"
 #include "test_support.hpp"
 
 using namespace habcast;

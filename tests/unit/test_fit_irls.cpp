@@ -3,7 +3,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 
-#include "core/coefficient_table.hpp"
+#include "core/stats/coefficient_table.hpp"
 #include "fit_reference_support.hpp"
 
 using namespace habcast;

@@ -4,9 +4,9 @@
 #include <fstream>
 #include <limits>
 
-#include "core/error.hpp"
-#include "core/model_file.hpp"
-#include "core/model_writer.hpp"
+#include "core/base/error.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/model_writer.hpp"
 #include "fit_reference_support.hpp"
 
 using namespace habcast;

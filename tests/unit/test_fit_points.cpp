@@ -5,7 +5,7 @@
 
 #include <ogrsf_frmts.h>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/point_sampler.hpp"
 #include "raster/point_source.hpp"
 #include "raster/point_transform.hpp"

@@ -6,12 +6,12 @@
 #include <string>
 #include <vector>
 
-#include "core/error.hpp"
-#include "core/term_syntax.hpp"
-#include "core/model_values.hpp"
-#include "core/term_plan.hpp"
-#include "core/training_domain.hpp"
-#include "core/training_samples.hpp"
+#include "core/base/error.hpp"
+#include "core/domain/training_domain.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/model/model_values.hpp"
+#include "core/model/term_plan.hpp"
+#include "core/model/term_syntax.hpp"
 
 namespace {
 

@@ -4,7 +4,7 @@
 #include <string>
 #include <vector>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/raster_grid.hpp"
 #include "raster_test_support.hpp"
 

@@ -5,8 +5,8 @@
 #include <limits>
 #include <vector>
 
-#include "core/link.hpp"
-#include "core/normal_distribution.hpp"
+#include "core/model/link.hpp"
+#include "core/numeric/normal_distribution.hpp"
 
 using habcast::Link;
 using Catch::Matchers::WithinRel;

@@ -1,7 +1,7 @@
 // The low-certainty rule behind the plain warning (common practice, no source: see docs/report.md).
 #include <catch2/catch.hpp>
 
-#include "core/block_predictor.hpp"
+#include "core/prediction/block_predictor.hpp"
 
 TEST_CASE("wide intervals are called low certainty", "[predict]") {
   using habcast::Family;

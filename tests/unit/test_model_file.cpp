@@ -3,9 +3,9 @@
 #include <catch2/catch.hpp>
 #include <string>
 
-#include "core/error.hpp"
-#include "core/model_file.hpp"
-#include "core/term_plan.hpp"
+#include "core/base/error.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/term_plan.hpp"
 
 namespace {
 

@@ -8,8 +8,8 @@
 #include <string>
 #include <vector>
 
-#include "core/error.hpp"
-#include "core/model_file.hpp"
+#include "core/base/error.hpp"
+#include "core/model/model_file.hpp"
 #include "test_support.hpp"
 
 namespace {

@@ -8,7 +8,7 @@
 #include <filesystem>
 #include <string>
 
-#include "core/output_precision.hpp"
+#include "core/model/output_precision.hpp"
 #include "test_support.hpp"
 
 namespace {

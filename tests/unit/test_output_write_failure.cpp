@@ -13,7 +13,7 @@
 #include <string>
 #include <vector>
 
-#include "core/error.hpp"
+#include "core/base/error.hpp"
 #include "raster/output_raster.hpp"
 #include "raster_test_support.hpp"
 

@@ -167,7 +167,7 @@ TEST_CASE("predict reproduces a rotated elliptical niche pixel by pixel", "[pred
 TEST_CASE("outputs are bit-identical for any number of threads", "[predict][determinism]") {
   Scene scene;
   const std::vector<std::string> files{"suitability.tif", "uncertainty.tif", "extrapolation.tif", "novelty.tif",
-                                       "limiting.tif"};
+                                       "least_similar.tif"};
   std::vector<std::vector<double>> first;
   std::map<std::string, std::vector<std::string>> first_bytes;  // per window size
   // Output blocks of 16 x 16 (12 per band) so that block order matters; windows of 16 match them,

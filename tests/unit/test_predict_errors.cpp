@@ -6,9 +6,9 @@
 #include <sstream>
 #include <string>
 
-#include "core/error.hpp"
-#include "pipeline/predict_run.hpp"
+#include "core/base/error.hpp"
 #include "pipeline/stop_signal.hpp"
+#include "predict/predict_run.hpp"
 #include "test_support.hpp"
 
 namespace {
@@ -56,7 +56,7 @@ TEST_CASE("a valid poisson model with unknown category codes predicts and flags"
   // No covariance in the model: no uncertainty raster, and the tool says so.
   CHECK_THAT(err, Contains("no covariance matrix"));
   CHECK(habcast::test::list_dir(s.out) ==
-        std::vector<std::string>{"extrapolation.tif", "extrapolation.tif.aux.xml", "limiting.tif", "limiting.tif.aux.xml",
+        std::vector<std::string>{"extrapolation.tif", "extrapolation.tif.aux.xml", "least_similar.tif", "least_similar.tif.aux.xml",
                                  "novelty.tif", "report.json", "suitability.tif"});
   // Column 39 has code 3: flagged as an unseen level, no prediction.
   CHECK(habcast::test::read_pixel(s.out + "/extrapolation.tif", 1, 0, 39) == 4.0);

@@ -142,7 +142,7 @@ TEST_CASE("a disk that fills during predict gives exit code 4 and keeps the earl
   const std::string out = s.dir.file("out");
   REQUIRE(habcast::test::run_cli({"predict", s.model, "-o", out, "-q"}) == 0);
   const auto before = contents(out);
-  // suitability, uncertainty, extrapolation (+ .aux.xml), novelty, limiting (+ .aux.xml), report.json
+  // suitability, uncertainty, extrapolation (+ .aux.xml), novelty, least_similar (+ .aux.xml), report.json
   REQUIRE(before.size() == 8);
 
   // Uncompressed, suitability alone is 300 * 300 * 4 bytes: it cannot fit under 64 KiB.

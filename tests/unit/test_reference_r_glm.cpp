@@ -9,11 +9,11 @@
 #include <string>
 #include <vector>
 
-#include "core/evaluator.hpp"
-#include "core/link.hpp"
-#include "core/model_file.hpp"
-#include "core/model_values.hpp"
-#include "core/term_plan.hpp"
+#include "core/model/evaluator.hpp"
+#include "core/model/link.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/model_values.hpp"
+#include "core/model/term_plan.hpp"
 #include "test_support.hpp"
 
 namespace {

@@ -3,8 +3,8 @@
 #include <catch2/catch.hpp>
 #include <string>
 
-#include "core/error.hpp"
-#include "core/model_file.hpp"
+#include "core/base/error.hpp"
+#include "core/model/model_file.hpp"
 #include "pipeline/resource_limits.hpp"
 #include "test_support.hpp"
 

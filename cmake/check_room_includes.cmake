@@ -1,0 +1,32 @@
+# Run as `cmake -DSOURCE_DIR=<top> -P check_room_includes.cmake`: fails, naming file and line,
+# when a source file in one room of src/ includes a header of a room it may not use
+# (cmake/room_rules.cmake). Also fails for a file in a folder that is no room, so a new folder
+# must be given its place in the rules before it builds.
+cmake_minimum_required(VERSION 3.22)
+include(${CMAKE_CURRENT_LIST_DIR}/room_rules.cmake)
+file(GLOB_RECURSE sources RELATIVE ${SOURCE_DIR}/src ${SOURCE_DIR}/src/*.cpp ${SOURCE_DIR}/src/*.hpp)
+set(problems "")
+foreach(rel IN LISTS sources)
+  get_filename_component(room ${rel} DIRECTORY)
+  if(NOT room IN_LIST HABCAST_ROOMS)
+    string(APPEND problems "src/${rel}: folder '${room}' is not a room in cmake/room_rules.cmake\n")
+    continue()
+  endif()
+  file(STRINGS ${SOURCE_DIR}/src/${rel} lines REGEX "^#include \"")
+  file(STRINGS ${SOURCE_DIR}/src/${rel} all_lines)
+  foreach(line IN LISTS lines)
+    string(REGEX REPLACE "^#include \"([^\"]+)\".*" "\\1" header "${line}")
+    get_filename_component(target_room ${header} DIRECTORY)
+    if(NOT target_room IN_LIST HABCAST_ROOMS)
+      continue()  # a header beside the file, or a third-party one
+    endif()
+    if(NOT target_room IN_LIST HABCAST_ALLOWED_${room})
+      list(FIND all_lines "${line}" index)
+      math(EXPR line_number "${index} + 1")
+      string(APPEND problems "src/${rel}:${line_number}: room '${room}' may not include '${header}' (allowed: ${HABCAST_ALLOWED_${room}})\n")
+    endif()
+  endforeach()
+endforeach()
+if(problems)
+  message(FATAL_ERROR "Includes against the direction of the rooms:\n${problems}")
+endif()

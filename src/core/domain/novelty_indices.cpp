@@ -1,0 +1,70 @@
+#include "core/domain/novelty_indices.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <utility>
+
+namespace habcast {
+
+namespace {
+
+double similarity_from_count(const std::vector<double>& sorted, double p, std::size_t smaller) {
+  const double lo = sorted.front();
+  const double hi = sorted.back();
+  const double f = 100.0 * static_cast<double>(smaller) / static_cast<double>(sorted.size());
+  if (smaller == 0) return 100.0 * (p - lo) / (hi - lo);
+  if (smaller == sorted.size()) return 100.0 * (hi - p) / (hi - lo);
+  return f <= 50.0 ? 2.0 * f : 2.0 * (100.0 - f);
+}
+
+}  // namespace
+
+double mess_similarity(const std::vector<double>& sorted, double p) {
+  const auto smaller = static_cast<std::size_t>(std::lower_bound(sorted.begin(), sorted.end(), p) - sorted.begin());
+  return similarity_from_count(sorted, p, smaller);
+}
+
+SortedValues::SortedValues(std::vector<double> sorted) : sorted_(std::move(sorted)) {
+  const std::size_t n = sorted_.size();
+  if (n == 0) return;
+  const double lo = sorted_.front();
+  const double span = sorted_.back() - lo;
+  if (!(span > 0.0) || !std::isfinite(span)) return;
+  // About two buckets per value: most buckets then hold zero or one value.
+  const std::size_t buckets = std::min<std::size_t>(std::max<std::size_t>(2 * n, 16), 1u << 20);
+  origin_ = lo;
+  buckets_per_unit_ = static_cast<double>(buckets) / span;
+  first_at_or_above_.resize(buckets + 2);
+  for (std::size_t k = 0; k < first_at_or_above_.size(); ++k) {
+    const double edge = origin_ + static_cast<double>(k) / buckets_per_unit_;
+    first_at_or_above_[k] =
+        static_cast<std::uint32_t>(std::lower_bound(sorted_.begin(), sorted_.end(), edge) - sorted_.begin());
+  }
+}
+
+std::size_t SortedValues::count_below(double p) const {
+  const std::size_t n = sorted_.size();
+  if (buckets_per_unit_ > 0.0 && p >= origin_) {
+    const double position = (p - origin_) * buckets_per_unit_;
+    const std::size_t last = first_at_or_above_.size() - 1;
+    if (position < static_cast<double>(last)) {
+      const auto b = static_cast<std::size_t>(position);
+      // One bucket of slack on each side absorbs rounding in `position` and in the edges; the
+      // answer is then checked against its neighbours, and a full search settles any doubt.
+      const std::size_t lo = first_at_or_above_[b == 0 ? 0 : b - 1];
+      const std::size_t hi = first_at_or_above_[std::min(b + 2, last)];
+      const auto j = static_cast<std::size_t>(
+          std::lower_bound(sorted_.begin() + static_cast<std::ptrdiff_t>(lo),
+                           sorted_.begin() + static_cast<std::ptrdiff_t>(hi), p) -
+          sorted_.begin());
+      if ((j == 0 || sorted_[j - 1] < p) && (j == n || !(sorted_[j] < p))) return j;
+    }
+  }
+  return static_cast<std::size_t>(std::lower_bound(sorted_.begin(), sorted_.end(), p) - sorted_.begin());
+}
+
+double SortedValues::mess_similarity(double p) const { return similarity_from_count(sorted_, p, count_below(p)); }
+
+double nt1_term(double min, double max, double p) { return std::min({p - min, max - p, 0.0}) / (max - min); }
+
+}  // namespace habcast

@@ -1,0 +1,275 @@
+#include "core/domain/novelty_model.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <set>
+
+#include "core/base/error.hpp"
+#include "core/base/number_text.hpp"
+#include "core/domain/extrapolation_flags.hpp"
+#include "core/domain/novelty_indices.hpp"
+#include "core/model/float_nodata.hpp"
+#include "core/model/model_values.hpp"
+#include "core/numeric/qhull_facets.hpp"
+
+namespace habcast {
+
+namespace {
+
+/// Novelty values written to Float32 never reach the nodata value, however far out a pixel is.
+float novelty_output(double v) { return static_cast<float>(std::max(v, -9000.0)); }
+
+}  // namespace
+
+NoveltyModel::NoveltyModel(const ModelSpec& spec, const TermPlan& plan, const TrainingSamples& samples,
+                           const NoveltyOptions& options)
+    : spec_(spec), options_(options) {
+  for (std::size_t c = 0; c < spec.covariates.size(); ++c)
+    if (!spec.covariates[c].categorical && plan.uses_covariate(static_cast<int>(c)))
+      covariates_.push_back(static_cast<int>(c));
+  if (!active()) {
+    hull_method_ = covariates_.empty() ? "not applicable: the model uses no continuous covariate" : "not requested";
+    return;
+  }
+  build_univariate(spec, samples);
+  build_joint(spec, samples);
+  if (options_.pairs) build_pairs(spec, plan, samples);
+}
+
+std::string NoveltyModel::names(const std::vector<int>& covariates) const {
+  std::string s;
+  for (int c : covariates) s += (s.empty() ? "" : ", ") + spec_.covariates[static_cast<std::size_t>(c)].name;
+  return s;
+}
+
+void NoveltyModel::build_univariate(const ModelSpec& spec, const TrainingSamples& samples) {
+  const std::string fix = " Fix the training table, or run with --checks range to check ranges only.";
+  for (int c : covariates_) {
+    const Covariate& cov = spec.covariates[static_cast<std::size_t>(c)];
+    std::vector<double> values;
+    for (Eigen::Index i = 0; i < samples.raw.rows(); ++i) {
+      const double raw = samples.raw(i, c);
+      if (std::isnan(raw)) continue;
+      const double z = model_value(cov, raw);
+      if (!std::isfinite(z))
+        throw InputError(located(samples.path, 0,
+                                 "sample " + std::to_string(i + 1) + ": " + cov.name + " = " + significant(raw, 6) +
+                                     " is outside the domain of its " + to_string(cov.transform) + " transform." + fix));
+      values.push_back(z);
+    }
+    std::sort(values.begin(), values.end());
+    if (values.size() < 2)
+      throw InputError(located(samples.path, 0,
+                               std::to_string(values.size()) + " sample(s) record " + cov.name +
+                                   "; similarity, NT2 and the hulls need at least 2 distinct values." + fix));
+    if (values.front() == values.back())
+      throw InputError(located(samples.path, 0,
+                               "every sample has " + cov.name + " = " +
+                                   significant(raw_value(cov, values.front()), 6) +
+                                   " (zero variance): the model cannot have learned its effect, and similarity "
+                                   "and NT2 are undefined." + fix));
+    sorted_.emplace_back(std::move(values));
+  }
+}
+
+void NoveltyModel::build_joint(const ModelSpec& spec, const TrainingSamples& samples) {
+  const auto d = static_cast<Eigen::Index>(covariates_.size());
+  std::vector<Eigen::Index> rows;
+  for (Eigen::Index i = 0; i < samples.raw.rows(); ++i) {
+    bool complete = true;
+    for (int c : covariates_) complete = complete && !std::isnan(samples.raw(i, c));
+    if (complete) rows.push_back(i);
+  }
+  complete_ = static_cast<std::int64_t>(rows.size());
+  complete_points_.resize(static_cast<Eigen::Index>(rows.size()), d);
+  for (std::size_t r = 0; r < rows.size(); ++r)
+    for (Eigen::Index j = 0; j < d; ++j) {
+      const int c = covariates_[static_cast<std::size_t>(j)];
+      complete_points_(static_cast<Eigen::Index>(r), j) =
+          model_value(spec.covariates[static_cast<std::size_t>(c)], samples.raw(rows[r], c));
+    }
+  const bool need_joint = (options_.nt2 || options_.hull) && d >= 1;
+  if (need_joint && complete_ < 2) {
+    notes_.push_back("Only " + std::to_string(complete_) + " training sample(s) record all of " + names(covariates_) +
+                     ", so NT2 and the training hull were not computed.");
+    options_.nt2 = false;
+    options_.hull = false;
+  }
+  if (options_.nt2) {
+    frame_ = whitening_frame(complete_points_, options_.hull_tolerance);
+    std::vector<double> y(static_cast<std::size_t>(std::max(frame_->rank, 1)));
+    for (Eigen::Index i = 0; i < complete_points_.rows(); ++i) {
+      const Eigen::VectorXd x = complete_points_.row(i).transpose();
+      frame_->whiten(x.data(), y.data());
+      double r2 = 0.0;
+      for (int j = 0; j < frame_->rank; ++j) r2 += y[static_cast<std::size_t>(j)] * y[static_cast<std::size_t>(j)];
+      nt2_max_ = std::max(nt2_max_, std::sqrt(r2));
+    }
+    if (frame_->rank < d)
+      notes_.push_back("The training samples of " + names(covariates_) + " span only " + std::to_string(frame_->rank) +
+                       " of " + std::to_string(d) +
+                       " dimensions (collinear covariates or too few distinct samples): their covariance is singular, "
+                       "so NT2 uses its pseudo-inverse and measures distance within the span of the samples only.");
+  }
+  if (!options_.hull) {
+    hull_method_ = "not requested";
+  } else if (d < 2) {
+    hull_method_ = "not applicable: one continuous covariate (its range is its hull)";
+  } else if (d > options_.hull_max_dim) {
+    hull_method_ = "not built: " + std::to_string(d) + " covariates exceed --hull-max-dim " +
+                   std::to_string(options_.hull_max_dim) +
+                   "; standing in: 2-D hulls of interacting pairs (bit 16) and NT2 > " +
+                   significant(options_.nt2_threshold, 6) + " (bit 8)";
+    notes_.push_back("The full training hull was not built for " + std::to_string(d) + " covariates (limit " +
+                     std::to_string(options_.hull_max_dim) +
+                     "); pairwise hulls of interacting covariates and NT2 stand in for it, and they can miss "
+                     "combinations novel in three or more covariates at once.");
+  } else {
+    try {
+      hull_.emplace(complete_points_, options_.hull_tolerance);
+      hull_shares_nt2_frame_ = options_.nt2 && frame_ && hull_->frame().same_as(*frame_);
+      hull_method_ = "exact convex hull (Qhull) of " + std::to_string(complete_) + " samples in " + std::to_string(d) +
+                     " dimensions, " + std::to_string(hull_->facet_count()) + " facets, relative tolerance " +
+                     significant(hull_->tolerance(), 6);
+      if (hull_->rank() < d) {
+        hull_method_ += "; flat: the samples span " + std::to_string(hull_->rank()) + " dimensions";
+        notes_.push_back("The training samples of " + names(covariates_) + " span only " + std::to_string(hull_->rank()) +
+                         " of " + std::to_string(d) +
+                         " dimensions (collinear, duplicate or too few samples): their hull is flat, so it was built "
+                         "in the plane they span and every pixel off that plane counts as outside it.");
+      }
+    } catch (const HullBuildError& e) {
+      hull_method_ = std::string("not built: ") + e.what() + "; standing in: pairwise hulls and NT2";
+      notes_.push_back(std::string("The training hull could not be built (") + e.what() +
+                       "); pairwise hulls of interacting covariates and NT2 stand in for it.");
+    }
+  }
+}
+
+void NoveltyModel::build_pairs(const ModelSpec& spec, const TermPlan& plan, const TrainingSamples& samples) {
+  std::set<std::pair<int, int>> seen;
+  for (std::size_t t = 0; t < plan.terms().size(); ++t) {
+    std::vector<int> in_term;
+    for (const TermFactor& f : plan.terms()[t].factors)
+      if (f.level < 0 && !spec.covariates[static_cast<std::size_t>(f.covariate)].categorical)
+        in_term.push_back(f.covariate);
+    std::sort(in_term.begin(), in_term.end());
+    in_term.erase(std::unique(in_term.begin(), in_term.end()), in_term.end());
+    for (std::size_t i = 0; i < in_term.size(); ++i)
+      for (std::size_t j = i + 1; j < in_term.size(); ++j) {
+        const std::pair<int, int> key{in_term[i], in_term[j]};
+        if (seen.insert(key).second) pairs_.push_back({key.first, key.second, {}});
+        for (CovariatePair& p : pairs_)
+          if (p.a == key.first && p.b == key.second) p.terms.push_back(spec.terms[t]);
+      }
+  }
+  for (const CovariatePair& p : pairs_) {
+    std::vector<Eigen::Index> rows;
+    for (Eigen::Index i = 0; i < samples.raw.rows(); ++i)
+      if (!std::isnan(samples.raw(i, p.a)) && !std::isnan(samples.raw(i, p.b))) rows.push_back(i);
+    Eigen::MatrixXd points(static_cast<Eigen::Index>(rows.size()), 2);
+    for (std::size_t r = 0; r < rows.size(); ++r) {
+      points(static_cast<Eigen::Index>(r), 0) = model_value(spec.covariates[static_cast<std::size_t>(p.a)], samples.raw(rows[r], p.a));
+      points(static_cast<Eigen::Index>(r), 1) = model_value(spec.covariates[static_cast<std::size_t>(p.b)], samples.raw(rows[r], p.b));
+    }
+    const std::string label = names({p.a, p.b});
+    if (rows.size() < 2)
+      throw InputError(located(samples.path, 0,
+                               "fewer than 2 samples record both " + label +
+                                   ", so their joint hull is unknown. Add samples, or leave out the pair check "
+                                   "with --checks range,hull,nt2,mess."));
+    pair_hulls_.emplace_back(points, options_.hull_tolerance);
+    if (pair_hulls_.back().rank() < 2)
+      notes_.push_back("The training samples of " + label +
+                       " lie on one line, so their joint hull is that line segment and every pixel off it counts "
+                       "as outside.");
+  }
+}
+
+void NoveltyModel::check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid, std::uint8_t* flags,
+                         NoveltyBlock& out, DomainTally& tally) const {
+  const auto n = static_cast<std::size_t>(rows);
+  out.mess.assign(n, kFloatNodata);
+  out.nt1.assign(n, kFloatNodata);
+  out.nt2.assign(n, kFloatNodata);
+  out.least_similar.assign(n, flag::nodata);
+  if (!active()) return;
+  const std::size_t d = covariates_.size();
+  out.z.resize(d);
+  out.y.resize(std::max<std::size_t>(d, 2));
+  if (tally.pair_outside.size() < pairs_.size()) tally.pair_outside.resize(pairs_.size());
+  // Climbs start afresh in every block, so a block's result never depends on which blocks a
+  // worker handled before it.
+  int hull_start = 0;
+  std::vector<int> pair_start(pairs_.size(), 0);
+  std::vector<std::size_t> pair_a(pairs_.size()), pair_b(pairs_.size());
+  for (std::size_t p = 0; p < pairs_.size(); ++p) {
+    pair_a[p] = static_cast<std::size_t>(std::find(covariates_.begin(), covariates_.end(), pairs_[p].a) - covariates_.begin());
+    pair_b[p] = static_cast<std::size_t>(std::find(covariates_.begin(), covariates_.end(), pairs_[p].b) - covariates_.begin());
+  }
+  double xy[2];
+
+  for (std::size_t i = 0; i < n; ++i) {
+    if (!valid[i]) continue;
+    bool finite = true;
+    for (std::size_t j = 0; j < d; ++j) {
+      const auto c = static_cast<std::size_t>(covariates_[j]);
+      out.z[j] = model_value(spec_.covariates[c], raw(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(c)));
+      finite = finite && std::isfinite(out.z[j]);
+    }
+    if (!finite) continue;  // outside a transform's domain: no prediction, nothing to compare
+    const bool in_range = (flags[i] & flag::outside_range) == 0;
+
+    if (options_.mess) {
+      double mess = std::numeric_limits<double>::infinity();
+      double nt1 = 0.0;
+      std::size_t least_similar = 0;
+      for (std::size_t j = 0; j < d; ++j) {
+        const SortedValues& s = sorted_[j];
+        const double similarity = s.mess_similarity(out.z[j]);
+        if (similarity < mess) {
+          mess = similarity;
+          least_similar = j;
+        }
+        nt1 += nt1_term(s.values().front(), s.values().back(), out.z[j]);
+      }
+      out.mess[i] = novelty_output(mess);
+      out.nt1[i] = novelty_output(nt1);
+      out.least_similar[i] = static_cast<std::uint8_t>(covariates_[least_similar] + 1);
+      if (mess < 0.0) {
+        ++tally.mess_negative;
+        ++tally.least_similar[static_cast<std::size_t>(covariates_[least_similar])];
+      }
+    }
+    double off_plane = 0.0;
+    if (options_.nt2) {
+      off_plane = frame_->whiten(out.z.data(), out.y.data());
+      double r2 = 0.0;
+      for (int j = 0; j < frame_->rank; ++j) r2 += out.y[static_cast<std::size_t>(j)] * out.y[static_cast<std::size_t>(j)];
+      const double nt2 = nt2_max_ > 0.0 ? std::sqrt(r2) / nt2_max_ : 0.0;
+      out.nt2[i] = static_cast<float>(std::min(nt2, 1e30));
+      if (nt2 > options_.nt2_threshold) {
+        ++tally.nt2_above;
+        if (in_range) flags[i] |= flag::novel_combination;
+      }
+    }
+    if (!in_range) continue;
+    if (hull_) {
+      // NT2 has just whitened z in the hull's own frame (checked equal when built): reuse it.
+      const bool inside = hull_shares_nt2_frame_ ? hull_->contains_whitened(out.y.data(), off_plane, hull_start)
+                                                 : hull_->contains(out.z.data(), out.y.data(), hull_start);
+      if (!inside) flags[i] |= flag::outside_hull;
+    }
+    for (std::size_t p = 0; p < pairs_.size(); ++p) {
+      xy[0] = out.z[pair_a[p]];
+      xy[1] = out.z[pair_b[p]];
+      if (!pair_hulls_[p].contains(xy, out.y.data(), pair_start[p])) {
+        flags[i] |= flag::outside_pair_hull;
+        ++tally.pair_outside[p];
+      }
+    }
+  }
+}
+
+}  // namespace habcast

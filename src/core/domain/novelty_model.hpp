@@ -1,0 +1,102 @@
+#pragma once
+// The joint training-domain checks, in the space of the model values of the continuous covariates
+// the model uses: similarity (MESS) and univariate novelty (NT1) per covariate, the Mahalanobis
+// ratio NT2, the exact convex hull of all of them, and exact 2-D hulls of each pair of covariates
+// that share a term. Built once from the training samples; checks blocks of pixels after
+// TrainingDomain has set the range and level bits. Documented in docs/extrapolation-flags.md.
+#include <Eigen/Core>
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "core/domain/novelty_indices.hpp"
+#include "core/domain/training_domain.hpp"
+#include "core/domain/training_hull.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/model/model_spec.hpp"
+#include "core/model/term_plan.hpp"
+
+namespace habcast {
+
+struct NoveltyOptions {
+  bool mess = true;   ///< MESS and NT1 (novelty.tif bands 1-2, least_similar.tif)
+  bool nt2 = true;    ///< NT2 (band 3) and flag bit 8
+  bool hull = true;   ///< full convex hull, flag bit 2
+  bool pairs = true;  ///< 2-D hulls of interacting pairs, flag bit 16
+  double nt2_threshold = 1.0;    ///< flag bit 8 where NT2 exceeds this
+  double hull_tolerance = 1e-9;  ///< relative enlargement of the hulls about their centroid
+  /// Largest number of covariates for the full hull. Qhull's facet count grows like
+  /// n^floor(d/2): for 2,000 points about 600 facets in 4-D, 4,000 in 5-D and 23,000 (5 s) in 6-D;
+  /// in 7-D Qhull had not finished after 5 minutes (2 cores). Above it, pairwise hulls and NT2 stand in.
+  int hull_max_dim = 6;
+  [[nodiscard]] bool any() const { return mess || nt2 || hull || pairs; }
+};
+
+/// Two continuous covariates that appear together in at least one term.
+struct CovariatePair {
+  int a = 0, b = 0;                 ///< indices into ModelSpec::covariates, a < b
+  std::vector<std::string> terms;   ///< labels of the terms they share
+};
+
+/// Per-pixel novelty outputs of one block (row-major over its pixels); kFloatNodata / 255 where
+/// not computed.
+struct NoveltyBlock {
+  std::vector<float> mess, nt1, nt2;
+  std::vector<std::uint8_t> least_similar;  ///< 1 + index of the covariate with the smallest similarity
+  // Scratch reused across blocks: model values of one pixel and whitened coordinates.
+  std::vector<double> z, y;
+};
+
+class NoveltyModel {
+ public:
+  /// Throws InputError naming the training table for data the checks cannot use: fewer than two
+  /// samples of a covariate, a covariate with the same value in every sample (zero variance), or
+  /// a value outside its covariate's transform.
+  NoveltyModel(const ModelSpec& spec, const TermPlan& plan, const TrainingSamples& samples,
+               const NoveltyOptions& options);
+
+  [[nodiscard]] const NoveltyOptions& options() const { return options_; }
+  /// Continuous covariates the model uses (indices into ModelSpec::covariates), in model order.
+  [[nodiscard]] const std::vector<int>& covariates() const { return covariates_; }
+  [[nodiscard]] const std::vector<CovariatePair>& pairs() const { return pairs_; }
+  /// The full hull, when it was built (checks on, 2+ covariates, within hull_max_dim).
+  [[nodiscard]] const std::optional<TrainingHull>& hull() const { return hull_; }
+  [[nodiscard]] const std::vector<TrainingHull>& pair_hulls() const { return pair_hulls_; }
+  /// Plain-language description of the full-hull test, or of what stands in for it.
+  [[nodiscard]] const std::string& hull_method() const { return hull_method_; }
+  /// Notes on degenerate training sets and their fallbacks (also warnings of the run).
+  [[nodiscard]] const std::vector<std::string>& notes() const { return notes_; }
+  [[nodiscard]] std::int64_t complete_samples() const { return complete_; }
+  [[nodiscard]] double nt2_max_distance() const { return nt2_max_; }
+  [[nodiscard]] bool active() const { return !covariates_.empty() && options_.any(); }
+
+  /// Checks the first `rows` pixels of `raw` (rows x all covariates, raw values). Pixels with
+  /// valid == 0 get nodata. Adds bits 2, 8 and 16 to `flags` where bit 1 is not set, fills `out`
+  /// and adds to `tally`. The result depends only on the block's values, never on earlier blocks.
+  void check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid, std::uint8_t* flags,
+             NoveltyBlock& out, DomainTally& tally) const;
+
+ private:
+  void build_univariate(const ModelSpec& spec, const TrainingSamples& samples);
+  void build_joint(const ModelSpec& spec, const TrainingSamples& samples);
+  void build_pairs(const ModelSpec& spec, const TermPlan& plan, const TrainingSamples& samples);
+  [[nodiscard]] std::string names(const std::vector<int>& covariates) const;
+
+  const ModelSpec& spec_;
+  NoveltyOptions options_;
+  std::vector<int> covariates_;
+  std::vector<SortedValues> sorted_;  ///< per covariate: training model values, ascending
+  Eigen::MatrixXd complete_points_;          ///< training rows with every covariate recorded
+  std::int64_t complete_ = 0;
+  std::optional<WhiteningFrame> frame_;      ///< for NT2
+  bool hull_shares_nt2_frame_ = false;       ///< the hull's frame equals frame_: whiten once per pixel
+  double nt2_max_ = 0.0;
+  std::optional<TrainingHull> hull_;
+  std::vector<CovariatePair> pairs_;
+  std::vector<TrainingHull> pair_hulls_;
+  std::string hull_method_;
+  std::vector<std::string> notes_;
+};
+
+}  // namespace habcast

@@ -1,0 +1,118 @@
+#include "core/domain/training_domain.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "core/base/error.hpp"
+#include "core/domain/extrapolation_flags.hpp"
+
+namespace habcast {
+
+void DomainTally::merge(const DomainTally& other) {
+  if (below.size() < other.below.size()) {
+    below.resize(other.below.size());
+    above.resize(other.above.size());
+    unseen.resize(other.unseen.size());
+    unseen_codes.resize(other.unseen_codes.size());
+    least_similar.resize(other.least_similar.size());
+  }
+  if (pair_outside.size() < other.pair_outside.size()) pair_outside.resize(other.pair_outside.size());
+  for (std::size_t p = 0; p < other.pair_outside.size(); ++p) pair_outside[p] += other.pair_outside[p];
+  for (std::size_t c = 0; c < other.below.size(); ++c) {
+    below[c] += other.below[c];
+    above[c] += other.above[c];
+    unseen[c] += other.unseen[c];
+    for (const auto& [code, n] : other.unseen_codes[c]) unseen_codes[c][code] += n;
+    least_similar[c] += other.least_similar[c];
+  }
+  for (int b = 0; b < flag::cause_count; ++b) cause[b] += other.cause[b];
+  mess_negative += other.mess_negative;
+  nt2_above += other.nt2_above;
+  flagged += other.flagged;
+  checked += other.checked;
+}
+
+TrainingDomain::TrainingDomain(const ModelSpec& spec, const TrainingSamples& samples)
+    : spec_(spec), ranges_(spec.covariates.size()), seen_(spec.covariates.size()), samples_(samples.raw.rows()) {
+  for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
+    const auto col = samples.raw.col(static_cast<Eigen::Index>(c));
+    CovariateRange r{std::numeric_limits<double>::infinity(), -std::numeric_limits<double>::infinity(), 0};
+    for (Eigen::Index i = 0; i < col.size(); ++i) {
+      const double v = col[i];
+      if (std::isnan(v)) continue;
+      r.min = std::min(r.min, v);
+      r.max = std::max(r.max, v);
+      ++r.samples;
+      if (spec.covariates[c].categorical) {
+        if (const std::optional<std::int64_t> code = level_code(v)) seen_[c].push_back(*code);
+      }
+    }
+    if (r.samples == 0)
+      throw InputError(located(samples.path, 0, "no sample records covariate \"" + spec.covariates[c].name +
+                                                    "\"; its training range is unknown"));
+    ranges_[c] = r;
+    std::sort(seen_[c].begin(), seen_[c].end());
+    seen_[c].erase(std::unique(seen_[c].begin(), seen_[c].end()), seen_[c].end());
+  }
+}
+
+void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid,
+                          std::uint8_t* flags, DomainTally& tally) const {
+  for (Eigen::Index r = 0; r < rows; ++r) flags[r] = valid[r] ? 0 : flag::nodata;
+  for (std::size_t c = 0; c < spec_.covariates.size(); ++c) {
+    const double* v = raw.col(static_cast<Eigen::Index>(c)).data();
+    if (spec_.covariates[c].categorical) {
+      const std::vector<std::int64_t>& seen = seen_[c];
+      // Class rasters come in runs of one class: the last code's verdict is remembered (NaN, the
+      // start value, equals nothing).
+      double last_code = std::numeric_limits<double>::quiet_NaN();
+      bool last_unseen = false;
+      for (Eigen::Index r = 0; r < rows; ++r) {
+        if (!valid[r]) continue;
+        const double code = v[r];
+        if (code != last_code) {
+          const std::optional<std::int64_t> whole = level_code(code);
+          last_unseen = !whole || !std::binary_search(seen.begin(), seen.end(), *whole);
+          last_code = code;
+        }
+        if (last_unseen) {
+          flags[r] |= flag::unseen_level;
+          ++tally.unseen[c];
+          // Values beyond any code (a float raster holding 1e30) are counted at the nearer end.
+          const std::optional<std::int64_t> floor_code = level_code(std::floor(code));
+          ++tally.unseen_codes[c][floor_code ? *floor_code
+                                             : (code < 0 ? std::numeric_limits<std::int64_t>::min()
+                                                         : std::numeric_limits<std::int64_t>::max())];
+        }
+      }
+    } else {
+      const double lo = ranges_[c].min;
+      const double hi = ranges_[c].max;
+      for (Eigen::Index r = 0; r < rows; ++r) {
+        if (!valid[r]) continue;
+        if (v[r] < lo) {
+          flags[r] |= flag::outside_range;
+          ++tally.below[c];
+        } else if (v[r] > hi) {
+          flags[r] |= flag::outside_range;
+          ++tally.above[c];
+        }
+      }
+    }
+  }
+}
+
+void TrainingDomain::count_causes(Eigen::Index rows, const std::uint8_t* valid, const std::uint8_t* flags,
+                                  DomainTally& tally) {
+  for (Eigen::Index r = 0; r < rows; ++r) {
+    if (!valid[r]) continue;
+    ++tally.checked;
+    const std::uint8_t f = flags[r];
+    if (f) ++tally.flagged;
+    for (int b = 0; b < flag::cause_count; ++b)
+      if (f & (1u << b)) ++tally.cause[b];
+  }
+}
+
+}  // namespace habcast

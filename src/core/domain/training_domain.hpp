@@ -1,0 +1,65 @@
+#pragma once
+// What is known about where the model was trained, and the per-pixel test of whether a block of
+// covariate values lies inside it: each continuous covariate's training range and the categorical
+// levels seen. The joint checks (hull, NT2, pairs) live in NoveltyModel and add their own bits.
+#include <Eigen/Core>
+#include <cstdint>
+#include <map>
+#include <vector>
+
+#include "core/domain/training_samples.hpp"
+#include "core/model/model_spec.hpp"
+
+namespace habcast {
+
+struct CovariateRange {
+  double min = 0.0;  ///< raw units (before transform)
+  double max = 0.0;
+  std::int64_t samples = 0;  ///< samples that recorded the covariate
+};
+
+/// Per-covariate and per-cause pixel counts of one block; merged across blocks in block order.
+struct DomainTally {
+  std::vector<std::int64_t> below;   ///< per covariate: pixels below the training minimum
+  std::vector<std::int64_t> above;   ///< per covariate: pixels above the training maximum
+  std::vector<std::int64_t> unseen;  ///< per covariate: pixels with a level absent from training
+  std::vector<std::map<std::int64_t, std::int64_t>> unseen_codes;  ///< per covariate: code -> pixels
+  std::vector<std::int64_t> least_similar;  ///< per covariate: pixels with MESS < 0 where it is the least similar
+  std::vector<std::int64_t> pair_outside;  ///< per interacting pair: in range, outside the pair's hull
+  std::int64_t cause[5] = {0, 0, 0, 0, 0};  ///< pixels carrying each flag bit
+  std::int64_t mess_negative = 0;    ///< pixels with MESS < 0 (some covariate outside its range)
+  std::int64_t nt2_above = 0;        ///< pixels with NT2 above its threshold, in range or not
+  std::int64_t flagged = 0;          ///< pixels with any flag
+  std::int64_t checked = 0;          ///< pixels with data for every covariate
+
+  explicit DomainTally(std::size_t covariates = 0)
+      : below(covariates), above(covariates), unseen(covariates), unseen_codes(covariates), least_similar(covariates) {}
+  void merge(const DomainTally& other);
+};
+
+class TrainingDomain {
+ public:
+  TrainingDomain(const ModelSpec& spec, const TrainingSamples& samples);
+
+  [[nodiscard]] const CovariateRange& range(std::size_t covariate) const { return ranges_[covariate]; }
+  /// Level codes seen in training for categorical covariate `covariate`, sorted.
+  [[nodiscard]] const std::vector<std::int64_t>& levels_seen(std::size_t covariate) const { return seen_[covariate]; }
+  [[nodiscard]] std::int64_t sample_count() const { return samples_; }
+
+  /// Writes the range and level bits for the first `rows` rows of `raw` (rows x covariates, raw
+  /// values; row-wise valid mask). Invalid rows get flag::nodata. Adds per-covariate counts to
+  /// `tally`; the per-cause counts come from count_causes() once every check has set its bits.
+  void flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid, std::uint8_t* flags,
+            DomainTally& tally) const;
+
+  /// Adds the checked, flagged and per-cause pixel counts of a finished block of flags.
+  static void count_causes(Eigen::Index rows, const std::uint8_t* valid, const std::uint8_t* flags, DomainTally& tally);
+
+ private:
+  const ModelSpec& spec_;
+  std::vector<CovariateRange> ranges_;
+  std::vector<std::vector<std::int64_t>> seen_;
+  std::int64_t samples_ = 0;
+};
+
+}  // namespace habcast

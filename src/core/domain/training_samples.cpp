@@ -1,0 +1,122 @@
+#include "core/domain/training_samples.hpp"
+
+#include <charconv>
+#include <cmath>
+#include <fstream>
+#include <limits>
+#include <sstream>
+#include <vector>
+
+#include "core/base/csv_table.hpp"
+#include "core/base/error.hpp"
+
+namespace habcast {
+
+namespace {
+
+// "NaN" is not "not recorded": a computed NaN in a training table is a mistake to report, not skip.
+bool is_missing(const std::string& v) { return v.empty() || v == "NA"; }
+
+bool parse_double(const std::string& text, double& out) {
+  const char* first = text.data();
+  const char* last = text.data() + text.size();
+  if (first != last && *first == '+') ++first;
+  const auto [ptr, ec] = std::from_chars(first, last, out);
+  return ec == std::errc() && ptr == last && std::isfinite(out);
+}
+
+double categorical_code(const Covariate& c, const std::string& value, const std::string& path, long line) {
+  for (const Level& l : c.levels)
+    if (l.name == value) return static_cast<double>(l.code);
+  double number = 0.0;
+  if (parse_double(value, number) && number == std::floor(number)) {
+    // A whole number too large for a code (found by fuzz_training_samples) is no level either.
+    const std::optional<std::int64_t> code = level_code(number);
+    if (code && c.level_index(*code) >= 0) return number;
+    throw InputError(located(path, line, "level code " + value + " of \"" + c.name +
+                                             "\" is not declared in the model file; add it to the covariate's levels"));
+  }
+  throw InputError(located(path, line, "\"" + value + "\" is not a level of \"" + c.name +
+                                           "\" (give a declared level name or integer code)"));
+}
+
+}  // namespace
+
+TrainingSamples parse_training_samples(const std::string& text, const std::string& path, const ModelSpec& spec) {
+  std::istringstream in(text);
+  std::string line;
+  long line_number = 0;
+  std::vector<std::string> header;
+  while (std::getline(in, line)) {
+    ++line_number;
+    if (line.empty() || line[0] == '#') continue;  // comment lines carry provenance
+    header = split_csv_record(line);
+    break;
+  }
+  if (header.empty()) throw InputError(located(path, 0, "the training table is empty; it needs a header row naming the covariates"));
+  if (!header.empty() && header[0].size() >= 3 && header[0].compare(0, 3, "\xEF\xBB\xBF") == 0) header[0].erase(0, 3);
+
+  const std::size_t k = spec.covariates.size();
+  std::vector<std::size_t> column(k);
+  for (std::size_t c = 0; c < k; ++c) {
+    std::size_t found = header.size();
+    for (std::size_t h = 0; h < header.size(); ++h)
+      if (header[h] == spec.covariates[c].name) found = h;
+    if (found == header.size())
+      throw InputError(located(path, line_number, "no column named \"" + spec.covariates[c].name +
+                                                      "\"; the training table needs one column per covariate of the model"));
+    column[c] = found;
+  }
+
+  std::vector<double> values;  // row-major while reading
+  std::size_t rows = 0;
+  while (std::getline(in, line)) {
+    ++line_number;
+    if (line.empty() || line == "\r" || line[0] == '#') continue;
+    const std::vector<std::string> fields = split_csv_record(line);
+    if (fields.size() != header.size())
+      throw InputError(located(path, line_number, "has " + std::to_string(fields.size()) + " fields but the header has " +
+                                                      std::to_string(header.size())));
+    for (std::size_t c = 0; c < k; ++c) {
+      const std::string& v = fields[column[c]];
+      const Covariate& cov = spec.covariates[c];
+      double x = std::numeric_limits<double>::quiet_NaN();
+      if (!is_missing(v)) {
+        if (cov.categorical) {
+          x = categorical_code(cov, v, path, line_number);
+        } else if (!parse_double(v, x)) {
+          throw InputError(located(path, line_number, "value \"" + v + "\" of \"" + cov.name +
+                                                          "\" is not a finite number (leave the cell empty or NA if not recorded)"));
+        }
+      }
+      values.push_back(x);
+    }
+    ++rows;
+  }
+  if (rows == 0) throw InputError(located(path, line_number, "the training table has a header but no samples"));
+
+  TrainingSamples samples;
+  samples.path = path;
+  samples.raw.resize(static_cast<Eigen::Index>(rows), static_cast<Eigen::Index>(k));
+  for (std::size_t r = 0; r < rows; ++r)
+    for (std::size_t c = 0; c < k; ++c)
+      samples.raw(static_cast<Eigen::Index>(r), static_cast<Eigen::Index>(c)) = values[r * k + c];
+  return samples;
+}
+
+TrainingSamples read_training_samples(const ModelSpec& spec) {
+  if (!spec.training_samples)
+    throw InputError(located(spec.path, 0, "the model file names no training samples ([training] samples = \"FILE.csv\")"));
+  std::ifstream in(*spec.training_samples, std::ios::binary);
+  if (!in)
+    throw InputError(located(spec.path, spec.training_line,
+                             "cannot open the training samples \"" + *spec.training_samples +
+                                 "\"; the path is relative to the model file's folder"));
+  std::ostringstream buffer;
+  buffer << in.rdbuf();
+  if (in.bad())
+    throw InputError(located(spec.path, spec.training_line, "cannot read the training samples \"" + *spec.training_samples + "\""));
+  return parse_training_samples(buffer.str(), *spec.training_samples, spec);
+}
+
+}  // namespace habcast

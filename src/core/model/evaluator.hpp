@@ -1,0 +1,46 @@
+#pragma once
+// Pure math of a prediction: linear predictor, its standard error by the delta method, the
+// response, its standard error and confidence limits. No rasters here.
+#include <Eigen/Core>
+#include <optional>
+
+#include "core/model/model_spec.hpp"
+
+namespace habcast {
+
+struct Prediction {
+  Eigen::VectorXd eta;     ///< linear predictor (link scale), offset included
+  Eigen::VectorXd se_eta;  ///< sqrt(x' V x)
+  Eigen::VectorXd mu;      ///< g^-1(eta), response scale
+  Eigen::VectorXd se_mu;   ///< |d g^-1/d eta| * se_eta (delta method)
+  Eigen::VectorXd lower;   ///< g^-1(eta - z se_eta): formed on the link scale, stays in range
+  Eigen::VectorXd upper;   ///< g^-1(eta + z se_eta)
+};
+
+class Evaluator {
+ public:
+  /// `level` is the two-sided confidence level of the limits, in (0, 1). A `quantum` > 0 (a power
+  /// of two, see output_precision.hpp) rounds mu, se(mu) and the limits to its multiples.
+  Evaluator(const ModelSpec& spec, double level, double quantum = 0.0);
+
+  [[nodiscard]] bool has_covariance() const { return V_.has_value(); }
+  [[nodiscard]] double z() const { return z_; }
+  [[nodiscard]] double level() const { return level_; }
+  [[nodiscard]] Link link() const { return link_; }
+
+  /// Evaluates the first `rows` rows of X (and of `offset`, the offset term's column). Standard
+  /// errors and limits are computed only when the model has a covariance matrix.
+  void evaluate(const Eigen::MatrixXd& X, Eigen::Index rows, const Eigen::VectorXd& offset, Prediction& out) const;
+
+ private:
+  Eigen::VectorXd beta_;
+  std::optional<Eigen::MatrixXd> V_;
+  Link link_;
+  double offset_constant_;
+  double level_;
+  double z_;
+  double quantum_;
+  mutable Eigen::MatrixXd XV_;  // scratch; one Evaluator per worker thread
+};
+
+}  // namespace habcast

@@ -1,0 +1,81 @@
+#include "core/model/model_values.hpp"
+
+#include <cmath>
+#include <limits>
+
+namespace habcast {
+
+double model_value(const Covariate& c, double raw) {
+  double t = raw;
+  switch (c.transform) {
+    case Transform::none: break;
+    case Transform::log: t = raw > 0.0 ? std::log(raw) : std::numeric_limits<double>::quiet_NaN(); break;
+    case Transform::log1p: t = raw > -1.0 ? std::log1p(raw) : std::numeric_limits<double>::quiet_NaN(); break;
+    case Transform::sqrt: t = raw >= 0.0 ? std::sqrt(raw) : std::numeric_limits<double>::quiet_NaN(); break;
+  }
+  return (t - c.center) / c.scale;
+}
+
+double raw_value(const Covariate& c, double value) {
+  const double t = value * c.scale + c.center;
+  switch (c.transform) {
+    case Transform::none: return t;
+    case Transform::log: return std::exp(t);
+    case Transform::log1p: return std::expm1(t);
+    case Transform::sqrt: return t * t;
+  }
+  return t;
+}
+
+void to_model_values(const ModelSpec& spec, const TermPlan& plan, const Eigen::ArrayXXd& raw, Eigen::Index first,
+                     Eigen::Index rows, ModelValues& out, std::uint8_t* predict_valid, ModelValueCounts& counts) {
+  const Eigen::Index k = static_cast<Eigen::Index>(spec.covariates.size());
+  if (out.rows() < rows || out.cols() != k) out.resize(rows, k);
+  for (Eigen::Index c = 0; c < k; ++c) {
+    const Covariate& cov = spec.covariates[static_cast<std::size_t>(c)];
+    const double* in = raw.col(c).data() + first;
+    double* dst = out.col(c).data();
+    const bool used = plan.uses_covariate(static_cast<int>(c));
+    if (cov.categorical) {
+      // Class rasters come in runs of one class, so the last code's level is remembered (NaN,
+      // the start value, equals nothing, and nodata pixels never get here).
+      double last_code = std::numeric_limits<double>::quiet_NaN();
+      int last_level = -1;
+      for (Eigen::Index i = 0; i < rows; ++i) {
+        if (!predict_valid[i]) {
+          dst[i] = 0.0;
+          continue;
+        }
+        const double code = in[i];
+        if (code != last_code) {
+          const std::optional<std::int64_t> whole = level_code(code);
+          last_level = whole ? cov.level_index(*whole) : -1;
+          last_code = code;
+        }
+        const int level = last_level;
+        dst[i] = static_cast<double>(level);
+        if (level < 0 && used) {
+          predict_valid[i] = 0;
+          ++counts.unknown_level;
+        }
+      }
+    } else {
+      for (Eigen::Index i = 0; i < rows; ++i) {
+        if (!predict_valid[i]) {
+          dst[i] = 0.0;
+          continue;
+        }
+        dst[i] = model_value(cov, in[i]);
+        if (!std::isfinite(dst[i])) {
+          dst[i] = 0.0;
+          if (used) {
+            predict_valid[i] = 0;
+            ++counts.outside_transform;
+          }
+        }
+      }
+    }
+  }
+}
+
+}  // namespace habcast

@@ -1,0 +1,126 @@
+#include "core/model/term_plan.hpp"
+
+#include <cmath>
+#include <limits>
+#include <map>
+#include <vector>
+
+#include "core/base/error.hpp"
+
+namespace habcast {
+
+TermPlan::TermPlan(const ModelSpec& spec) : used_(spec.covariates.size(), false) {
+  std::map<std::string, std::size_t> seen;  // canonical label -> position
+  terms_.reserve(spec.terms.size());
+  for (std::size_t i = 0; i < spec.terms.size(); ++i) {
+    const long line = i < spec.term_lines.size() ? spec.term_lines[i] : 0;
+    Term term = parse_term(spec.terms[i], spec, spec.path, line);
+    const auto [it, inserted] = seen.emplace(term.canonical, i);
+    if (!inserted)
+      throw InputError(located(spec.path, line,
+                               "term \"" + spec.terms[i] + "\" repeats term " + std::to_string(it->second + 1) +
+                                   " (\"" + spec.terms[it->second] +
+                                   "\"); each term may appear once (factor order does not matter)"));
+    for (const TermFactor& f : term.factors) used_[static_cast<std::size_t>(f.covariate)] = true;
+    terms_.push_back(std::move(term));
+  }
+  for (std::size_t c = 0; c < spec.covariates.size(); ++c)
+    if (spec.covariates[c].categorical) categorical_.push_back(static_cast<int>(c));
+  if (spec.offset_term) {
+    offset_ = parse_term(*spec.offset_term, spec, spec.path, 0);
+    for (const TermFactor& f : offset_->factors) used_[static_cast<std::size_t>(f.covariate)] = true;
+  }
+  for (int c : categorical_)
+    if (used_[static_cast<std::size_t>(c)]) used_categorical_.push_back(c);
+}
+
+bool TermPlan::uses_covariate(int covariate) const {
+  return covariate >= 0 && static_cast<std::size_t>(covariate) < used_.size() &&
+         used_[static_cast<std::size_t>(covariate)];
+}
+
+namespace {
+
+double apply_function(TermFunction fn, double v) {
+  switch (fn) {
+    case TermFunction::none: return v;
+    // Outside the domain these give NaN (or -inf for log(0)); fill() turns that into nodata.
+    case TermFunction::log: return v > 0.0 ? std::log(v) : std::numeric_limits<double>::quiet_NaN();
+    case TermFunction::log1p: return v > -1.0 ? std::log1p(v) : std::numeric_limits<double>::quiet_NaN();
+    case TermFunction::sqrt: return v >= 0.0 ? std::sqrt(v) : std::numeric_limits<double>::quiet_NaN();
+    case TermFunction::exp: return std::exp(v);
+  }
+  return v;
+}
+
+// Integer power by repeated multiplication: exact for small powers and the same on every machine.
+double integer_power(double v, int power) {
+  double r = v;
+  for (int k = 1; k < power; ++k) r *= v;
+  return r;
+}
+
+}  // namespace
+
+void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column) const {
+  for (Eigen::Index r = 0; r < rows; ++r) column[r] = 1.0;
+  if (term.intercept) return;
+  for (const TermFactor& f : term.factors) {
+    const double* v = values.col(f.covariate).data();
+    if (f.level >= 0) {
+      const double level = static_cast<double>(f.level);
+      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= (v[r] == level ? 1.0 : 0.0);
+    } else if (f.function == TermFunction::none) {
+      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= integer_power(v[r], f.power);
+    } else {
+      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= integer_power(apply_function(f.function, v[r]), f.power);
+    }
+  }
+}
+
+std::int64_t TermPlan::fill(const ModelValues& values, Eigen::Index rows, Eigen::MatrixXd& X,
+                            std::uint8_t* valid) const {
+  const Eigen::Index p = term_count();
+  if (X.rows() < rows || X.cols() != p) X.resize(rows, p);
+  // A categorical value the model does not know (-1) cannot be predicted: its indicators would
+  // silently treat it as the reference level. Each column is checked right after it is filled,
+  // while it is still in cache, and without branches so the loop vectorises.
+  std::vector<std::uint8_t> ok_rows(valid, valid + rows);  // the plan is shared by threads: no member scratch
+  std::uint8_t* ok = ok_rows.data();
+  for (Eigen::Index j = 0; j < p; ++j) {
+    double* x = X.col(j).data();
+    fill_term(terms_[static_cast<std::size_t>(j)], values, rows, x);
+    for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(std::isfinite(x[r]));
+  }
+  for (int c : used_categorical_) {
+    const double* level = values.col(c).data();
+    for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(level[r] >= 0.0);
+  }
+  std::int64_t invalidated = 0;
+  for (Eigen::Index r = 0; r < rows; ++r) {
+    if (ok[r]) continue;
+    if (valid[r]) {
+      valid[r] = 0;
+      ++invalidated;
+    }
+    X.row(r).setZero();
+  }
+  return invalidated;
+}
+
+void TermPlan::fill_offset(const ModelValues& values, Eigen::Index rows, Eigen::VectorXd& offset,
+                           std::uint8_t* valid) const {
+  if (offset.size() < rows) offset.resize(rows);
+  if (!offset_) {
+    offset.head(rows).setZero();
+    return;
+  }
+  fill_term(*offset_, values, rows, offset.data());
+  for (Eigen::Index r = 0; r < rows; ++r)
+    if (!std::isfinite(offset[r])) {
+      valid[r] = 0;
+      offset[r] = 0.0;
+    }
+}
+
+}  // namespace habcast

@@ -1,0 +1,54 @@
+#pragma once
+// The model's terms compiled once into a plan that fills a design matrix from covariate columns.
+// predict, describe, fit and the training-sample checks all build X through this one class, so a
+// term has exactly one definition.
+#include <Eigen/Core>
+#include <cstdint>
+#include <optional>
+#include <vector>
+
+#include "core/model/model_spec.hpp"
+#include "core/model/term_syntax.hpp"
+
+namespace habcast {
+
+/// Column-major block of model values: one row per pixel (or sample), one column per covariate of
+/// the ModelSpec. Continuous covariates hold their model value (after transform and
+/// standardisation); categorical ones hold the index of the level in Covariate::levels, or -1 for a
+/// code the model does not know.
+using ModelValues = Eigen::ArrayXXd;
+
+class TermPlan {
+ public:
+  /// Parses and checks every term of `spec` (and its offset term). Throws InputError at the term's
+  /// line for a term the syntax does not know, an unknown covariate or level, or a duplicate term.
+  explicit TermPlan(const ModelSpec& spec);
+
+  [[nodiscard]] Eigen::Index term_count() const { return static_cast<Eigen::Index>(terms_.size()); }
+  [[nodiscard]] const std::vector<Term>& terms() const { return terms_; }
+  [[nodiscard]] const std::optional<Term>& offset_term() const { return offset_; }
+  /// True for covariates that appear in at least one term or in the offset.
+  [[nodiscard]] bool uses_covariate(int covariate) const;
+
+  /// Fills X (rows x term_count) for the first `rows` rows of `values`. Sets valid[i] = 0 where a
+  /// term is undefined or not finite (log of a non-positive value, ...) or a categorical value is
+  /// an unknown level (-1) of a covariate that enters the model; rows already invalid are skipped
+  /// and their X rows zeroed. Returns how many rows this call newly invalidated.
+  std::int64_t fill(const ModelValues& values, Eigen::Index rows, Eigen::MatrixXd& X,
+                    std::uint8_t* valid) const;
+
+  /// The offset column (zero when the model has no offset term; the constant is separate).
+  void fill_offset(const ModelValues& values, Eigen::Index rows, Eigen::VectorXd& offset,
+                   std::uint8_t* valid) const;
+
+ private:
+  void fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column) const;
+
+  std::vector<Term> terms_;
+  std::optional<Term> offset_;
+  std::vector<bool> used_;
+  std::vector<int> categorical_;       ///< indices of categorical covariates
+  std::vector<int> used_categorical_;  ///< ... of those that enter a term or the offset
+};
+
+}  // namespace habcast

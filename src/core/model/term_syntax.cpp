@@ -1,0 +1,241 @@
+#include "core/model/term_syntax.hpp"
+
+#include <algorithm>
+#include <cctype>
+#include <charconv>
+#include <tuple>
+
+#include "core/base/error.hpp"
+
+namespace habcast {
+
+const char* to_string(TermFunction function) {
+  switch (function) {
+    case TermFunction::none: return "";
+    case TermFunction::log: return "log";
+    case TermFunction::log1p: return "log1p";
+    case TermFunction::sqrt: return "sqrt";
+    case TermFunction::exp: return "exp";
+  }
+  return "?";
+}
+
+namespace {
+
+constexpr int kMaxPower = 9;
+
+std::string declared_list(const ModelSpec& spec) {
+  std::string s;
+  for (const Covariate& c : spec.covariates) s += (s.empty() ? "" : ", ") + c.name;
+  return s.empty() ? "(none)" : s;
+}
+
+/// Recursive-descent parser over the label with spaces removed.
+class TermParser {
+ public:
+  TermParser(std::string text, const std::string& label, const ModelSpec& spec, const std::string& file,
+             long line)
+      : s_(std::move(text)), label_(label), spec_(spec), file_(file), line_(line) {}
+
+  Term parse() {
+    Term term;
+    if (s_ == "(Intercept)" || s_ == "1") {
+      term.intercept = true;
+      term.canonical = "(Intercept)";
+      return term;
+    }
+    if (s_.empty()) fail("empty term; write a covariate name such as \"tmin\", or \"(Intercept)\"");
+    term.factors.push_back(factor());
+    while (pos_ < s_.size() && s_[pos_] == ':') {
+      ++pos_;
+      term.factors.push_back(factor());
+    }
+    if (pos_ != s_.size())
+      fail("unexpected \"" + s_.substr(pos_) + "\"; terms are products of factors joined by ':', e.g. \"tmin:precip^2\"");
+    canonicalise(term);
+    return term;
+  }
+
+ private:
+  [[noreturn]] void fail(const std::string& why) const {
+    throw InputError(located(file_, line_, "term \"" + label_ + "\": " + why));
+  }
+
+  std::string name() {
+    const std::size_t start = pos_;
+    while (pos_ < s_.size() && (std::isalnum(static_cast<unsigned char>(s_[pos_])) || s_[pos_] == '_' || s_[pos_] == '.'))
+      ++pos_;
+    if (start == pos_) {
+      if (pos_ < s_.size()) fail(std::string("unexpected '") + s_[pos_] + "' where a covariate name was expected");
+      fail("a factor is missing after ':'");
+    }
+    return s_.substr(start, pos_ - start);
+  }
+
+  bool accept(char c) {
+    if (pos_ < s_.size() && s_[pos_] == c) {
+      ++pos_;
+      return true;
+    }
+    return false;
+  }
+
+  void expect(char c, const char* context) {
+    if (!accept(c)) fail(std::string("expected '") + c + "' " + context);
+  }
+
+  int power() {
+    const std::size_t start = pos_;
+    while (pos_ < s_.size() && std::isdigit(static_cast<unsigned char>(s_[pos_]))) ++pos_;
+    int value = 0;
+    const auto [ptr, ec] = std::from_chars(s_.data() + start, s_.data() + pos_, value);
+    (void)ptr;
+    if (start == pos_ || ec != std::errc() || value < 1 || value > kMaxPower)
+      fail("a power must be a whole number from 1 to " + std::to_string(kMaxPower) + ", as in \"x^2\"");
+    return value;
+  }
+
+  int covariate(const std::string& covariate_name) {
+    const int index = spec_.covariate_index(covariate_name);
+    if (index < 0)
+      fail("uses covariate \"" + covariate_name + "\", which is not declared; declared covariates are " +
+           declared_list(spec_));
+    return index;
+  }
+
+  TermFactor continuous_factor(const std::string& covariate_name, TermFunction fn) {
+    TermFactor f;
+    f.covariate = covariate(covariate_name);
+    f.function = fn;
+    if (spec_.covariates[static_cast<std::size_t>(f.covariate)].categorical)
+      fail("covariate \"" + covariate_name + "\" is categorical; use one indicator term per level, e.g. \"" +
+           covariate_name + "[" + first_non_reference_level(f.covariate) + "]\"");
+    return f;
+  }
+
+  std::string first_non_reference_level(int index) const {
+    const Covariate& c = spec_.covariates[static_cast<std::size_t>(index)];
+    for (const Level& l : c.levels)
+      if (l.name != c.reference_level) return l.name;
+    return "LEVEL";
+  }
+
+  TermFactor level_factor(const std::string& covariate_name) {
+    TermFactor f;
+    f.covariate = covariate(covariate_name);
+    const Covariate& c = spec_.covariates[static_cast<std::size_t>(f.covariate)];
+    const std::size_t close = s_.find(']', pos_);
+    if (close == std::string::npos) fail("missing ']' after the level name");
+    const std::string level = s_.substr(pos_, close - pos_);
+    pos_ = close + 1;
+    if (!c.categorical)
+      fail("\"" + covariate_name + "[...]\" selects a level, but \"" + covariate_name +
+           "\" is continuous; declare it with type = \"categorical\" and its levels");
+    for (std::size_t i = 0; i < c.levels.size(); ++i) {
+      if (c.levels[i].name == level || std::to_string(c.levels[i].code) == level) {
+        f.level = static_cast<int>(i);
+        return f;
+      }
+    }
+    std::string known;
+    for (const Level& l : c.levels) known += (known.empty() ? "" : ", ") + l.name;
+    fail("\"" + level + "\" is not a level of \"" + covariate_name + "\"; its levels are " + known);
+  }
+
+  TermFactor factor() {
+    TermFactor f;
+    const std::string word = name();
+    if (accept('(')) {
+      if (word == "I") {
+        // R's I(x^2): the power sits inside the parentheses.
+        f = continuous_factor(name(), TermFunction::none);
+        if (accept('^')) f.power = power();
+        expect(')', "to close I(...)");
+      } else {
+        TermFunction fn;
+        if (word == "log") fn = TermFunction::log;
+        else if (word == "log1p") fn = TermFunction::log1p;
+        else if (word == "sqrt") fn = TermFunction::sqrt;
+        else if (word == "exp") fn = TermFunction::exp;
+        else
+          fail("unknown function \"" + word + "\"; term functions are log, log1p, sqrt, exp and I(x^k)");
+        f = continuous_factor(name(), fn);
+        expect(')', "to close " + word + "(...)");
+      }
+    } else if (accept('[')) {
+      f = level_factor(word);
+      if (pos_ < s_.size() && s_[pos_] == '^') fail("a level indicator is 0 or 1; it cannot carry a power");
+      return f;
+    } else {
+      f = continuous_factor(word, TermFunction::none);
+    }
+    if (accept('^')) {
+      const int p = power();
+      if (f.power != 1) fail("a power is given twice");
+      f.power = p;
+    }
+    return f;
+  }
+
+  void expect(char c, const std::string& context) { expect(c, context.c_str()); }
+
+  void canonicalise(Term& term) const {
+    auto key = [](const TermFactor& f) { return std::tie(f.covariate, f.level, f.function); };
+    std::sort(term.factors.begin(), term.factors.end(),
+              [&](const TermFactor& a, const TermFactor& b) { return key(a) < key(b); });
+    std::vector<TermFactor> merged;
+    for (const TermFactor& f : term.factors) {
+      if (!merged.empty() && key(merged.back()) == key(f)) {
+        if (f.level >= 0) fail("repeats the indicator of one level; it is already 0 or 1");
+        merged.back().power += f.power;
+        // The documented bound (term_syntax.hpp: up to 18, as in x^9:x^9). Without it "x:x:...:x"
+        // could ask for any power, evaluated by that many multiplications per pixel.
+        if (merged.back().power > 2 * kMaxPower)
+          fail("the powers of one factor add up to " + std::to_string(merged.back().power) + "; at most " +
+               std::to_string(2 * kMaxPower) + " are allowed. Write the term with one power, e.g. \"x^3\"");
+      } else {
+        merged.push_back(f);
+      }
+    }
+    for (std::size_t i = 1; i < merged.size(); ++i)
+      if (merged[i].level >= 0 && merged[i - 1].level >= 0 && merged[i].covariate == merged[i - 1].covariate)
+        fail("multiplies two levels of the same categorical covariate; the product is always 0");
+    term.factors = std::move(merged);
+    std::string label;
+    for (const TermFactor& f : term.factors) {
+      const Covariate& c = spec_.covariates[static_cast<std::size_t>(f.covariate)];
+      std::string part;
+      if (f.level >= 0) {
+        part = c.name + "[" + c.levels[static_cast<std::size_t>(f.level)].name + "]";
+      } else {
+        if (f.function == TermFunction::none) {
+          part = c.name;
+        } else {
+          part.append(to_string(f.function)).append("(").append(c.name).append(")");
+        }
+        if (f.power != 1) part.append("^").append(std::to_string(f.power));
+      }
+      if (!label.empty()) label.append(":");
+      label.append(part);
+    }
+    term.canonical = label;
+  }
+
+  std::string s_;
+  const std::string& label_;
+  const ModelSpec& spec_;
+  const std::string& file_;
+  long line_;
+  std::size_t pos_ = 0;
+};
+
+}  // namespace
+
+Term parse_term(const std::string& label, const ModelSpec& spec, const std::string& file, long line) {
+  std::string compact;
+  for (char ch : label)
+    if (!std::isspace(static_cast<unsigned char>(ch))) compact += ch;
+  return TermParser(compact, label, spec, file, line).parse();
+}
+
+}  // namespace habcast

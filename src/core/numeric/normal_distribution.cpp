@@ -1,0 +1,81 @@
+#include "core/numeric/normal_distribution.hpp"
+
+#include <cmath>
+#include <limits>
+#include <numbers>
+
+namespace habcast {
+
+double normal_cdf(double x) { return 0.5 * std::erfc(-x / std::numbers::sqrt2); }
+
+double normal_pdf(double x) {
+  constexpr double inv_sqrt_2pi = 0.398942280401432677939946059934;
+  return inv_sqrt_2pi * std::exp(-0.5 * x * x);
+}
+
+namespace {
+
+// Horner evaluation of a polynomial with coefficients from the constant term upwards.
+template <std::size_t N>
+double poly(const double (&c)[N], double x) {
+  double r = c[N - 1];
+  for (std::size_t i = N - 1; i-- > 0;) r = r * x + c[i];
+  return r;
+}
+
+}  // namespace
+
+// Wichura, M. J. (1988). Algorithm AS 241: The percentage points of the normal distribution.
+// Applied Statistics 37(3), 477-484. Coefficients of PPND16.
+double normal_quantile(double p) {
+  if (std::isnan(p) || p < 0.0 || p > 1.0) return std::numeric_limits<double>::quiet_NaN();
+  if (p == 0.0) return -std::numeric_limits<double>::infinity();
+  if (p == 1.0) return std::numeric_limits<double>::infinity();
+
+  static constexpr double a[] = {3.3871328727963666080e0, 1.3314166789178437745e+2,
+                                 1.9715909503065514427e+3, 1.3731693765509461125e+4,
+                                 4.5921953931549871457e+4, 6.7265770927008700853e+4,
+                                 3.3430575583588128105e+4, 2.5090809287301226727e+3};
+  static constexpr double b[] = {1.0,
+                                 4.2313330701600911252e+1, 6.8718700749205790830e+2,
+                                 5.3941960214247511077e+3, 2.1213794301586595867e+4,
+                                 3.9307895800092710610e+4, 2.8729085735721942674e+4,
+                                 5.2264952788528545610e+3};
+  static constexpr double c[] = {1.42343711074968357734e0, 4.63033784615654529590e0,
+                                 5.76949722146069140550e0, 3.64784832476320460504e0,
+                                 1.27045825245236838258e0, 2.41780725177450611770e-1,
+                                 2.27238449892691845833e-2, 7.74545014278341407640e-4};
+  static constexpr double d[] = {1.0,
+                                 2.05319162663775882187e0, 1.67638483018380384940e0,
+                                 6.89767334985100004550e-1, 1.48103976427480074590e-1,
+                                 1.51986665636164571966e-2, 5.47593808499534494600e-4,
+                                 1.05075007164441684324e-9};
+  static constexpr double e[] = {6.65790464350110377720e0, 5.46378491116411436990e0,
+                                 1.78482653991729133580e0, 2.96560571828504891230e-1,
+                                 2.65321895265761230930e-2, 1.24266094738807843860e-3,
+                                 2.71155556874348757815e-5, 2.01033439929228813265e-7};
+  static constexpr double f[] = {1.0,
+                                 5.99832206555887937690e-1, 1.36929880922735805310e-1,
+                                 1.48753612908506148525e-2, 7.86869131145613259100e-4,
+                                 1.84631831751005468180e-5, 1.42151175831644588870e-7,
+                                 2.04426310338993978564e-15};
+
+  const double q = p - 0.5;
+  if (std::fabs(q) <= 0.425) {
+    const double r = 0.180625 - q * q;
+    return q * poly(a, r) / poly(b, r);
+  }
+  double r = q < 0.0 ? p : 1.0 - p;
+  r = std::sqrt(-std::log(r));
+  double value;
+  if (r <= 5.0) {
+    r -= 1.6;
+    value = poly(c, r) / poly(d, r);
+  } else {
+    r -= 5.0;
+    value = poly(e, r) / poly(f, r);
+  }
+  return q < 0.0 ? -value : value;
+}
+
+}  // namespace habcast

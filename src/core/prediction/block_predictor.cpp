@@ -1,0 +1,128 @@
+#include "core/prediction/block_predictor.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "core/domain/extrapolation_flags.hpp"
+
+namespace habcast {
+
+void PredictionTally::merge(const PredictionTally& other) {
+  if (other.predicted > 0) {
+    min_response = predicted > 0 ? std::min(min_response, other.min_response) : other.min_response;
+    max_response = predicted > 0 ? std::max(max_response, other.max_response) : other.max_response;
+  }
+  pixels += other.pixels;
+  missing_input += other.missing_input;
+  outside_transform += other.outside_transform;
+  unknown_level += other.unknown_level;
+  undefined_term += other.undefined_term;
+  not_representable += other.not_representable;
+  moved_off_nodata += other.moved_off_nodata;
+  predicted += other.predicted;
+  low_certainty += other.low_certainty;
+  sum_response += other.sum_response;
+  domain.merge(other.domain);
+}
+
+bool is_low_certainty(Family family, double lower, double upper) {
+  if (family == Family::binomial) return upper - lower > 0.5;
+  if (lower <= 0.0) return upper > 0.0;
+  return upper > 3.0 * lower;
+}
+
+BlockPredictor::BlockPredictor(const ModelSpec& spec, const TermPlan& plan, const Evaluator& evaluator,
+                               const TrainingDomain* domain, const NoveltyModel* novelty)
+    : spec_(spec), plan_(plan), evaluator_(evaluator), domain_(domain), novelty_(domain ? novelty : nullptr) {}
+
+namespace {
+
+bool representable(double v) {
+  return std::isfinite(v) && std::fabs(v) <= static_cast<double>(std::numeric_limits<float>::max());
+}
+
+float to_output(double v) { return representable(v) ? static_cast<float>(v) : kFloatNodata; }
+
+/// A computed value that lands exactly on the nodata marker (possible for an identity link, whose
+/// means and limits can take any value) would read as "no data"; it moves one Float32 step
+/// towards zero instead (a relative change of 6e-8), and is counted.
+float off_nodata(float v, std::int64_t& moved) {
+  if (v != kFloatNodata) return v;
+  ++moved;
+  return std::nextafter(kFloatNodata, 0.0f);
+}
+
+/// A value for a Float32 output band that must never be mistaken for nodata: nodata where Float32
+/// cannot hold it, moved off the marker where it equals it.
+float to_output_off_nodata(double v, std::int64_t& moved) {
+  return representable(v) ? off_nodata(static_cast<float>(v), moved) : kFloatNodata;
+}
+
+}  // namespace
+
+void BlockPredictor::run(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows,
+                         BlockOutputs& out, PredictionTally& tally) {
+  const auto n = static_cast<std::size_t>(rows);
+  out.suitability.assign(n, kFloatNodata);
+  const bool with_se = evaluator_.has_covariance();
+  out.se.assign(with_se ? n : 0, kFloatNodata);
+  out.lower.assign(with_se ? n : 0, kFloatNodata);
+  out.upper.assign(with_se ? n : 0, kFloatNodata);
+  out.flags.assign(domain_ ? n : 0, flag::nodata);
+
+  predict_valid_.assign(valid.begin(), valid.begin() + static_cast<std::ptrdiff_t>(n));
+  tally.pixels += rows;
+  for (std::size_t i = 0; i < n; ++i) tally.missing_input += valid[i] ? 0 : 1;
+  if (domain_) {
+    domain_->flag(raw, rows, valid.data(), out.flags.data(), tally.domain);
+    if (novelty_) novelty_->check(raw, rows, valid.data(), out.flags.data(), out.novelty, tally.domain);
+    TrainingDomain::count_causes(rows, valid.data(), out.flags.data(), tally.domain);
+  }
+
+  raw_ = &raw;
+  for (Eigen::Index first = 0; first < rows; first += kChunk)
+    run_chunk(first, std::min(kChunk, rows - first), out, tally);
+  raw_ = nullptr;
+}
+
+void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally) {
+  std::uint8_t* ok = predict_valid_.data() + first;
+  ModelValueCounts counts;
+  to_model_values(spec_, plan_, *raw_, first, rows, values_, ok, counts);
+  tally.outside_transform += counts.outside_transform;
+  tally.unknown_level += counts.unknown_level;
+
+  tally.undefined_term += plan_.fill(values_, rows, X_, ok);
+  plan_.fill_offset(values_, rows, offset_, ok);
+  evaluator_.evaluate(X_, rows, offset_, prediction_);
+
+  const bool with_se = evaluator_.has_covariance();
+  for (Eigen::Index i = 0; i < rows; ++i) {
+    if (!ok[i]) continue;
+    const auto o = static_cast<std::size_t>(first + i);
+    const double mu = prediction_.mu[i];
+    if (!representable(mu)) {
+      ++tally.not_representable;
+      continue;
+    }
+    out.suitability[o] = off_nodata(static_cast<float>(mu), tally.moved_off_nodata);
+    if (tally.predicted == 0) {
+      tally.min_response = mu;
+      tally.max_response = mu;
+    } else {
+      tally.min_response = std::min(tally.min_response, mu);
+      tally.max_response = std::max(tally.max_response, mu);
+    }
+    ++tally.predicted;
+    tally.sum_response += mu;
+    if (with_se) {
+      out.se[o] = to_output(prediction_.se_mu[i]);
+      out.lower[o] = to_output_off_nodata(prediction_.lower[i], tally.moved_off_nodata);
+      out.upper[o] = to_output_off_nodata(prediction_.upper[i], tally.moved_off_nodata);
+      if (is_low_certainty(spec_.family, prediction_.lower[i], prediction_.upper[i])) ++tally.low_certainty;
+    }
+  }
+}
+
+}  // namespace habcast

@@ -1,0 +1,86 @@
+#pragma once
+// One block of pixels from raw covariate values to output arrays and tallies: model values, design
+// matrix, prediction, extrapolation flags. Pure computation; one instance per worker thread.
+#include <Eigen/Core>
+#include <cstdint>
+#include <vector>
+
+#include "core/domain/novelty_model.hpp"
+#include "core/domain/training_domain.hpp"
+#include "core/model/evaluator.hpp"
+#include "core/model/float_nodata.hpp"
+#include "core/model/model_spec.hpp"
+#include "core/model/model_values.hpp"
+#include "core/model/term_plan.hpp"
+
+namespace habcast {
+
+/// Pixel counts of a block; merged across blocks in block order, so totals (including the
+/// floating-point sum) are the same for any number of threads.
+struct PredictionTally {
+  std::int64_t pixels = 0;             ///< all pixels of the block
+  std::int64_t missing_input = 0;      ///< some covariate is nodata or not finite
+  std::int64_t outside_transform = 0;  ///< raw value outside a covariate transform's domain
+  std::int64_t unknown_level = 0;      ///< categorical code not declared in the model
+  std::int64_t undefined_term = 0;     ///< a term function undefined (log of <= 0, ...)
+  std::int64_t not_representable = 0; ///< response beyond the Float32 range (written as nodata)
+  std::int64_t moved_off_nodata = 0;   ///< predicted values equal to the nodata marker, moved one Float32 step
+  std::int64_t predicted = 0;          ///< pixels with a suitability value
+  std::int64_t low_certainty = 0;      ///< predicted pixels whose interval is wide (see is_low_certainty)
+  double sum_response = 0.0;
+  double min_response = 0.0;
+  double max_response = 0.0;
+  DomainTally domain;
+
+  explicit PredictionTally(std::size_t covariates = 0) : domain(covariates) {}
+  void merge(const PredictionTally& other);
+};
+
+/// Whether a prediction is too uncertain to read as a value: for probabilities a confidence
+/// interval wider than 0.5 (it spans most of the scale); for counts and means an interval whose
+/// upper limit exceeds three times the lower one, or one that includes zero (common practice, no
+/// source: thresholds chosen for a plain warning, documented in docs/report.md).
+bool is_low_certainty(Family family, double lower, double upper);
+
+/// Output arrays of one block, row-major over the block's pixels.
+struct BlockOutputs {
+  std::vector<float> suitability;
+  std::vector<float> se;      ///< response-scale standard error
+  std::vector<float> lower;
+  std::vector<float> upper;
+  std::vector<std::uint8_t> flags;
+  NoveltyBlock novelty;  ///< MESS, NT1, NT2 and the covariate with the lowest similarity (empty without a NoveltyModel)
+};
+
+class BlockPredictor {
+ public:
+  /// `domain` may be null (no training samples): then no flags are produced. `novelty` may be
+  /// null (no training samples, or no joint checks asked for).
+  BlockPredictor(const ModelSpec& spec, const TermPlan& plan, const Evaluator& evaluator, const TrainingDomain* domain,
+                 const NoveltyModel* novelty = nullptr);
+
+  /// `raw`: rows x covariates raw values (column per covariate), `valid`: 1 where every covariate
+  /// has data. Resizes and fills `out`; adds counts to `tally`.
+  void run(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows, BlockOutputs& out,
+           PredictionTally& tally);
+
+  /// Pixels per evaluation chunk: bounds the design matrix to chunk x terms doubles.
+  static constexpr Eigen::Index kChunk = 4096;
+
+ private:
+  void run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally);
+
+  const ModelSpec& spec_;
+  const TermPlan& plan_;
+  const Evaluator& evaluator_;
+  const TrainingDomain* domain_;
+  const NoveltyModel* novelty_;
+  const Eigen::ArrayXXd* raw_ = nullptr;
+  std::vector<std::uint8_t> predict_valid_;
+  ModelValues values_;
+  Eigen::MatrixXd X_;
+  Eigen::VectorXd offset_;
+  Prediction prediction_;
+};
+
+}  // namespace habcast

@@ -1,0 +1,259 @@
+#include "evaluate/evaluate_run.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <limits>
+#include <sstream>
+
+#include "core/base/error.hpp"
+#include "core/base/number_text.hpp"
+#include "core/stats/boyce_index.hpp"
+#include "core/stats/calibration.hpp"
+#include "core/stats/discrimination.hpp"
+#include "evaluate/binary_map.hpp"
+#include "evaluate/score_source.hpp"
+#include "pipeline/atomic_file.hpp"
+#include "pipeline/output_guard.hpp"
+#include "raster/gdal_session.hpp"
+#include "raster/point_sampler.hpp"
+#include "raster/point_source.hpp"
+#include "raster/point_transform.hpp"
+#include "render/evaluation_svg.hpp"
+
+namespace habcast {
+
+namespace {
+
+namespace fs = std::filesystem;
+
+/// SplitMix64 (Steele, Lea & Flood 2014, "Fast splittable pseudorandom number generators",
+/// OOPSLA): fully specified, so background points are the same on every platform and compiler.
+class SplitMix64 {
+ public:
+  explicit SplitMix64(std::uint64_t seed) : state_(seed) {}
+  std::uint64_t next() {
+    std::uint64_t z = (state_ += 0x9E3779B97F4A7C15ULL);
+    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
+    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
+    return z ^ (z >> 31);
+  }
+
+ private:
+  std::uint64_t state_;
+};
+
+double json_number(double v) { return std::isfinite(v) ? v : std::numeric_limits<double>::quiet_NaN(); }
+
+nlohmann::ordered_json confusion_json(const Confusion& c) {
+  return {{"threshold", c.threshold},       {"sensitivity", c.sensitivity()}, {"specificity", c.specificity()},
+          {"tss", c.tss()},                 {"true_positive", c.true_positive}, {"false_negative", c.false_negative},
+          {"true_negative", c.true_negative}, {"false_positive", c.false_positive}};
+}
+
+struct Observations {
+  std::vector<double> scores;
+  std::vector<std::uint8_t> observed;
+  std::int64_t read = 0, outside = 0, nodata = 0, not_transformed = 0, no_response = 0;
+};
+
+Observations observe_points(const EvaluateOptions& o, ScoreSource& source, std::string& crs_name) {
+  PointSourceOptions po = o.points;
+  if (!o.response.empty()) po.columns = {o.response};
+  Points pts = read_points(po);
+  const std::string crs = !o.points_crs.empty() ? o.points_crs : !pts.crs_wkt.empty() ? pts.crs_wkt : "EPSG:4326";
+  const PointTransformer transformer(crs, source.grid().crs_wkt, o.points.path);
+  crs_name = transformer.source_name();
+  std::vector<std::uint8_t> ok;
+  transformer.transform(pts.x, pts.y, ok);
+  SampledPoints status;
+  const std::vector<double> scores = source.at_points(pts.x, pts.y, ok, &status);
+  Observations obs;
+  obs.read = static_cast<std::int64_t>(pts.size());
+  for (std::size_t i = 0; i < pts.size(); ++i) {
+    if (status.status[i] == PointStatus::not_transformed) { ++obs.not_transformed; continue; }
+    if (status.status[i] == PointStatus::outside) { ++obs.outside; continue; }
+    if (std::isnan(scores[i])) { ++obs.nodata; continue; }
+    std::uint8_t observed = 1;
+    if (!o.response.empty()) {
+      const double v = pts.values[0][i];
+      if (std::isnan(v)) { ++obs.no_response; continue; }
+      if (v != 0.0 && v != 1.0)
+        throw InputError(pts.where[i] + ": observed value " + significant(v, 4) + " in column \"" + o.response +
+                         "\" is not 0 (absent) or 1 (present)");
+      observed = static_cast<std::uint8_t>(v);
+      if (o.presence_only && !observed) continue;  // presence-only: absences in the file are not used
+    }
+    obs.scores.push_back(scores[i]);
+    obs.observed.push_back(observed);
+  }
+  if (obs.scores.empty())
+    throw InputError(o.points.path + ": none of the " + std::to_string(obs.read) + " points has a prediction: " +
+                     std::to_string(obs.outside) + " outside the grid, " + std::to_string(obs.nodata) + " on nodata, " +
+                     std::to_string(obs.not_transformed) + " not transformable, " + std::to_string(obs.no_response) +
+                     " without an observed value. Check the points' CRS (--crs; default EPSG:4326, longitude in x) and "
+                     "the --x/--y columns");
+  return obs;
+}
+
+}  // namespace
+
+BackgroundSample sample_background(ScoreSource& source, int count, std::uint64_t seed) {
+  const RasterGrid& g = source.grid();
+  const auto pixels = static_cast<std::uint64_t>(g.width) * static_cast<std::uint64_t>(g.height);
+  SplitMix64 rng(seed);
+  BackgroundSample b;
+  const std::int64_t max_draws = 50LL * count;  // gives up on grids that are almost all nodata
+  while (static_cast<int>(b.scores.size()) < count && b.draws < max_draws) {
+    std::vector<double> x, y;
+    const int batch = count - static_cast<int>(b.scores.size());
+    for (int k = 0; k < batch; ++k) {
+      // Modulo of a 64-bit draw: the bias is below pixels / 2^64, far below anything measurable.
+      const std::uint64_t p = rng.next() % pixels;
+      const double col = static_cast<double>(p % static_cast<std::uint64_t>(g.width)) + 0.5;
+      const double row = static_cast<double>(p / static_cast<std::uint64_t>(g.width)) + 0.5;
+      const auto& gt = g.geotransform;
+      x.push_back(gt[0] + col * gt[1] + row * gt[2]);
+      y.push_back(gt[3] + col * gt[4] + row * gt[5]);
+    }
+    b.draws += batch;
+    const std::vector<double> s = source.at_points(x, y, std::vector<std::uint8_t>(x.size(), 1), nullptr);
+    for (std::size_t k = 0; k < s.size(); ++k)
+      if (!std::isnan(s[k])) {
+        b.x.push_back(x[k]);
+        b.y.push_back(y[k]);
+        b.scores.push_back(s[k]);
+      }
+  }
+  if (b.scores.empty())
+    throw InputError(source.describe() + ": no pixel with a prediction was found in " + std::to_string(b.draws) +
+                     " random draws; the grid is nodata everywhere");
+  return b;
+}
+
+EvaluateSummary run_evaluate(const EvaluateOptions& o, const std::string& tool_version) {
+  if (o.prediction_path.empty() == o.model_path.empty())
+    throw UsageError("give either --prediction FILE.tif (e.g. predict's suitability.tif) or --model MODEL.toml");
+  if (!o.presence_only && o.response.empty())
+    throw UsageError("--response COLUMN (observed 0/1) is required, or --presence-only to compare presences with "
+                     "background points drawn from the grid");
+  if (o.threshold && !(std::isfinite(*o.threshold))) throw UsageError("--threshold must be a number");
+  if (o.background < 10 && o.presence_only) throw UsageError("--background needs at least 10 points");
+  refuse_to_clobber({o.svg_path, o.binary_path}, o.overwrite);
+  ensure_gdal();
+
+  std::unique_ptr<ScoreSource> source =
+      o.model_path.empty() ? ScoreSource::from_raster(o.prediction_path) : ScoreSource::from_model(o.model_path, o.covariate_rasters);
+  std::string crs_name;
+  Observations obs = observe_points(o, *source, crs_name);
+  EvaluateSummary summary;
+  nlohmann::ordered_json& r = summary.report;
+  r["habcast_version"] = tool_version;
+  r["predictions"] = source->describe();
+  r["points"] = {{"file", o.points.path}, {"crs", crs_name},        {"read", obs.read},
+                 {"used", static_cast<std::int64_t>(obs.scores.size())}, {"outside_grid", obs.outside},
+                 {"on_nodata", obs.nodata}, {"not_transformed", obs.not_transformed}, {"no_observation", obs.no_response}};
+
+  std::vector<double> presence_scores;
+  for (std::size_t i = 0; i < obs.scores.size(); ++i)
+    if (obs.observed[i]) presence_scores.push_back(obs.scores[i]);
+  std::optional<BackgroundSample> background;
+  if (o.presence_only) {
+    background = sample_background(*source, o.background, o.seed);
+    r["mode"] = "presence-only";
+    r["background"] = {{"requested", o.background}, {"drawn", static_cast<std::int64_t>(background->scores.size())},
+                       {"seed", o.seed}, {"method", "uniform over grid pixels with replacement, nodata skipped (SplitMix64)"}};
+    obs.scores = presence_scores;
+    obs.observed.assign(presence_scores.size(), 1);
+    obs.scores.insert(obs.scores.end(), background->scores.begin(), background->scores.end());
+    obs.observed.insert(obs.observed.end(), background->scores.size(), 0);
+    if (static_cast<int>(background->scores.size()) < o.background)
+      summary.warnings.push_back("only " + std::to_string(background->scores.size()) + " background points found in " +
+                                 std::to_string(background->draws) + " draws; the grid is mostly nodata");
+  } else {
+    r["mode"] = "presence-absence";
+  }
+
+  const Discrimination d = discriminate(obs.scores, obs.observed);
+  r["presences"] = d.presences;
+  r[o.presence_only ? "background_points" : "absences"] = d.absences;
+  r["auc"] = {{"value", d.auc}, {"standard_error", d.auc_se}, {"lower_95", d.auc_lower}, {"upper_95", d.auc_upper},
+              {"method", "Mann-Whitney U / (n1 n0); standard error of Hanley & McNeil (1982)"}};
+  r["max_tss"] = confusion_json(d.best);
+  if (o.threshold) r["at_threshold"] = confusion_json(confusion_at(obs.scores, obs.observed, *o.threshold));
+
+  std::optional<std::vector<CalibrationBin>> calibration;
+  const bool probabilities = std::all_of(obs.scores.begin(), obs.scores.end(), [](double s) { return s >= 0.0 && s <= 1.0; });
+  if (!o.presence_only && probabilities) {
+    calibration = calibration_table(obs.scores, obs.observed, o.bins);
+    nlohmann::ordered_json bins = nlohmann::ordered_json::array();
+    for (const CalibrationBin& b : *calibration)
+      bins.push_back({{"lower", b.lower}, {"upper", b.upper}, {"count", b.count}, {"presences", b.presences},
+                      {"mean_predicted", json_number(b.mean_predicted)}, {"observed_rate", json_number(b.observed_rate)}});
+    r["calibration"] = bins;
+  } else if (!o.presence_only) {
+    summary.warnings.push_back("predictions are not all probabilities in [0, 1]; no calibration table");
+  }
+  std::optional<BoyceResult> boyce;
+  if (o.presence_only) {
+    boyce = boyce_index(presence_scores, background->scores, o.boyce_width);
+    r["boyce"] = {{"index", json_number(boyce->index)}, {"window_width_share", o.boyce_width},
+                  {"windows_used", static_cast<std::int64_t>(boyce->windows.size())},
+                  {"method", "continuous Boyce index, Hirzel et al. (2006)"}};
+  }
+
+  std::ostringstream t;
+  t << "Predictions: " << source->describe() << "\n";
+  t << "Points: " << obs.read << " read (CRS " << crs_name << "); " << d.presences << " presences";
+  if (o.presence_only) t << " against " << d.absences << " background points (seed " << o.seed << ")";
+  else t << ", " << d.absences << " absences";
+  if (obs.outside + obs.nodata + obs.not_transformed + obs.no_response > 0)
+    t << "; not used: " << obs.outside << " outside the grid, " << obs.nodata << " on nodata, " << obs.no_response
+      << " without an observation";
+  t << ".\n\n";
+  t << "AUC " << significant(d.auc, 4) << " (SE " << significant(d.auc_se, 2) << ", 95% interval " << significant(d.auc_lower, 4) << " to "
+    << significant(d.auc_upper, 4) << ")" << (o.presence_only ? ": presences against background, not absences" : "") << "\n";
+  t << "Best threshold by TSS: " << significant(d.best.threshold, 4) << " (TSS " << significant(d.best.tss(), 3) << ", sensitivity "
+    << significant(d.best.sensitivity(), 3) << ", specificity " << significant(d.best.specificity(), 3) << ")\n";
+  if (o.threshold) {
+    const Confusion c = confusion_at(obs.scores, obs.observed, *o.threshold);
+    t << "At threshold " << significant(*o.threshold, 4) << ": sensitivity " << significant(c.sensitivity(), 3) << ", specificity "
+      << significant(c.specificity(), 3) << ", TSS " << significant(c.tss(), 3) << "\n";
+  }
+  if (boyce) t << "Continuous Boyce index " << significant(boyce->index, 3) << " (from -1 to 1; above 0 means presences favour high predictions)\n";
+  if (calibration) {
+    t << "\nCalibration (" << o.bins << " bins):\n  bin            points  mean predicted  observed\n";
+    for (const CalibrationBin& b : *calibration) {
+      char line[128];
+      if (b.count == 0) std::snprintf(line, sizeof line, "  %.2f-%.2f  %8lld               -         -\n", b.lower, b.upper, 0LL);
+      else
+        std::snprintf(line, sizeof line, "  %.2f-%.2f  %8lld  %14.3f  %8.3f\n", b.lower, b.upper,
+                      static_cast<long long>(b.count), b.mean_predicted, b.observed_rate);
+      t << line;
+    }
+  }
+
+  if (!o.svg_path.empty()) {
+    write_file_atomically(o.svg_path, evaluation_svg(d, calibration ? &*calibration : nullptr, boyce ? &*boyce : nullptr,
+                                                     "habcast evaluate: " + source->describe() + " with " + o.points.path));
+    r["svg"] = o.svg_path;
+    t << "\nWrote " << o.svg_path << "\n";
+  }
+  if (!o.binary_path.empty()) {
+    const double threshold = o.threshold.value_or(d.best.threshold);
+    const std::string rule = o.threshold ? "fixed threshold " + significant(threshold, 17) + " given with --threshold"
+                                         : "threshold maximising TSS (sensitivity + specificity - 1) at the " +
+                                               std::to_string(d.presences + d.absences) + " evaluation points: " +
+                                               significant(threshold, 17);
+    const BinaryMapCounts counts = write_binary_map(*source, o.binary_path, threshold, rule, tool_version);
+    r["binary_map"] = {{"file", o.binary_path}, {"threshold", threshold}, {"rule", rule},
+                       {"present_pixels", counts.present}, {"absent_pixels", counts.absent}, {"nodata_pixels", counts.nodata}};
+    t << "Wrote " << o.binary_path << " (1 where prediction >= " << significant(threshold, 4) << ")\n";
+  }
+  r["warnings"] = summary.warnings;
+  summary.text = t.str();
+  return summary;
+}
+
+}  // namespace habcast

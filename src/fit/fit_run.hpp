@@ -1,0 +1,50 @@
+#pragma once
+// `habcast fit` as a library call: points + covariate rasters + formula -> IRLS -> model file and
+// training samples CSV, ready for predict.
+#include <cstdint>
+#include <map>
+#include <string>
+#include <vector>
+
+#include "core/model/model_spec.hpp"
+#include "core/stats/coefficient_table.hpp"
+#include "core/stats/irls.hpp"
+#include "fit/fit_options.hpp"
+
+namespace habcast {
+
+/// What happened to the points on their way into the fit.
+struct PointCounts {
+  std::int64_t total = 0;
+  std::int64_t not_transformed = 0;   ///< PROJ could not transform them
+  std::int64_t outside = 0;           ///< outside the raster grid
+  std::int64_t nodata = 0;            ///< on nodata in some covariate
+  std::map<std::string, std::int64_t> nodata_by_covariate;
+  std::int64_t missing_response = 0;  ///< response, weight or offset missing
+  std::int64_t unusable = 0;          ///< a transform or term undefined, or an unknown level
+  std::int64_t used = 0;
+  std::int64_t shared_pixels = 0;     ///< pixels holding more than one used point
+  std::int64_t points_in_shared = 0;  ///< used points in such pixels
+  std::vector<std::string> shared_examples;  ///< "a.csv:3 and a.csv:9 share pixel (row 4, column 7)"
+  std::int64_t bilinear_fallbacks = 0;
+};
+
+struct FitSummary {
+  ModelSpec spec;
+  GlmFit fit;
+  std::vector<CoefficientRow> table;
+  PointCounts counts;
+  std::string points_crs_name;
+  std::vector<std::string> warnings;
+  std::string model_path;
+  std::string samples_path;
+};
+
+/// Runs the fit. Throws UsageError, InputError (naming the points file, raster or formula and
+/// what to do) or IoError; writes nothing unless the fit succeeds.
+FitSummary run_fit(const FitOptions& options, const std::string& tool_version);
+
+/// Plain-text report: counts, fit statistics and the coefficient table.
+std::string format_fit_summary(const FitSummary& summary);
+
+}  // namespace habcast
