@@ -100,17 +100,20 @@ TEST_CASE("fit drops points outside the grid and on nodata, counts them, and rep
   CHECK(out.find("18 used") != std::string::npos);
   CHECK(out.find("1 outside the grid") != std::string::npos);
   CHECK(out.find("1 on nodata (elev 1)") != std::string::npos);
-  CHECK(err.find("2 points share 1 pixels") != std::string::npos);
+  CHECK(err.find("2 points share 1 pixel (") != std::string::npos);  // "1 pixel", not "1 pixels"
   CHECK(err.find("p.csv:20 and") != std::string::npos);
 }
 
 TEST_CASE("fit explains a file whose points all miss the grid, pointing at the CRS", "[fit]") {
   SmallScene s;
   std::string out, err;
-  // UTM coordinates read with the default EPSG:4326: not longitudes and latitudes at all.
+  // UTM coordinates read with the default EPSG:4326: not longitudes and latitudes at all, and
+  // said so before any sampling (not "the points fall in x inf to inf").
   CHECK(s.fit("x,y,obs\n" + utm_row(3, 3, "1") + utm_row(4, 4, "0"), {}, &out, &err) == 3);
-  CHECK(err.find("none of the 2 points can be used") != std::string::npos);
-  CHECK(err.find("Check the points' CRS (--crs; the default is EPSG:4326") != std::string::npos);
+  CHECK(err.find("all 2 lie outside any longitude/latitude") != std::string::npos);
+  CHECK(err.find("They look projected") != std::string::npos);
+  CHECK(err.find("Give their CRS with --crs") != std::string::npos);
+  CHECK(err.find("inf") == std::string::npos);
   // Right CRS, wrong place: all outside, and the message compares the extents.
   CHECK(s.fit("x,y,obs\n500000,4000000,1\n500100,4000000,0\n", {"--crs", "EPSG:32630"}, &out, &err) == 3);
   CHECK(err.find("2 outside the raster grid") != std::string::npos);
