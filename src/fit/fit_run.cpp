@@ -173,15 +173,18 @@ std::string untrained_warning(const std::vector<UntrainedClass>& classes, const 
   for (const SamplingInput& in : inputs) {
     std::string list;
     double share = 0.0;
+    int count = 0;
     for (const UntrainedClass& u : classes) {
       if (u.covariate != in.name) continue;
       list += (list.empty() ? "" : ", ") + (u.name == std::to_string(u.code) ? "code " + u.name : u.name + " (code " + std::to_string(u.code) + ")") +
               " " + significant(100.0 * u.share, 3) + " %";
       share += u.share;
+      ++count;
     }
     if (list.empty()) continue;
     text += (text.empty() ? "" : "; ") + ("covariate \"" + in.name + "\" (" + in.path + ") has classes without a training point: " +
-                                          list + " of the raster's valid pixels (" + significant(100.0 * share, 3) + " % in all)");
+                                          list + " of the raster's valid pixels" +
+                                          (count > 1 ? " (" + significant(100.0 * share, 3) + " % in all)" : std::string()));
   }
   return text + ". The model has no coefficient for them: predict gives their pixels no prediction (nodata) and flags "
                 "them as an unseen category in extrapolation.tif. Add training points in those classes, or mask them out";
