@@ -198,6 +198,14 @@ TEST_CASE("evaluate warns when its points fall on the model's training sites, wi
   CHECK(j["training_overlap"]["points"] == 78);
   CHECK(j["training_overlap"]["share"].get<double>() == 1.0);
   CHECK(j["training_overlap"]["rule"].get<std::string>().find("same pixel") != std::string::npos);
+  // A prediction raster names its model file in its metadata: the check follows it.
+  const std::string maps = s.dir.file("maps");
+  REQUIRE(test::run_cli({"predict", s.model, "-o", maps}, &out, &err) == 0);
+  REQUIRE(test::run_cli({"evaluate", s.csv, "--prediction", maps + "/suitability.tif", "--crs", "EPSG:32630", "--response", "obs",
+                         "--json"},
+                        &out, &err) == 0);
+  CHECK(nlohmann::json::parse(out)["training_overlap"]["points"] == 78);
+  CHECK(err.find("same pixel as a training site") != std::string::npos);
   // Independent points elsewhere on the grid raise no such warning.
   const std::string other = s.dir.file("other.csv");
   std::string text = "x,y,obs\n";
