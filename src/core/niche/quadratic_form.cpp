@@ -188,7 +188,7 @@ QuadraticForm extract_quadratic_form(const ModelSpec& spec, const TermPlan& plan
   if (const auto& offset = plan.offset_term()) {
     for (const TermFactor& f : offset->factors)
       if (contains(focus, f.covariate))
-        throw InputError(located(spec.path, 0,
+        throw InputError(located(spec.path, spec.offset_line,
                                  "the offset \"" + *spec.offset_term + "\" depends on \"" +
                                      spec.covariates[static_cast<std::size_t>(f.covariate)].name +
                                      "\"; describe needs an offset that does not involve the analysed covariates"));
@@ -196,7 +196,7 @@ QuadraticForm extract_quadratic_form(const ModelSpec& spec, const TermPlan& plan
     std::uint8_t ok = 1;
     plan.fill_offset(row, 1, off, &ok);
     if (!ok)
-      throw InputError(located(spec.path, 0, "the offset \"" + *spec.offset_term +
+      throw InputError(located(spec.path, spec.offset_line, "the offset \"" + *spec.offset_term +
                                                  "\" is undefined at the reference point; choose --at values"));
     form.offset = off[0];
   }
