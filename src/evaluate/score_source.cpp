@@ -4,6 +4,7 @@
 #include <limits>
 
 #include "core/base/error.hpp"
+#include "core/base/number_text.hpp"
 #include "core/model/evaluator.hpp"
 #include "core/model/model_file.hpp"
 #include "core/model/term_plan.hpp"
@@ -65,7 +66,7 @@ class ModelScores final : public ScoreSource {
   }
   const RasterGrid& grid() const override { return grid_; }
   std::string describe() const override {
-    return spec_.path + " applied to " + std::to_string(inputs_.size()) + " covariate raster(s)";
+    return spec_.path + " applied to " + count_of(static_cast<std::int64_t>(inputs_.size()), "covariate raster");
   }
   std::vector<double> at_points(const std::vector<double>& x, const std::vector<double>& y,
                                 const std::vector<std::uint8_t>& transformed, SampledPoints* status) override {
