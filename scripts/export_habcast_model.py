@@ -16,8 +16,11 @@ Rules the model must follow (a ValueError says which one is broken):
 - terms are plain variables, powers I(x ** k) or I(x^k), products a:b, np.log/np.sqrt/np.exp or
   log/sqrt/exp of a variable, and treatment-coded factors C(x) (or string columns), whose first
   level is the reference;
-- factor levels map to the raster's integer codes via `categorical` (default: 1, 2, ... in the
-  order of the levels);
+- factor levels map to the raster's integer codes via `categorical`. Default: when every level
+  name is an integer ("0", "1", "12"), the code IS the name, so a raster of class codes means what
+  the factor meant; otherwise 1, 2, ... in the order of the levels, and the mapping is printed: the
+  raster must use those codes. A name that is another level's code would make terms and table cells
+  ambiguous, so it raises, naming both readings (docs/model-format.md, "Naming a level");
 - models without a formula need `term_names` (habcast labels, one per column of exog).
 Uses only numpy and statsmodels (Debian: python3-numpy, python3-statsmodels).
 """
@@ -126,15 +129,37 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
             found = sorted(str(v) for v in training_data[var].unique())
         levels[var] = found
 
-    def codes(var):
+    level_codes = {}
+    for var in sorted(factors):
         given = categorical.get(var)
         if given is None:
-            return {lvl: i + 1 for i, lvl in enumerate(levels[var])}
+            if all(re.fullmatch(r"-?[0-9]{1,9}", l) for l in levels[var]):
+                given = {l: int(l) for l in levels[var]}  # integer names: the code is the name
+            else:
+                given = {lvl: i + 1 for i, lvl in enumerate(levels[var])}
+                print("factor %s: raster codes %s (the raster must hold these codes; pass categorical={%r: "
+                      "{LEVEL: CODE, ...}} to choose others)"
+                      % (var, ", ".join("%d = %s" % (c, l) for l, c in given.items()), var), file=sys.stderr)
         given = {str(k): int(v) for k, v in given.items()}
         lacking = [l for l in levels[var] if l not in given]
         if lacking:
             raise ValueError("categorical[%r] lacks level(s) %s" % (var, ", ".join(lacking)))
-        return {l: given[l] for l in levels[var]}
+        mapping = {l: given[l] for l in levels[var]}
+        if len(set(mapping.values())) != len(mapping):
+            raise ValueError("categorical[%r] gives two levels the same code" % var)
+        for l, code in mapping.items():
+            if not re.fullmatch(r"-?[0-9]+", l):
+                continue
+            other = [o for o, c in mapping.items() if c == int(l) and o != l]
+            if other:
+                raise ValueError('factor %s: "%s" would mean two levels in the model file: the level named "%s" '
+                                 '(code %d) and the level with code %s (named "%s"). Give integer-named levels '
+                                 "their own number as code (the default), or rename the levels"
+                                 % (var, l, l, code, l, other[0]))
+        level_codes[var] = mapping
+
+    def codes(var):
+        return level_codes[var]
 
     if samples_path is None:
         stem = os.path.splitext(os.path.basename(model_path))[0]
