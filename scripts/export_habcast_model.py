@@ -21,6 +21,12 @@ Rules the model must follow (a ValueError says which one is broken):
   the factor meant; otherwise 1, 2, ... in the order of the levels, and the mapping is printed: the
   raster must use those codes. A name that is another level's code would make terms and table cells
   ambiguous, so it raises, naming both readings (docs/model-format.md, "Naming a level");
+- a covariate entering only as log(x), log1p(x) or sqrt(x) (np. or not) is written with
+  transform = "log" (...) and the plain term x;
+- an offset or exposure (GLM(..., offset=..., exposure=...)) is written to [coefficients] offset:
+  give it as a habcast expression (offset="log(effort)"), or let the exporter find the column of
+  `training_data` whose x, log(x) (or, for exposure, x) reproduces it; either way it is checked
+  against the model's own offset values;
 - models without a formula need `term_names` (habcast labels, one per column of exog).
 Uses only numpy and statsmodels (Debian: python3-numpy, python3-statsmodels).
 """
@@ -67,6 +73,27 @@ def _part_label(part, factors):
                      "sqrt(x), exp(x) or C(x)" % part)
 
 
+def _transforms(labels, covariates, standardisation, offset_var):
+    """Covariates that enter only as log(x), log1p(x) or sqrt(x) become transform = ...; their
+    term parts become plain x. Returns (labels, {covariate: transform})."""
+    transforms = {}
+    parts = [p for t in labels for p in t.split(":")]
+    for var in covariates:
+        uses = [re.fullmatch(r"(log|log1p|sqrt|exp)?\(?%s\)?(\^[0-9])?" % re.escape(var), p) for p in parts]
+        uses = [m for m, p in zip(uses, parts) if m and re.search(r"\b%s\b" % re.escape(var), p)]
+        fns = {m.group(1) for m in uses}
+        if len(fns) == 1 and next(iter(fns)) in ("log", "log1p", "sqrt") and var not in standardisation \
+                and var != offset_var:
+            transforms[var] = next(iter(fns))
+    if transforms:
+        def plain(part):
+            for var, fn in transforms.items():
+                part = re.sub(r"^%s\(%s\)" % (fn, re.escape(var)), var, part)
+            return part
+        labels = [":".join(plain(p) for p in t.split(":")) for t in labels]
+    return labels, transforms
+
+
 def habcast_terms(exog_names):
     """statsmodels/patsy column names -> (habcast term labels, covariates in order, factor names)."""
     labels, covariates, factors = [], [], {}
@@ -82,8 +109,58 @@ def habcast_terms(exog_names):
     return labels, covariates, set(factors)
 
 
+_FUNCTIONS = {"": lambda x: x, "log": np.log, "log1p": np.log1p, "sqrt": np.sqrt, "exp": np.exp}
+
+
+def _model_offset(model):
+    """The model's total offset on the link scale (offset + log(exposure)), or None."""
+    total = None
+    for attr in ("offset", "exposure"):  # statsmodels stores exposure already logged
+        v = getattr(model, attr, None)
+        if v is not None and np.any(np.asarray(v, dtype=float) != 0):
+            total = np.asarray(v, dtype=float) + (0 if total is None else total)
+    return total
+
+
+def _offset_expression(model, training_data, given):
+    """habcast's offset text for the model's offset, checked against its values."""
+    total = _model_offset(model)
+    if total is None:
+        if given is not None:
+            raise ValueError("offset=%r was given but the model has no offset or exposure" % (given,))
+        return None, None
+    n = len(training_data)
+    if len(total) != n:
+        raise ValueError("the model's offset has %d values but training_data %d rows; pass the raw table the model "
+                         "was fitted on" % (len(total), n))
+    candidates = []
+    if given is not None:
+        if isinstance(given, (int, float)):
+            candidates = [(None, None, float(given))]
+        else:
+            m = re.fullmatch(r"(?:(log|log1p|sqrt|exp)\((%s)\)|(%s))" % (_NAME, _NAME), given.replace(" ", ""))
+            if not m:
+                raise ValueError("offset=%r: write x, log(x), log1p(x), sqrt(x), exp(x) or a number" % (given,))
+            candidates = [(m.group(2) or m.group(3), m.group(1) or "", None)]
+    else:
+        for col in training_data.columns:
+            if np.issubdtype(training_data[col].dtype, np.number):
+                candidates += [(col, "log", None), (col, "", None)]
+    for col, fn, constant in candidates:
+        with np.errstate(all="ignore"):
+            values = np.full(n, constant) if col is None else _FUNCTIONS[fn](np.asarray(training_data[col], dtype=float))
+        if np.allclose(values, total, rtol=1e-10, atol=1e-12):
+            if col is None:
+                return _fmt17(constant), None
+            return _q("%s(%s)" % (fn, col) if fn else col), col
+    if given is not None:
+        raise ValueError("offset=%r evaluated on training_data differs from the model's offset" % (given,))
+    raise ValueError("the model has an offset or exposure, and no column of training_data reproduces it as x or "
+                     "log(x); pass offset=\"log(effort)\" (a habcast expression) to name it")
+
+
 def export_habcast_model(result, model_path, training_data, standardisation=None, categorical=None,
-                         rasters=None, samples_path=None, name=None, units=None, term_names=None):
+                         rasters=None, samples_path=None, name=None, units=None, term_names=None, offset=None):
     standardisation = standardisation or {}
     categorical = categorical or {}
     rasters = rasters or {}
@@ -95,8 +172,7 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
     link = _LINKS.get(type(model.family.link).__name__.lower())
     if link is None:
         raise ValueError("link %s is not supported" % type(model.family.link).__name__)
-    if getattr(model, "offset", None) is not None and np.any(np.asarray(model.offset) != 0):
-        raise ValueError("the model has an offset; write habcast's offset into [coefficients] by hand")
+    offset_text, offset_var = _offset_expression(model, training_data, offset)
     exog_names = list(model.exog_names)
     if term_names is not None:
         if len(term_names) != len(exog_names):
@@ -107,6 +183,9 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
         factors = set(categorical)
     else:
         labels, covariates, factors = habcast_terms(exog_names)
+    labels, transforms = _transforms(labels, covariates, standardisation, offset_var)
+    if offset_var is not None and offset_var not in covariates:
+        covariates.append(offset_var)
     missing = [c for c in covariates if c not in training_data.columns]
     if missing:
         raise ValueError("training_data lacks column(s) %s" % ", ".join(missing))
@@ -183,7 +262,10 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
             lines += ['type = "categorical"', "levels = " + _arr(lv), "reference = " + _q(levels[var][0])]
         else:
             center, scale = standardisation.get(var, (0.0, 1.0))
-            lines += ['type = "continuous"', "center = " + _fmt17(center), "scale = " + _fmt17(scale)]
+            lines.append('type = "continuous"')
+            if var in transforms:
+                lines.append("transform = " + _q(transforms[var]))
+            lines += ["center = " + _fmt17(center), "scale = " + _fmt17(scale)]
         if var in units:
             lines.append("units = " + _q(units[var]))
         if var in rasters:
@@ -192,6 +274,8 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
               "estimates = " + _arr(_fmt17(v) for v in params), "covariance = ["]
     lines += ["  " + _arr(_fmt17(v) for v in row) + "," for row in cov]
     lines.append("]")
+    if offset_text is not None:
+        lines.append("offset = " + offset_text)
     with open(model_path, "w", encoding="utf-8") as f:
         f.write("\n".join(lines) + "\n")
 
