@@ -147,17 +147,20 @@ std::vector<std::string> prediction_warnings(const ReportContext& ctx) {
     range_warnings(ctx, out);
   const LowCertaintyRule certainty = ctx.certainty ? *ctx.certainty : LowCertaintyRule::for_model(*ctx.spec, nullptr);
   if (ctx.spec->covariance && certainty.kind() == LowCertaintyRule::Kind::unavailable)
-    out.push_back("No pixel was judged for low certainty: " + certainty.description() +
-                  ". Read uncertainty.tif beside the map.");
+    out.push_back("No pixel was judged for low certainty. A gaussian mean with an identity link can have any sign, so "
+                  "its interval is judged against the spread of the fitted mean over the training samples, and the "
+                  "model file names none (or the fitted mean is the same at every sample). Read uncertainty.tif "
+                  "beside the map.");
   if (ctx.spec->covariance && t.low_certainty > 0) {
     const std::string what = certainty.description();
     out.push_back(format_percent(share(t.low_certainty, t.predicted)) + " of predicted pixels have " + what +
                   " (level " + format_value(ctx.level) + "); read them as uncertain, not as values (uncertainty.tif).");
   }
   if (t.moved_off_nodata > 0) {
-    out.push_back(std::to_string(t.moved_off_nodata) + " predicted values (suitability or limits) equalled the nodata marker " +
-                  format_value(static_cast<double>(kFloatNodata)) +
-                  " and were stored one Float32 step towards zero, so they do not read as missing data.");
+    const bool one = t.moved_off_nodata == 1;
+    out.push_back(count_of(t.moved_off_nodata, "predicted value") + " (suitability or limits) equalled the nodata marker " +
+                  format_value(static_cast<double>(kFloatNodata)) + (one ? " and was" : " and were") +
+                  " stored one Float32 step towards zero, so " + (one ? "it does" : "they do") + " not read as missing data.");
   }
   const std::int64_t with_data = t.pixels - t.missing_input;
   const std::int64_t unpredicted = with_data - t.predicted;

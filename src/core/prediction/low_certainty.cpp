@@ -68,8 +68,8 @@ std::string LowCertaintyRule::description() const {
       return "a confidence interval wider than half the spread of the fitted mean over the training samples (" +
              significant(kShareOfScale * spread_, 4) + ")";
     case Kind::unavailable:
-      return "no low-certainty rule: a mean of any sign (identity link) is judged against the spread of the fitted "
-             "mean over the training samples, which the model file does not name or which is constant";
+      return "none: a mean of any sign (identity link) is judged against the spread of the fitted mean over the "
+             "training samples, and the model file names none (or the fitted mean is the same at every sample)";
   }
   return "";
 }
