@@ -22,7 +22,8 @@ Rules the model must follow (a ValueError says which one is broken):
   raster must use those codes. A name that is another level's code would make terms and table cells
   ambiguous, so it raises, naming both readings (docs/model-format.md, "Naming a level");
 - a covariate entering only as log(x), log1p(x) or sqrt(x) (np. or not) is written with
-  transform = "log" (...) and the plain term x;
+  transform = "log" (...) and the plain term x; one entering through patsy's center(x),
+  standardize(x) or scale(x) (also inside I(... ** k)) gets the center and scale patsy memorised;
 - an offset or exposure (GLM(..., offset=..., exposure=...)) is written to [coefficients] offset:
   give it as a habcast expression (offset="log(effort)"), or let the exporter find the column of
   `training_data` whose x, log(x) (or, for exposure, x) reproduces it; either way it is checked
@@ -40,6 +41,7 @@ import numpy as np
 _FAMILIES = {"Binomial": "binomial", "Poisson": "poisson", "Gaussian": "gaussian"}
 _LINKS = {"logit": "logit", "probit": "probit", "cloglog": "cloglog", "log": "log", "identity": "identity"}
 _NAME = r"[A-Za-z][A-Za-z0-9_]*"
+_STATEFUL = r"(center|standardize|scale)\((%s)(?:, *[^()]*)?\)" % _NAME
 
 
 def _fmt17(x):
@@ -64,6 +66,11 @@ def _part_label(part, factors):
     m = re.fullmatch(r"I\((%s) *(?:\*\*|\^) *([0-9])\)" % _NAME, part)
     if m:
         return "%s^%s" % (m.group(1), m.group(2)), m.group(1)
+    # patsy's stateful centring: center(x), standardize(x), scale(x); their center and scale are
+    # read from the design (_stateful_standardisation) and written to the covariate.
+    m = re.fullmatch(r"(?:I\()?%s(?: *(?:\*\*|\^) *([0-9])\))?" % _STATEFUL, part)
+    if m and (m.group(3) is None or part.startswith("I(")):
+        return (m.group(2) + ("^" + m.group(3) if m.group(3) else "")), m.group(2)
     m = re.fullmatch(r"(?:np\.)?(log|log1p|sqrt|exp)\((%s)\)" % _NAME, part)
     if m:
         return "%s(%s)" % (m.group(1), m.group(2)), m.group(2)
@@ -71,6 +78,42 @@ def _part_label(part, factors):
         return part, part
     raise ValueError('term part "%s" has no habcast equivalent; use x, I(x ** k), a:b, log(x), '
                      "sqrt(x), exp(x) or C(x)" % part)
+
+
+def _stateful_standardisation(model, exog_names):
+    """{covariate: (center, scale)} for covariates that enter through patsy's center(),
+    standardize() or scale(), from the fitted design's memorised state (the training mean, and
+    sqrt(M2 / (n - ddof)) with patsy's default ddof = 0)."""
+    found = {}
+    design_info = getattr(getattr(model, "data", None), "design_info", None)
+    for name in exog_names:
+        for part in name.split(":"):
+            m = re.search(_STATEFUL, part)
+            if not m:
+                continue
+            kind, var = m.group(1), m.group(2)
+            if design_info is None:
+                raise ValueError("%s(%s) needs the model's patsy design to read its center and scale" % (kind, var))
+            for factor, info in design_info.factor_infos.items():
+                if not re.search(r"\b%s\(%s\b" % (kind, re.escape(var)), factor.name()):
+                    continue
+                for obj in info.state.get("transforms", {}).values():
+                    if kind == "center" and hasattr(obj, "_sum"):
+                        value = (float(obj._sum[0] / obj._count), 1.0)
+                    elif kind != "center" and hasattr(obj, "current_M2"):
+                        ddof = re.search(r"ddof *= *([0-9]+)", factor.name())
+                        ddof = int(ddof.group(1)) if ddof else 0
+                        if re.search(r"(center|rescale) *= *False", factor.name()):
+                            raise ValueError("%s with center/rescale=False has no habcast equivalent" % factor.name())
+                        value = (float(obj.current_mean[0]), float(np.sqrt(obj.current_M2[0] / (obj.current_n - ddof))))
+                    else:
+                        continue
+                    if var in found and found[var] != value:
+                        raise ValueError("%s is standardised two different ways in the formula" % var)
+                    found[var] = value
+            if var not in found:
+                raise ValueError("could not read the center and scale of %s(%s) from the design" % (kind, var))
+    return found
 
 
 def _transforms(labels, covariates, standardisation, offset_var):
@@ -183,6 +226,15 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
         factors = set(categorical)
     else:
         labels, covariates, factors = habcast_terms(exog_names)
+    stateful = _stateful_standardisation(model, exog_names)
+    for var, value in stateful.items():
+        if var in standardisation:
+            raise ValueError("%s enters through center()/standardize() and is also in standardisation; give one" % var)
+        plain = [n for n in exog_names for p in n.split(":") if re.fullmatch(r"(I\()?%s\b.*" % re.escape(var), p)]
+        if plain:
+            raise ValueError("%s enters both through center()/standardize() and as itself (%s); habcast standardises "
+                             "a covariate one way" % (var, plain[0]))
+    standardisation = dict(standardisation, **stateful)
     labels, transforms = _transforms(labels, covariates, standardisation, offset_var)
     if offset_var is not None and offset_var not in covariates:
         covariates.append(offset_var)

@@ -4,6 +4,8 @@ write them; statsmodels' own predictions at new points are stored for the C++ te
   py_cpunish/    statsmodels' cpunish data (Debian python3-statsmodels), the library's own poisson
                  example: EXECUTIONS ~ INCOME + PERPOVERTY + PERBLACK + np.log(VC100k96) + SOUTH +
                  DEGREE - np.log(VC100k96) becomes transform = "log";
+  py_cpunish_std/ the same data with patsy's center(INCOME) and standardize(PERPOVERTY) (also
+                 squared): their memorised mean and standard deviation become center / scale;
   py_insurance/  MASS's Insurance table (tests/reference/export_practice/insurance.csv, written by
                  export_practice.R): Claims ~ C(District) + C(Group) + C(Age), poisson, with
                  exposure=Holders - found by the exporter and written as offset = "log(Holders)".
@@ -57,6 +59,9 @@ result = smf.glm(formula, data=cp, family=sm.families.Poisson()).fit(tol=1e-14, 
 new = cp.iloc[[0, 3, 6, 9, 12, 16]].copy()
 new["VC100k96"] = [50.0, 120.0, 300.0, 700.0, 1200.0, 200.0]
 write_case("py_cpunish", result, cp, new, 0.0, {}, "cpunish: np.log(VC100k96) as a transform")
+formula = "EXECUTIONS ~ center(INCOME) + standardize(PERPOVERTY) + I(standardize(PERPOVERTY) ** 2) + np.log(VC100k96)"
+result = smf.glm(formula, data=cp, family=sm.families.Poisson()).fit(tol=1e-14, maxiter=100)
+write_case("py_cpunish_std", result, cp, new, 0.0, {}, "cpunish: patsy center() and standardize()")
 
 ins = pd.read_csv(os.path.join(out_dir, "insurance.csv"), comment="#")
 result = smf.glm("Claims ~ C(District) + C(Group) + C(Age)", data=ins, family=sm.families.Poisson(),

@@ -152,7 +152,7 @@ TEST_CASE("statsmodels models with np.log terms and an exposure export and predi
   // Source: statsmodels 0.13.5 GLM, written by tests/reference/export_practice.py (cpunish data
   // shipped with Debian python3-statsmodels; MASS::Insurance via export_practice.R).
   const std::string base = "tests/reference/export_practice/";
-  for (const char* c : {"py_cpunish", "py_insurance"}) {
+  for (const char* c : {"py_cpunish", "py_cpunish_std", "py_insurance"}) {
     INFO(c);
     require_predictions_match(test::source_path(base + c + "/model.toml"), test::source_path(base + c + "/predictions.csv"));
   }
@@ -162,6 +162,11 @@ TEST_CASE("statsmodels models with np.log terms and an exposure export and predi
   const ModelSpec ins = read_model_file(test::source_path(base + "py_insurance/model.toml"));
   REQUIRE(ins.offset_term);
   CHECK(*ins.offset_term == "log(Holders)");  // found from exposure=Holders
+  // patsy's standardize(): mean and population standard deviation (ddof = 0) of the 17 states.
+  const ModelSpec st = read_model_file(test::source_path(base + "py_cpunish_std/model.toml"));
+  CHECK(st.terms == std::vector<std::string>{"(Intercept)", "INCOME", "PERPOVERTY", "PERPOVERTY^2", "VC100k96"});
+  CHECK(st.covariates[1].center == Approx(13.494117647058824).epsilon(1e-12));
+  CHECK(st.covariates[1].scale == Approx(3.3535706323498196).epsilon(1e-12));
 }
 
 TEST_CASE("The Python exporter, run now on practitioners' models, writes models that predict like statsmodels", "[fit]") {
@@ -174,7 +179,7 @@ TEST_CASE("The Python exporter, run now on practitioners' models, writes models 
   const std::string cmd = "cd '" + std::string(HABCAST_SOURCE_DIR) + "' && /usr/bin/python3 tests/reference/export_practice.py '" +
                           dir.path().string() + "' >/dev/null 2>&1";
   REQUIRE(std::system(cmd.c_str()) == 0);
-  for (const char* c : {"py_cpunish", "py_insurance"})
+  for (const char* c : {"py_cpunish", "py_cpunish_std", "py_insurance"})
     require_predictions_match(dir.file(std::string(c) + "/model.toml"),
                               test::source_path(std::string("tests/reference/export_practice/") + c + "/predictions.csv"));
 }
