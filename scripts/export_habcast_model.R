@@ -86,7 +86,9 @@ export_habcast_model <- function(fit, model_file, training_data, standardisation
 
   vars <- unique(c(all.vars(delete.response(tt)), offset_var))
   missing_cols <- setdiff(vars, names(training_data))
-  if (length(missing_cols)) stop("training_data lacks column(s) ", paste(missing_cols, collapse = ", "))
+  if (length(missing_cols)) {
+    stop("training_data lacks ", ngettext(length(missing_cols), "column ", "columns "), paste(missing_cols, collapse = ", "))
+  }
 
   # habcast names: letters, digits and _, starting with a letter (docs/model-format.md).
   hname <- setNames(character(0), character(0))
@@ -116,7 +118,8 @@ export_habcast_model <- function(fit, model_file, training_data, standardisation
                 " = c(LEVEL = CODE, ...)) to choose others)")
       }
     }
-    if (!all(lev %in% names(codes))) stop("categorical$", v, " lacks level(s) ", paste(setdiff(lev, names(codes)), collapse = ", "))
+    lacking <- setdiff(lev, names(codes))
+    if (length(lacking)) stop("categorical$", v, " lacks ", ngettext(length(lacking), "level ", "levels "), paste(lacking, collapse = ", "))
     codes <- codes[lev]
     if (anyDuplicated(codes)) stop("categorical$", v, " gives two levels the same code")
     for (l in lev) {

@@ -240,7 +240,7 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
         covariates.append(offset_var)
     missing = [c for c in covariates if c not in training_data.columns]
     if missing:
-        raise ValueError("training_data lacks column(s) %s" % ", ".join(missing))
+        raise ValueError("training_data lacks %s %s" % ("column" if len(missing) == 1 else "columns", ", ".join(missing)))
 
     params = np.asarray(result.params, dtype=float)
     cov = np.asarray(result.cov_params(), dtype=float)
@@ -274,7 +274,8 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
         given = {str(k): int(v) for k, v in given.items()}
         lacking = [l for l in levels[var] if l not in given]
         if lacking:
-            raise ValueError("categorical[%r] lacks level(s) %s" % (var, ", ".join(lacking)))
+            raise ValueError("categorical[%r] lacks %s %s" % (var, "level" if len(lacking) == 1 else "levels",
+                                                               ", ".join(lacking)))
         mapping = {l: given[l] for l in levels[var]}
         if len(set(mapping.values())) != len(mapping):
             raise ValueError("categorical[%r] gives two levels the same code" % var)
