@@ -16,29 +16,41 @@
 #   `standardisation` (the values (raw - center) / scale were used in glm()), and `training_data`
 #   holds the RAW values;
 # - terms are plain variables, powers I(x^k), products a:b, log/log1p/sqrt/exp of a variable, and
-#   factors with treatment contrasts (R's default), whose first level is the reference;
-# - factor levels map to the integer codes of the categorical raster via `categorical`
-#   (default: 1, 2, ... in the order of the factor's levels);
-# - no offset(), no weights-dependent features beyond what glm() stores, no aliased (NA)
-#   coefficients.
+#   factors with treatment contrasts (R's default), whose first level is the reference. A variable
+#   that enters only as log(x), log1p(x) or sqrt(x) (also inside I(...^k)) is written with
+#   transform = "log" (...); one that enters only as scale(x) gets the center and scale R used
+#   (from the model frame), one that enters only as I(x - c) gets center = c;
+# - variable names that are not valid habcast names (Solar.R) are renamed (Solar_R); the mapping is
+#   printed and recorded in the model's description, and the training table uses the new names;
+# - an offset (offset(log(effort)) in the formula, or glm's offset = argument) of the form x,
+#   log(x), log1p(x), sqrt(x), exp(x) or a number is written to [coefficients] offset, and checked
+#   against the fit's own offset values;
+# - factor levels map to the integer codes of the categorical raster via `categorical`. Default:
+#   when every level name is an integer ("0", "1", "12"), the code IS the name, so a raster of
+#   class codes means what the factor meant; otherwise codes 1, 2, ... in the order of the factor's
+#   levels, and the mapping is printed: the raster must use those codes. A name that is another
+#   level's code (name "1" for code 2 while code 1 is named "0") would make every term and table
+#   cell ambiguous, so it stops with both readings named (docs/model-format.md, "Naming a level");
+# - no weights-dependent features beyond what glm() stores, no aliased (NA) coefficients.
 
 export_habcast_model <- function(fit, model_file, training_data, standardisation = list(),
                                  categorical = list(), rasters = list(), samples_file = NULL,
                                  name = NULL, units = list()) {
   stopifnot(inherits(fit, "glm"))
+  fmt17 <- function(x) {
+    s <- sprintf("%.17g", x)
+    ifelse(grepl("[.eEn]", s), s, paste0(s, ".0"))
+  }
+  q <- function(x) paste0("\"", gsub("\"", "\\\\\"", gsub("\\\\", "\\\\\\\\", x)), "\"")
+  arr <- function(x) paste0("[ ", paste(x, collapse = ", "), " ]")
   if (any(is.na(coef(fit)))) {
     stop("coefficients ", paste(names(coef(fit))[is.na(coef(fit))], collapse = ", "),
          " are aliased (NA); refit without them")
-  }
-  if (!is.null(fit$offset) && any(fit$offset != 0)) {
-    stop("the model has an offset; habcast's offset is a term or a constant - write it into ",
-         "[coefficients] offset by hand")
   }
   family <- fit$family$family
   link <- fit$family$link
   if (!family %in% c("binomial", "poisson", "gaussian")) stop("family ", family, " is not supported")
   tt <- terms(fit)
-  vars <- all.vars(delete.response(tt))
   xlev <- fit$xlevels
   for (v in names(xlev)) {
     ctr <- fit$contrasts[[v]]
@@ -46,48 +58,185 @@ export_habcast_model <- function(fit, model_file, training_data, standardisation
       stop("factor ", v, " uses contrasts ", ctr, "; refit with treatment contrasts (R's default)")
     }
   }
+
+  # Offsets: offset(...) terms of the formula and glm's offset = argument.
+  offsets <- list()
+  for (i in attr(tt, "offset")) offsets[[length(offsets) + 1]] <- attr(tt, "variables")[[i + 1]][[2]]
+  if (!is.null(fit$call$offset)) offsets[[length(offsets) + 1]] <- fit$call$offset
+  if (length(offsets) > 1) {
+    stop("the model has ", length(offsets), " offsets (", paste(vapply(offsets, deparse1, ""), collapse = ", "),
+         "); habcast's offset is one expression: combine them into one variable and refit")
+  }
+  offset_expr <- if (length(offsets)) offsets[[1]] else NULL
+  offset_var <- NULL
+  offset_fn <- NULL
+  if (!is.null(offset_expr)) {
+    if (is.numeric(offset_expr) && length(offset_expr) == 1) {
+      offset_fn <- "constant"
+    } else if (is.name(offset_expr)) {
+      offset_var <- as.character(offset_expr); offset_fn <- ""
+    } else if (is.call(offset_expr) && length(offset_expr) == 2 && is.name(offset_expr[[2]]) &&
+               as.character(offset_expr[[1]]) %in% c("log", "log1p", "sqrt", "exp")) {
+      offset_var <- as.character(offset_expr[[2]]); offset_fn <- as.character(offset_expr[[1]])
+    } else {
+      stop("offset ", deparse1(offset_expr), " has no habcast equivalent; use x, log(x), log1p(x), sqrt(x), exp(x) ",
+           "or a number")
+    }
+  }
+
+  vars <- unique(c(all.vars(delete.response(tt)), offset_var))
   missing_cols <- setdiff(vars, names(training_data))
-  if (length(missing_cols)) stop("training_data lacks column(s) ", paste(missing_cols, collapse = ", "))
+  if (length(missing_cols)) {
+    stop("training_data lacks ", ngettext(length(missing_cols), "column ", "columns "), paste(missing_cols, collapse = ", "))
+  }
 
-  codes_of <- function(v) {
+  # habcast names: letters, digits and _, starting with a letter (docs/model-format.md).
+  hname <- setNames(character(0), character(0))
+  for (v in vars) {
+    n <- gsub("[^A-Za-z0-9_]", "_", v)
+    if (!grepl("^[A-Za-z]", n)) n <- paste0("x_", n)
+    while (n %in% hname) n <- paste0(n, "_")
+    hname[[v]] <- n
+  }
+  renamed <- vars[hname[vars] != vars]
+  rename_note <- if (length(renamed)) paste0(renamed, " -> ", hname[renamed], collapse = ", ") else ""
+  if (length(renamed)) message("covariate names changed to valid habcast names: ", rename_note)
+  # Per-variable options may be keyed by the R name or by the habcast name.
+  opt <- function(lst, v) if (!is.null(lst[[v]])) lst[[v]] else lst[[hname[[v]]]]
+
+  level_codes <- list()
+  for (v in names(xlev)) {
     lev <- xlev[[v]]
-    codes <- categorical[[v]]
-    if (is.null(codes)) codes <- setNames(seq_along(lev), lev)
-    if (!all(lev %in% names(codes))) stop("categorical$", v, " lacks level(s) ", paste(setdiff(lev, names(codes)), collapse = ", "))
-    codes[lev]
-  }
-
-  # R coefficient name -> habcast term label.
-  term_label <- function(coef_name) {
-    if (coef_name == "(Intercept)") return("(Intercept)")
-    parts <- strsplit(coef_name, ":", fixed = TRUE)[[1]]
-    out <- vapply(parts, function(p) {
-      for (v in names(xlev)) {
-        for (l in xlev[[v]]) if (p == paste0(v, l)) return(paste0(v, "[", l, "]"))
+    codes <- opt(categorical, v)
+    if (is.null(codes)) {
+      if (all(grepl("^-?[0-9]{1,9}$", lev))) {
+        codes <- setNames(as.integer(lev), lev)  # integer names: the code is the name
+      } else {
+        codes <- setNames(seq_along(lev), lev)
+        message("factor ", v, ": raster codes ", paste0(codes, " = ", lev, collapse = ", "),
+                " (the raster must hold these codes; pass categorical = list(", v,
+                " = c(LEVEL = CODE, ...)) to choose others)")
       }
-      m <- regmatches(p, regexec("^I\\(([A-Za-z][A-Za-z0-9_]*) *\\^ *([0-9])\\)$", p))[[1]]
-      if (length(m) == 3) return(paste0(m[2], "^", m[3]))
-      if (grepl("^([A-Za-z][A-Za-z0-9_]*|(log|log1p|sqrt|exp)\\([A-Za-z][A-Za-z0-9_]*\\))$", p)) return(p)
-      stop("term part \"", p, "\" of coefficient \"", coef_name, "\" has no habcast equivalent; ",
-           "use x, I(x^k), a:b, log(x), log1p(x), sqrt(x), exp(x) or treatment-coded factors")
-    }, character(1))
-    paste(out, collapse = ":")
+    }
+    lacking <- setdiff(lev, names(codes))
+    if (length(lacking)) stop("categorical$", v, " lacks ", ngettext(length(lacking), "level ", "levels "), paste(lacking, collapse = ", "))
+    codes <- codes[lev]
+    if (anyDuplicated(codes)) stop("categorical$", v, " gives two levels the same code")
+    for (l in lev) {
+      other <- names(codes)[which(codes == suppressWarnings(as.numeric(l)) & names(codes) != l)]
+      if (length(other)) {
+        stop("factor ", v, ": \"", l, "\" would mean two levels in the model file: the level named \"", l,
+             "\" (code ", codes[[l]], ") and the level with code ", l, " (named \"", other[1], "\"). ",
+             "Give integer-named levels their own number as code (the default), or rename the levels")
+      }
+    }
+    level_codes[[v]] <- codes
+  }
+  codes_of <- function(v) level_codes[[v]]
+
+  # R coefficient name part -> list(var, kind, power, level, center): kind is "level", "plain",
+  # "log", "log1p", "sqrt", "exp", "scale" or "centre".
+  var_re <- "([A-Za-z.][A-Za-z0-9._]*)"
+  parse_inner <- function(x) {
+    x <- gsub("^\\((.*)\\)$", "\\1", trimws(x))
+    if (x %in% vars) return(list(var = x, kind = "plain"))
+    m <- regmatches(x, regexec(paste0("^(log|log1p|sqrt|exp|scale)\\(", var_re, "\\)$"), x))[[1]]
+    if (length(m) == 3 && m[3] %in% vars) return(list(var = m[3], kind = m[2]))
+    m <- regmatches(x, regexec(paste0("^", var_re, " *- *([-+0-9.eE]+)$"), x))[[1]]
+    if (length(m) == 3 && m[2] %in% vars && !is.na(suppressWarnings(as.numeric(m[3])))) {
+      return(list(var = m[2], kind = "centre", center = as.numeric(m[3])))
+    }
+    NULL
+  }
+  parse_part <- function(p, coef_name) {
+    for (v in names(xlev)) {
+      for (l in xlev[[v]]) if (p == paste0(v, l)) return(list(var = v, kind = "level", level = l, power = 1))
+    }
+    m <- regmatches(p, regexec("^I\\((.*[^ ]) *\\^ *([0-9])\\)$", p))[[1]]
+    inner <- if (length(m) == 3) parse_inner(m[2]) else NULL
+    if (!is.null(inner)) return(c(inner, power = as.integer(m[3])))
+    m <- regmatches(p, regexec("^I\\((.*)\\)$", p))[[1]]
+    inner <- if (length(m) == 2) parse_inner(m[2]) else parse_inner(p)
+    if (!is.null(inner)) return(c(inner, power = 1))
+    stop("term part \"", p, "\" of coefficient \"", coef_name, "\" has no habcast equivalent; ",
+         "use x, I(x^k), a:b, log(x), log1p(x), sqrt(x), exp(x), scale(x), I(x - c) or treatment-coded factors")
+  }
+  est <- coef(fit)
+  parsed <- lapply(names(est), function(n) {
+    if (n == "(Intercept)") return(list())
+    lapply(strsplit(n, ":", fixed = TRUE)[[1]], parse_part, coef_name = n)
+  })
+
+  # How each continuous variable enters: one transform, scale() or centring for all its parts
+  # becomes the covariate's transform / center / scale; anything else stays a term function.
+  mf <- model.frame(fit)
+  entry <- list()
+  for (v in setdiff(vars, names(xlev))) {
+    parts <- Filter(function(p) identical(p$var, v), unlist(parsed, recursive = FALSE))
+    kinds <- unique(vapply(parts, function(p) p$kind, ""))
+    st <- opt(standardisation, v)
+    e <- list(transform = "none", center = if (is.null(st)) 0 else st[["center"]],
+              scale = if (is.null(st)) 1 else st[["scale"]], term_fn = TRUE)
+    if (length(kinds) == 1 && kinds %in% c("log", "log1p", "sqrt") && is.null(st) && !identical(v, offset_var)) {
+      e$transform <- kinds; e$term_fn <- FALSE
+    } else if (length(kinds) == 1 && kinds == "scale") {
+      col <- mf[[paste0("scale(", v, ")")]]
+      if (is.null(attr(col, "scaled:center"))) {
+        stop(v, " enters as scale(", v, ") only inside other expressions; add the plain term scale(", v,
+             ") or standardise it before fitting and pass standardisation")
+      }
+      e$center <- attr(col, "scaled:center"); e$scale <- attr(col, "scaled:scale"); e$term_fn <- FALSE
+    } else if (length(kinds) == 1 && kinds == "centre") {
+      centres <- unique(vapply(parts, function(p) p$center, 0))
+      if (length(centres) > 1) stop(v, " is centred at different values (", paste(centres, collapse = ", "), ")")
+      e$center <- centres; e$scale <- 1; e$term_fn <- FALSE
+    } else if (any(kinds %in% c("scale", "centre"))) {
+      stop(v, " enters both as scale()/I(", v, " - c) and otherwise (", paste(kinds, collapse = ", "),
+           "); habcast standardises a covariate one way: write all its terms the same way")
+    }
+    if (identical(v, offset_var) && (e$transform != "none" || e$center != 0 || e$scale != 1)) {
+      stop(v, " is used by the offset and is transformed or standardised in the terms; habcast's offset acts on ",
+           "the covariate's model value, so keep ", v, " raw (or give the offset its own variable)")
+    }
+    entry[[v]] <- e
   }
 
-  fmt17 <- function(x) {
-    s <- sprintf("%.17g", x)
-    ifelse(grepl("[.eEn]", s), s, paste0(s, ".0"))
+  part_label <- function(p) {
+    h <- hname[[p$var]]
+    if (p$kind == "level") return(paste0(h, "[", p$level, "]"))
+    base <- if (p$kind %in% c("plain", "scale", "centre") || !entry[[p$var]]$term_fn) h else paste0(p$kind, "(", h, ")")
+    if (p$power > 1) paste0(base, "^", p$power) else base
   }
-  q <- function(x) paste0("\"", gsub("\"", "\\\\\"", gsub("\\\\", "\\\\\\\\", x)), "\"")
-  arr <- function(x) paste0("[ ", paste(x, collapse = ", "), " ]")
+  labels <- vapply(seq_along(parsed), function(i) {
+    if (!length(parsed[[i]])) return("(Intercept)")
+    paste(vapply(parsed[[i]], part_label, ""), collapse = ":")
+  }, "")
+
+  offset_text <- NULL
+  if (!is.null(offset_fn)) {
+    if (offset_fn == "constant") {
+      offset_text <- fmt17(as.numeric(offset_expr))
+      ours <- rep(as.numeric(offset_expr), length(fit$offset))
+    } else {
+      h <- hname[[offset_var]]
+      offset_text <- q(if (offset_fn == "") h else paste0(offset_fn, "(", h, ")"))
+      x <- training_data[[offset_var]]
+      ours <- if (offset_fn == "") x else get(offset_fn)(x)
+    }
+    if (length(ours) == length(fit$offset) && !isTRUE(all.equal(as.numeric(ours), as.numeric(fit$offset), tolerance = 1e-10))) {
+      stop("the offset ", deparse1(offset_expr), " evaluated on training_data differs from the fit's offset; ",
+           "pass the raw table the model was fitted on")
+    }
+  }
 
   if (is.null(samples_file)) {
     samples_file <- file.path(dirname(model_file),
                               paste0(sub("\\.[^.]*$", "", basename(model_file)), "-training.csv"))
   }
-  est <- coef(fit)
   vc <- vcov(fit)
-  labels <- vapply(names(est), term_label, character(1))
+  formula_text <- paste(trimws(deparse(formula(fit), width.cutoff = 500L)), collapse = " ")
+  if (!is.null(fit$call$offset)) formula_text <- paste0(formula_text, ", offset = ", deparse1(fit$call$offset))
+  description <- paste0("glm(): ", formula_text, if (nzchar(rename_note)) paste0("; covariates renamed: ", rename_note))
 
   lines <- c(paste0("# Written by scripts/export_habcast_model.R from an R glm() fit (", R.version.string, ")."),
              "", "habcast_model = 1", "", "[model]")
@@ -95,40 +244,44 @@ export_habcast_model <- function(fit, model_file, training_data, standardisation
   lines <- c(lines,
              paste0("response = ", q(all.vars(tt)[attr(tt, "response")])),
              paste0("family = ", q(family)), paste0("link = ", q(link)),
-             paste0("description = ", q(paste("glm():", paste(deparse(formula(fit)), collapse = " ")))),
+             paste0("description = ", q(description)),
              paste0("deviance = ", fmt17(fit$deviance)), paste0("null_deviance = ", fmt17(fit$null.deviance)),
              paste0("aic = ", fmt17(fit$aic)), paste0("n = ", sum(fit$prior.weights > 0)),
              "", "[training]", paste0("samples = ", q(basename(samples_file))))
   for (v in vars) {
-    lines <- c(lines, "", paste0("[covariates.", v, "]"))
+    lines <- c(lines, "", paste0("[covariates.", hname[[v]], "]"))
     if (v %in% names(xlev)) {
       codes <- codes_of(v)
       lv <- paste0("{ code = ", as.integer(codes), ", name = ", q(names(codes)), " }")
       lines <- c(lines, "type = \"categorical\"", paste0("levels = ", arr(lv)),
                  paste0("reference = ", q(xlev[[v]][1])))
     } else {
-      st <- standardisation[[v]]
-      lines <- c(lines, "type = \"continuous\"",
-                 paste0("center = ", fmt17(if (is.null(st)) 0 else st[["center"]])),
-                 paste0("scale = ", fmt17(if (is.null(st)) 1 else st[["scale"]])))
+      e <- entry[[v]]
+      lines <- c(lines, "type = \"continuous\"")
+      if (e$transform != "none") lines <- c(lines, paste0("transform = ", q(e$transform)))
+      lines <- c(lines, paste0("center = ", fmt17(e$center)), paste0("scale = ", fmt17(e$scale)))
     }
-    if (!is.null(units[[v]])) lines <- c(lines, paste0("units = ", q(units[[v]])))
-    if (!is.null(rasters[[v]])) lines <- c(lines, paste0("raster = ", q(rasters[[v]])))
+    if (!is.null(opt(units, v))) lines <- c(lines, paste0("units = ", q(opt(units, v))))
+    if (!is.null(opt(rasters, v))) lines <- c(lines, paste0("raster = ", q(opt(rasters, v))))
   }
   cov_rows <- apply(vc, 1, function(r) paste0("  ", arr(fmt17(r)), ","))
   lines <- c(lines, "", "[coefficients]", paste0("terms = ", arr(q(unname(labels)))),
              paste0("estimates = ", arr(fmt17(unname(est)))), "covariance = [", cov_rows, "]")
+  if (!is.null(offset_text)) lines <- c(lines, paste0("offset = ", offset_text))
   writeLines(lines, model_file)
 
-  # Training samples: raw covariate values, factor levels as their codes.
+  # Training samples: raw covariate values, factor levels as their codes, habcast names.
   samples <- training_data[, vars, drop = FALSE]
   for (v in intersect(vars, names(xlev))) {
     codes <- codes_of(v)
     samples[[v]] <- unname(codes[as.character(samples[[v]])])
   }
+  names(samples) <- unname(hname[vars])
   con <- file(samples_file, "w")
   writeLines("# Written by scripts/export_habcast_model.R: raw covariate values at the fitting sites.", con)
-  write.csv(format(samples, digits = 17), con, row.names = FALSE, quote = FALSE)
+  samples[] <- lapply(samples, function(x) format(x, digits = 17, trim = TRUE))  # exact, unpadded
+  write.csv(samples, con, row.names = FALSE, quote = FALSE)
   close(con)
-  invisible(list(model_file = model_file, samples_file = samples_file, terms = unname(labels)))
+  invisible(list(model_file = model_file, samples_file = samples_file, terms = unname(labels),
+                 names = hname))
 }

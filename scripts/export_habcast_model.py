@@ -16,8 +16,18 @@ Rules the model must follow (a ValueError says which one is broken):
 - terms are plain variables, powers I(x ** k) or I(x^k), products a:b, np.log/np.sqrt/np.exp or
   log/sqrt/exp of a variable, and treatment-coded factors C(x) (or string columns), whose first
   level is the reference;
-- factor levels map to the raster's integer codes via `categorical` (default: 1, 2, ... in the
-  order of the levels);
+- factor levels map to the raster's integer codes via `categorical`. Default: when every level
+  name is an integer ("0", "1", "12"), the code IS the name, so a raster of class codes means what
+  the factor meant; otherwise 1, 2, ... in the order of the levels, and the mapping is printed: the
+  raster must use those codes. A name that is another level's code would make terms and table cells
+  ambiguous, so it raises, naming both readings (docs/model-format.md, "Naming a level");
+- a covariate entering only as log(x), log1p(x) or sqrt(x) (np. or not) is written with
+  transform = "log" (...) and the plain term x; one entering through patsy's center(x),
+  standardize(x) or scale(x) (also inside I(... ** k)) gets the center and scale patsy memorised;
+- an offset or exposure (GLM(..., offset=..., exposure=...)) is written to [coefficients] offset:
+  give it as a habcast expression (offset="log(effort)"), or let the exporter find the column of
+  `training_data` whose x, log(x) (or, for exposure, x) reproduces it; either way it is checked
+  against the model's own offset values;
 - models without a formula need `term_names` (habcast labels, one per column of exog).
 Uses only numpy and statsmodels (Debian: python3-numpy, python3-statsmodels).
 """
@@ -31,6 +41,7 @@ import numpy as np
 _FAMILIES = {"Binomial": "binomial", "Poisson": "poisson", "Gaussian": "gaussian"}
 _LINKS = {"logit": "logit", "probit": "probit", "cloglog": "cloglog", "log": "log", "identity": "identity"}
 _NAME = r"[A-Za-z][A-Za-z0-9_]*"
+_STATEFUL = r"(center|standardize|scale)\((%s)(?:, *[^()]*)?\)" % _NAME
 
 
 def _fmt17(x):
@@ -55,6 +66,11 @@ def _part_label(part, factors):
     m = re.fullmatch(r"I\((%s) *(?:\*\*|\^) *([0-9])\)" % _NAME, part)
     if m:
         return "%s^%s" % (m.group(1), m.group(2)), m.group(1)
+    # patsy's stateful centring: center(x), standardize(x), scale(x); their center and scale are
+    # read from the design (_stateful_standardisation) and written to the covariate.
+    m = re.fullmatch(r"(?:I\()?%s(?: *(?:\*\*|\^) *([0-9])\))?" % _STATEFUL, part)
+    if m and (m.group(3) is None or part.startswith("I(")):
+        return (m.group(2) + ("^" + m.group(3) if m.group(3) else "")), m.group(2)
     m = re.fullmatch(r"(?:np\.)?(log|log1p|sqrt|exp)\((%s)\)" % _NAME, part)
     if m:
         return "%s(%s)" % (m.group(1), m.group(2)), m.group(2)
@@ -62,6 +78,63 @@ def _part_label(part, factors):
         return part, part
     raise ValueError('term part "%s" has no habcast equivalent; use x, I(x ** k), a:b, log(x), '
                      "sqrt(x), exp(x) or C(x)" % part)
+
+
+def _stateful_standardisation(model, exog_names):
+    """{covariate: (center, scale)} for covariates that enter through patsy's center(),
+    standardize() or scale(), from the fitted design's memorised state (the training mean, and
+    sqrt(M2 / (n - ddof)) with patsy's default ddof = 0)."""
+    found = {}
+    design_info = getattr(getattr(model, "data", None), "design_info", None)
+    for name in exog_names:
+        for part in name.split(":"):
+            m = re.search(_STATEFUL, part)
+            if not m:
+                continue
+            kind, var = m.group(1), m.group(2)
+            if design_info is None:
+                raise ValueError("%s(%s) needs the model's patsy design to read its center and scale" % (kind, var))
+            for factor, info in design_info.factor_infos.items():
+                if not re.search(r"\b%s\(%s\b" % (kind, re.escape(var)), factor.name()):
+                    continue
+                for obj in info.state.get("transforms", {}).values():
+                    if kind == "center" and hasattr(obj, "_sum"):
+                        value = (float(obj._sum[0] / obj._count), 1.0)
+                    elif kind != "center" and hasattr(obj, "current_M2"):
+                        ddof = re.search(r"ddof *= *([0-9]+)", factor.name())
+                        ddof = int(ddof.group(1)) if ddof else 0
+                        if re.search(r"(center|rescale) *= *False", factor.name()):
+                            raise ValueError("%s with center/rescale=False has no habcast equivalent" % factor.name())
+                        value = (float(obj.current_mean[0]), float(np.sqrt(obj.current_M2[0] / (obj.current_n - ddof))))
+                    else:
+                        continue
+                    if var in found and found[var] != value:
+                        raise ValueError("%s is standardised two different ways in the formula" % var)
+                    found[var] = value
+            if var not in found:
+                raise ValueError("could not read the center and scale of %s(%s) from the design" % (kind, var))
+    return found
+
+
+def _transforms(labels, covariates, standardisation, offset_var):
+    """Covariates that enter only as log(x), log1p(x) or sqrt(x) become transform = ...; their
+    term parts become plain x. Returns (labels, {covariate: transform})."""
+    transforms = {}
+    parts = [p for t in labels for p in t.split(":")]
+    for var in covariates:
+        uses = [re.fullmatch(r"(log|log1p|sqrt|exp)?\(?%s\)?(\^[0-9])?" % re.escape(var), p) for p in parts]
+        uses = [m for m, p in zip(uses, parts) if m and re.search(r"\b%s\b" % re.escape(var), p)]
+        fns = {m.group(1) for m in uses}
+        if len(fns) == 1 and next(iter(fns)) in ("log", "log1p", "sqrt") and var not in standardisation \
+                and var != offset_var:
+            transforms[var] = next(iter(fns))
+    if transforms:
+        def plain(part):
+            for var, fn in transforms.items():
+                part = re.sub(r"^%s\(%s\)" % (fn, re.escape(var)), var, part)
+            return part
+        labels = [":".join(plain(p) for p in t.split(":")) for t in labels]
+    return labels, transforms
 
 
 def habcast_terms(exog_names):
@@ -79,8 +152,58 @@ def habcast_terms(exog_names):
     return labels, covariates, set(factors)
 
 
+_FUNCTIONS = {"": lambda x: x, "log": np.log, "log1p": np.log1p, "sqrt": np.sqrt, "exp": np.exp}
+
+
+def _model_offset(model):
+    """The model's total offset on the link scale (offset + log(exposure)), or None."""
+    total = None
+    for attr in ("offset", "exposure"):  # statsmodels stores exposure already logged
+        v = getattr(model, attr, None)
+        if v is not None and np.any(np.asarray(v, dtype=float) != 0):
+            total = np.asarray(v, dtype=float) + (0 if total is None else total)
+    return total
+
+
+def _offset_expression(model, training_data, given):
+    """habcast's offset text for the model's offset, checked against its values."""
+    total = _model_offset(model)
+    if total is None:
+        if given is not None:
+            raise ValueError("offset=%r was given but the model has no offset or exposure" % (given,))
+        return None, None
+    n = len(training_data)
+    if len(total) != n:
+        raise ValueError("the model's offset has %d values but training_data %d rows; pass the raw table the model "
+                         "was fitted on" % (len(total), n))
+    candidates = []
+    if given is not None:
+        if isinstance(given, (int, float)):
+            candidates = [(None, None, float(given))]
+        else:
+            m = re.fullmatch(r"(?:(log|log1p|sqrt|exp)\((%s)\)|(%s))" % (_NAME, _NAME), given.replace(" ", ""))
+            if not m:
+                raise ValueError("offset=%r: write x, log(x), log1p(x), sqrt(x), exp(x) or a number" % (given,))
+            candidates = [(m.group(2) or m.group(3), m.group(1) or "", None)]
+    else:
+        for col in training_data.columns:
+            if np.issubdtype(training_data[col].dtype, np.number):
+                candidates += [(col, "log", None), (col, "", None)]
+    for col, fn, constant in candidates:
+        with np.errstate(all="ignore"):
+            values = np.full(n, constant) if col is None else _FUNCTIONS[fn](np.asarray(training_data[col], dtype=float))
+        if np.allclose(values, total, rtol=1e-10, atol=1e-12):
+            if col is None:
+                return _fmt17(constant), None
+            return _q("%s(%s)" % (fn, col) if fn else col), col
+    if given is not None:
+        raise ValueError("offset=%r evaluated on training_data differs from the model's offset" % (given,))
+    raise ValueError("the model has an offset or exposure, and no column of training_data reproduces it as x or "
+                     "log(x); pass offset=\"log(effort)\" (a habcast expression) to name it")
+
+
 def export_habcast_model(result, model_path, training_data, standardisation=None, categorical=None,
-                         rasters=None, samples_path=None, name=None, units=None, term_names=None):
+                         rasters=None, samples_path=None, name=None, units=None, term_names=None, offset=None):
     standardisation = standardisation or {}
     categorical = categorical or {}
     rasters = rasters or {}
@@ -92,8 +215,7 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
     link = _LINKS.get(type(model.family.link).__name__.lower())
     if link is None:
         raise ValueError("link %s is not supported" % type(model.family.link).__name__)
-    if getattr(model, "offset", None) is not None and np.any(np.asarray(model.offset) != 0):
-        raise ValueError("the model has an offset; write habcast's offset into [coefficients] by hand")
+    offset_text, offset_var = _offset_expression(model, training_data, offset)
     exog_names = list(model.exog_names)
     if term_names is not None:
         if len(term_names) != len(exog_names):
@@ -104,9 +226,21 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
         factors = set(categorical)
     else:
         labels, covariates, factors = habcast_terms(exog_names)
+    stateful = _stateful_standardisation(model, exog_names)
+    for var, value in stateful.items():
+        if var in standardisation:
+            raise ValueError("%s enters through center()/standardize() and is also in standardisation; give one" % var)
+        plain = [n for n in exog_names for p in n.split(":") if re.fullmatch(r"(I\()?%s\b.*" % re.escape(var), p)]
+        if plain:
+            raise ValueError("%s enters both through center()/standardize() and as itself (%s); habcast standardises "
+                             "a covariate one way" % (var, plain[0]))
+    standardisation = dict(standardisation, **stateful)
+    labels, transforms = _transforms(labels, covariates, standardisation, offset_var)
+    if offset_var is not None and offset_var not in covariates:
+        covariates.append(offset_var)
     missing = [c for c in covariates if c not in training_data.columns]
     if missing:
-        raise ValueError("training_data lacks column(s) %s" % ", ".join(missing))
+        raise ValueError("training_data lacks %s %s" % ("column" if len(missing) == 1 else "columns", ", ".join(missing)))
 
     params = np.asarray(result.params, dtype=float)
     cov = np.asarray(result.cov_params(), dtype=float)
@@ -126,15 +260,38 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
             found = sorted(str(v) for v in training_data[var].unique())
         levels[var] = found
 
-    def codes(var):
+    level_codes = {}
+    for var in sorted(factors):
         given = categorical.get(var)
         if given is None:
-            return {lvl: i + 1 for i, lvl in enumerate(levels[var])}
+            if all(re.fullmatch(r"-?[0-9]{1,9}", l) for l in levels[var]):
+                given = {l: int(l) for l in levels[var]}  # integer names: the code is the name
+            else:
+                given = {lvl: i + 1 for i, lvl in enumerate(levels[var])}
+                print("factor %s: raster codes %s (the raster must hold these codes; pass categorical={%r: "
+                      "{LEVEL: CODE, ...}} to choose others)"
+                      % (var, ", ".join("%d = %s" % (c, l) for l, c in given.items()), var), file=sys.stderr)
         given = {str(k): int(v) for k, v in given.items()}
         lacking = [l for l in levels[var] if l not in given]
         if lacking:
-            raise ValueError("categorical[%r] lacks level(s) %s" % (var, ", ".join(lacking)))
-        return {l: given[l] for l in levels[var]}
+            raise ValueError("categorical[%r] lacks %s %s" % (var, "level" if len(lacking) == 1 else "levels",
+                                                               ", ".join(lacking)))
+        mapping = {l: given[l] for l in levels[var]}
+        if len(set(mapping.values())) != len(mapping):
+            raise ValueError("categorical[%r] gives two levels the same code" % var)
+        for l, code in mapping.items():
+            if not re.fullmatch(r"-?[0-9]+", l):
+                continue
+            other = [o for o, c in mapping.items() if c == int(l) and o != l]
+            if other:
+                raise ValueError('factor %s: "%s" would mean two levels in the model file: the level named "%s" '
+                                 '(code %d) and the level with code %s (named "%s"). Give integer-named levels '
+                                 "their own number as code (the default), or rename the levels"
+                                 % (var, l, l, code, l, other[0]))
+        level_codes[var] = mapping
+
+    def codes(var):
+        return level_codes[var]
 
     if samples_path is None:
         stem = os.path.splitext(os.path.basename(model_path))[0]
@@ -158,7 +315,10 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
             lines += ['type = "categorical"', "levels = " + _arr(lv), "reference = " + _q(levels[var][0])]
         else:
             center, scale = standardisation.get(var, (0.0, 1.0))
-            lines += ['type = "continuous"', "center = " + _fmt17(center), "scale = " + _fmt17(scale)]
+            lines.append('type = "continuous"')
+            if var in transforms:
+                lines.append("transform = " + _q(transforms[var]))
+            lines += ["center = " + _fmt17(center), "scale = " + _fmt17(scale)]
         if var in units:
             lines.append("units = " + _q(units[var]))
         if var in rasters:
@@ -167,6 +327,8 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
               "estimates = " + _arr(_fmt17(v) for v in params), "covariance = ["]
     lines += ["  " + _arr(_fmt17(v) for v in row) + "," for row in cov]
     lines.append("]")
+    if offset_text is not None:
+        lines.append("offset = " + offset_text)
     with open(model_path, "w", encoding="utf-8") as f:
         f.write("\n".join(lines) + "\n")
 

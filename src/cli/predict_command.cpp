@@ -23,7 +23,7 @@ constexpr const char* kPredictHelp =
     "                     2 = in range but outside the training hull, 4 = a category not seen in\n"
     "                     training, 8 = in range but NT2 > threshold, 16 = in range but outside the\n"
     "                     2-D hull of two covariates that share a term; 255 = no data (legend included)\n"
-    "  novelty.tif        Float32, 3 bands: MESS similarity (%), NT1, NT2 ratio\n"
+    "  novelty.tif        Float32, 3 bands: MESS similarity (%), NT1, NT2 (D^2 / max D^2)\n"
     "  least_similar.tif  UInt8, the covariate with the lowest similarity (attribute table names it)\n"
     "  report.json        counts, shares and areas per cause and covariate, warnings, timing\n"
     "Joint checks run on the model values (after transform and standardisation) of the continuous\n"
@@ -153,7 +153,7 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
       ->check(CLI::IsMember({"range", "hull", "pairs", "nt2", "mess"}))
       ->default_str("range,hull,pairs,nt2,mess");
   cmd->add_option("--nt2-threshold", args->options.novelty.nt2_threshold,
-                  "Flag bit 8 where NT2 (Mahalanobis distance over the farthest training sample's) exceeds this")
+                  "Flag bit 8 where NT2 (squared Mahalanobis distance over the farthest training\nsample's squared distance) exceeds this")
       ->default_val(1.0);
   cmd->add_option("--hull-tolerance", args->options.novelty.hull_tolerance,
                   "Relative enlargement of the hulls about their centre, absorbing roundoff on facets")

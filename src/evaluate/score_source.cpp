@@ -7,6 +7,7 @@
 #include <optional>
 
 #include "core/base/error.hpp"
+#include "core/base/number_text.hpp"
 #include "core/model/evaluator.hpp"
 #include "core/model/model_file.hpp"
 #include "core/model/term_plan.hpp"
@@ -83,7 +84,7 @@ class ModelScores final : public ScoreSource {
   }
   const RasterGrid& grid() const override { return grid_; }
   std::string describe() const override {
-    return spec_.path + " applied to " + std::to_string(inputs_.size()) + " covariate raster" + (inputs_.size() == 1 ? "" : "s");
+    return spec_.path + " applied to " + count_of(static_cast<std::int64_t>(inputs_.size()), "covariate raster");
   }
   const ModelSpec* model() const override { return &spec_; }
   PointSampling sampling() const override { return spec_.sampling; }

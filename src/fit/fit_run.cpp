@@ -250,19 +250,21 @@ Covariate categorical_covariate(const SamplingInput& in, const Eigen::ArrayXXd& 
     c.levels.push_back({code, it != names.end() ? it->second : std::to_string(code)});
   }
   if (c.levels.empty()) return c;
+  // A category name that is another level's code would make every later mention of it (a term of
+  // the written model, a training-table cell) mean two levels; refuse it here, naming both.
+  for (const Level& l : c.levels)
+    if (const LevelLookup found = c.find_level(l.name); found.ambiguous())
+      throw InputError(in.path + ": the raster's category names make level names ambiguous: " + found.ambiguity(c, l.name) +
+                       ". Rename the categories (for example in the raster's .aux.xml) or remove the names so that the "
+                       "codes serve as names");
   c.reference_level = c.levels.front().name;
   if (const auto it = o.reference_levels.find(in.name); it != o.reference_levels.end()) {
-    const auto match = std::find_if(c.levels.begin(), c.levels.end(), [&](const Level& l) {
-      return l.name == it->second || std::to_string(l.code) == it->second;
-    });
-    if (match == c.levels.end())
-      throw UsageError("--reference " + in.name + "=" + it->second + ": no such level among the points; levels seen: " +
-                       [&] {
-                         std::string s;
-                         for (const Level& l : c.levels) s += (s.empty() ? "" : ", ") + l.name;
-                         return s;
-                       }());
-    c.reference_level = match->name;
+    const LevelLookup found = c.find_level(it->second);
+    if (found.ambiguous()) throw UsageError("--reference " + in.name + "=" + it->second + ": " + found.ambiguity(c, it->second));
+    if (!found.found())
+      throw UsageError("--reference " + in.name + "=" + it->second + ": no such level among the points (by name or by code); "
+                       "levels seen: " + c.level_list());
+    c.reference_level = c.levels[static_cast<std::size_t>(found.index)].name;
   }
   return c;
 }
@@ -533,14 +535,16 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
 
   if (!summary.untrained_classes.empty()) summary.warnings.push_back(untrained_warning(summary.untrained_classes, inputs));
   if (c.shared_pixels > 0)
-    summary.warnings.push_back(std::to_string(c.points_in_shared) + " points share " + count_of(c.shared_pixels, "pixel", "pixels") +
+    summary.warnings.push_back(count_of(c.points_in_shared, "point") + " share " +
+                               (c.shared_pixels == 1 ? std::string("one pixel") : count_of(c.shared_pixels, "pixel")) +
                                " (e.g. " + c.shared_examples.front() +
                                "); they carry identical covariate values, so the fit counts that place several times");
   if (c.used < c.total)
-    summary.warnings.push_back(std::to_string(c.total - c.used) + " of " + std::to_string(c.total) +
-                               " points were not used (see the counts above; --json lists each with its reason)");
+    summary.warnings.push_back(std::to_string(c.total - c.used) + " of " + count_of(c.total, "point") +
+                               (c.total - c.used == 1 ? " was" : " were") +
+                               " not used (see the counts above; --json lists each with its reason)");
   if (c.bilinear_fallbacks > 0)
-    summary.warnings.push_back(count_of(c.bilinear_fallbacks, "point", "points") +
+    summary.warnings.push_back(count_of(c.bilinear_fallbacks, "point") +
                                " next to nodata or the grid's edge took the containing pixel's value instead "
                                "of a bilinear interpolation");
   return summary;
@@ -591,10 +595,6 @@ std::string format_fit_summary(const FitSummary& s) {
     os << "\nEstimates are per standard deviation of each covariate (centre and scale are in the model file).\n";
   os << "\nWrote " << s.model_path << " and " << s.samples_path << ".\n";
   return os.str();
-}
-
-std::string count_of(std::int64_t n, const std::string& singular, const std::string& plural) {
-  return std::to_string(n) + " " + (n == 1 ? singular : plural);
 }
 
 nlohmann::ordered_json fit_report_json(const FitSummary& s) {

@@ -70,7 +70,4 @@ std::string format_fit_summary(const FitSummary& summary);
 /// Everything in the text report, plus every dropped point with its reason, as JSON (fit --json).
 nlohmann::ordered_json fit_report_json(const FitSummary& summary);
 
-/// "1 pixel", "3 pixels": a count with its noun in the right number.
-std::string count_of(std::int64_t n, const std::string& singular, const std::string& plural);
-
 }  // namespace habcast

@@ -141,8 +141,8 @@ struct Worker {
   std::vector<std::uint8_t> valid;
 
   Worker(const std::vector<CovariateInput>& inputs, const ModelSpec& spec, const TermPlan& plan, double level,
-         double quantum, const TrainingDomain* domain, const NoveltyModel* novelty)
-      : evaluator(spec, level, quantum), predictor(spec, plan, evaluator, domain, novelty) {
+         double quantum, const TrainingDomain* domain, const NoveltyModel* novelty, const LowCertaintyRule* certainty)
+      : evaluator(spec, level, quantum), predictor(spec, plan, evaluator, domain, novelty, certainty) {
     for (const CovariateInput& in : inputs) readers.emplace_back(in.path, in.band);
   }
   Worker(const Worker&) = delete;
@@ -207,8 +207,8 @@ OutputSpec novelty_spec(const OutputSpec& base, const std::string& path, const N
   n.bands = {{"MESS similarity, percent: min over covariates, negative outside the training range (Elith et al. 2010)" +
                   (o.mess ? std::string() : off), "percent"},
              {"NT1 univariate novelty: 0 in range, negative outside (Mesgaran et al. 2014)" + (o.mess ? std::string() : off), ""},
-             {"NT2 Mahalanobis ratio: distance from the training centroid over the largest training distance; > 1 is "
-              "novel (Mesgaran et al. 2014)" + (o.nt2 ? std::string() : off), ""}};
+             {"NT2 = D^2 / max D^2: squared Mahalanobis distance from the training centroid over the largest squared "
+              "training distance; > 1 is novel (Mesgaran et al. 2014)" + (o.nt2 ? std::string() : off), ""}};
   n.metadata.emplace_back("HABCAST_NOVELTY_SPACE", "model values of the continuous covariates (after transform and standardisation)");
   n.metadata.emplace_back("HABCAST_NOVELTY_FLOOR", "values below -9000 are written as -9000 so they never equal nodata");
   return n;
@@ -380,6 +380,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     domain.emplace(spec, *samples);
     if (options.novelty.any()) novelty.emplace(spec, plan, *samples, options.novelty);
   }
+  const LowCertaintyRule certainty = LowCertaintyRule::for_model(spec, samples ? &*samples : nullptr);
   if (!options.quicklook_path.empty()) refuse_to_clobber({options.quicklook_path}, options.overwrite, ", or choose another --quicklook path");
   if (options.max_extrapolated_percent && !domain)
     throw InputError(located(spec.path, 0, "--max-extrapolated needs training samples: add [training] samples = \"FILE.csv\""));
@@ -394,7 +395,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   std::vector<std::unique_ptr<Worker>> workers;
   for (int t = 0; t < threads; ++t)
     workers.push_back(std::make_unique<Worker>(inputs, spec, plan, options.level, quantum,
-                                               domain ? &*domain : nullptr, novelty ? &*novelty : nullptr));
+                                               domain ? &*domain : nullptr, novelty ? &*novelty : nullptr, &certainty));
 
   std::error_code ec;
   fs::create_directories(options.output_dir, ec);
@@ -458,6 +459,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   ctx.spec = &spec;
   ctx.domain = domain ? &*domain : nullptr;
   ctx.novelty = novelty ? &*novelty : nullptr;
+  ctx.certainty = &certainty;
   ctx.inputs = inputs;
   ctx.grid = grid;
   ctx.level = options.level;

@@ -102,9 +102,16 @@ void range_warnings(const ReportContext& ctx, std::vector<std::string>& out) {
       if (d.above[c] > 0)
         sides += std::string(sides.empty() ? "" : ", ") + format_percent(share(d.above[c], d.checked)) + " above " +
                  with_units(r.max, cov.units);
-      out.push_back(format_percent(share(d.below[c] + d.above[c], d.checked)) +
-                    " of valid pixels lie outside the training range of " + cov.name + " (" + sides +
-                    "); predictions there extrapolate the fitted curve and may be badly wrong.");
+      if (ctx.domain->offset_only(c))
+        out.push_back(format_percent(share(d.below[c] + d.above[c], d.checked)) +
+                      " of valid pixels lie outside the training range of " + cov.name + " (" + sides + "). " +
+                      cov.name + " enters only the offset, so it is left out of the joint checks and sets no flag in "
+                      "extrapolation.tif; the prediction there scales with it as the offset says, beyond the values the "
+                      "model was fitted with.");
+      else
+        out.push_back(format_percent(share(d.below[c] + d.above[c], d.checked)) +
+                      " of valid pixels lie outside the training range of " + cov.name + " (" + sides +
+                      "); predictions there extrapolate the fitted curve and may be badly wrong.");
     }
     if (cov.categorical && d.unseen[c] > 0) {
       std::string codes;
@@ -112,8 +119,8 @@ void range_warnings(const ReportContext& ctx, std::vector<std::string>& out) {
         (void)n;
         codes += (codes.empty() ? "" : ", ") + level_name(cov, code);
       }
-      out.push_back(format_percent(share(d.unseen[c], d.checked)) + " of valid pixels have a " + cov.name +
-                    " class absent from the training samples: " + codes +
+      out.push_back(format_percent(share(d.unseen[c], d.checked)) + " of valid pixels have a class of " + cov.name +
+                    " that is absent from the training samples: " + codes +
                     ". Classes the model does not declare get no prediction (nodata); declared but unsampled "
                     "classes are predicted from their coefficients alone.");
     }
@@ -138,17 +145,22 @@ std::vector<std::string> prediction_warnings(const ReportContext& ctx) {
                   "checked and no extrapolation.tif was written. The map may extrapolate anywhere.");
   else
     range_warnings(ctx, out);
+  const LowCertaintyRule certainty = ctx.certainty ? *ctx.certainty : LowCertaintyRule::for_model(*ctx.spec, nullptr);
+  if (ctx.spec->covariance && certainty.kind() == LowCertaintyRule::Kind::unavailable)
+    out.push_back("No pixel was judged for low certainty. A gaussian mean with an identity link can have any sign, so "
+                  "its interval is judged against the spread of the fitted mean over the training samples, and the "
+                  "model file names none (or the fitted mean is the same at every sample). Read uncertainty.tif "
+                  "beside the map.");
   if (ctx.spec->covariance && t.low_certainty > 0) {
-    const std::string what = ctx.spec->family == Family::binomial
-                                 ? "a confidence interval wider than 0.5 in probability"
-                                 : "a confidence interval whose upper limit is more than three times the lower";
+    const std::string what = certainty.description();
     out.push_back(format_percent(share(t.low_certainty, t.predicted)) + " of predicted pixels have " + what +
                   " (level " + format_value(ctx.level) + "); read them as uncertain, not as values (uncertainty.tif).");
   }
   if (t.moved_off_nodata > 0) {
-    out.push_back(std::to_string(t.moved_off_nodata) + " predicted values (suitability or limits) equalled the nodata marker " +
-                  format_value(static_cast<double>(kFloatNodata)) +
-                  " and were stored one Float32 step towards zero, so they do not read as missing data.");
+    const bool one = t.moved_off_nodata == 1;
+    out.push_back(count_of(t.moved_off_nodata, "predicted value") + " (suitability or limits) equalled the nodata marker " +
+                  format_value(static_cast<double>(kFloatNodata)) + (one ? " and was" : " and were") +
+                  " stored one Float32 step towards zero, so " + (one ? "it does" : "they do") + " not read as missing data.");
   }
   const std::int64_t with_data = t.pixels - t.missing_input;
   const std::int64_t unpredicted = with_data - t.predicted;
@@ -221,11 +233,13 @@ nlohmann::ordered_json prediction_report(const ReportContext& ctx, const std::ve
   report["confidence_level"] = ctx.level;
 
   const std::int64_t with_data = t.pixels - t.missing_input;
+  const LowCertaintyRule certainty = ctx.certainty ? *ctx.certainty : LowCertaintyRule::for_model(spec, nullptr);
   report["pixels"] = {{"total", t.pixels},
                       {"missing_input", t.missing_input},
                       {"with_data", with_data},
                       {"predicted", t.predicted},
                       {"low_certainty", t.low_certainty},
+                      {"low_certainty_rule", certainty.description()},
                       {"unknown_level", t.unknown_level},
                       {"outside_transform", t.outside_transform},
                       {"undefined_term", t.undefined_term},
@@ -330,6 +344,7 @@ nlohmann::ordered_json prediction_report(const ReportContext& ctx, const std::ve
         for (const auto& [code, n] : d.unseen_codes[c]) codes[std::to_string(code)] = n;
         e["unseen_codes"] = codes;
       } else {
+        e["offset_only"] = ctx.domain->offset_only(c);
         e["below_pixels"] = d.below[c];
         e["above_pixels"] = d.above[c];
         e["below_share"] = share(d.below[c], d.checked);

@@ -24,6 +24,7 @@ struct ReportContext {
   const ModelSpec* spec = nullptr;
   const TrainingDomain* domain = nullptr;  ///< null without training samples
   const NoveltyModel* novelty = nullptr;   ///< null without training samples or joint checks
+  const LowCertaintyRule* certainty = nullptr;  ///< the low-certainty rule (null: the family's, without samples)
   std::vector<CovariateInput> inputs;
   RasterGrid grid;
   double level = 0.95;

@@ -58,11 +58,6 @@ GDALRasterBand* mask_to_honour(GDALRasterBand& band) {
   return band.GetMaskBand();  // explicit mask, alpha band or a per-dataset nodata mask
 }
 
-std::string window_text(const Window& window) {
-  return "window at column " + std::to_string(window.x) + ", row " + std::to_string(window.y) + " (" +
-         std::to_string(window.width) + " x " + std::to_string(window.height) + " pixels)";
-}
-
 }  // namespace
 
 struct CovariateReader::Impl {

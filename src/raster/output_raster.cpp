@@ -24,11 +24,6 @@ namespace {
 
 namespace fs = std::filesystem;
 
-std::string window_text(const Window& window) {
-  return "window at column " + std::to_string(window.x) + ", row " + std::to_string(window.y) + " (" +
-         std::to_string(window.width) + " x " + std::to_string(window.height) + " pixels)";
-}
-
 void CPL_STDCALL collect_messages(CPLErr /*error_class*/, CPLErrorNum /*number*/, const char* message) {
   static_cast<std::vector<std::string>*>(CPLGetErrorHandlerUserData())->push_back(message != nullptr ? message : "");
 }

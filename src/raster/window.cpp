@@ -6,6 +6,11 @@
 
 namespace habcast {
 
+std::string window_text(const Window& window) {
+  return "window at column " + std::to_string(window.x) + ", row " + std::to_string(window.y) + " (" +
+         std::to_string(window.width) + " x " + std::to_string(window.height) + " pixels)";
+}
+
 std::vector<Window> block_windows(int width, int height, int block_width, int block_height) {
   if (width <= 0 || height <= 0 || block_width <= 0 || block_height <= 0) {
     throw std::invalid_argument("block_windows: raster " + std::to_string(width) + " x " + std::to_string(height) +

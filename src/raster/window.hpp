@@ -1,6 +1,7 @@
 #pragma once
 // Windows on the block grid of a raster: the unit of reading, computing and writing.
 #include <cstdint>
+#include <string>
 #include <vector>
 
 namespace habcast {
@@ -12,6 +13,9 @@ struct Window {
   int height = 0;
   [[nodiscard]] std::int64_t pixels() const { return static_cast<std::int64_t>(width) * height; }
 };
+
+/// "window at column X, row Y (W x H pixels)", for messages.
+std::string window_text(const Window& window);
 
 /// Row-major windows of at most block_width x block_height covering a width x height raster.
 /// Windows start at multiples of the block size so they stay aligned to tiled GeoTIFF blocks.

@@ -41,7 +41,7 @@ class BatchScene {
     for (int r = 0; r <= rows; ++r) row_edges_.push_back(r == rows ? height_ : r * tile_h);
     for (int c = 0; c <= cols; ++c) col_edges_.push_back(c == cols ? width_ : c * tile_w);
     write_text(model(), kModel);
-    write_text(dir_.file("train.csv"), "elev,cover\n320,1\n600,2\n450,forest\n500,open\n");
+    write_text(dir_.file("train.csv"), "elev,cover\n320,open\n600,forest\n450,forest\n500,open\n");
     for (int r = 0; r < rows; ++r)
       for (int c = 0; c < cols; ++c) write_tile(r, c, 0.0);
     write_whole("elev.tif", "cover.tif");

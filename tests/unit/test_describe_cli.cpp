@@ -106,7 +106,7 @@ TEST_CASE("describe refuses options it cannot honour, naming them", "[describe]"
       {{"--at", "landcover=2"}, "--level landcover="},
       {{"--at", "tmin"}, "--at expects NAME=VALUE"},
       {{"--at", "tmin=warm"}, "is not a number"},
-      {{"--level", "landcover=marsh"}, "its levels are heath, bog, woodland, grassland"},
+      {{"--level", "landcover=marsh"}, "its levels are heath (code 1), bog (code 2), woodland (code 3), grassland (code 4)"},
       {{"--pair", "tmin,landcover"}, "categorical"},
       {{"--pair", "tmin"}, "two covariate names"},
       {{"--fraction", "0"}, "--fraction"},

@@ -44,12 +44,12 @@ TEST_CASE("NT1 sums the scaled distances beyond each covariate's range", "[domai
   CHECK(habcast::nt1_term(1, 10, 5) + habcast::nt1_term(0, 2, 2) == 0.0);
 }
 
-TEST_CASE("NT2 is the Mahalanobis distance over the largest training distance", "[domain]") {
-  // Mesgaran et al. 2014: NT2 = D_M(x) / max_i D_M(x_i), D_M from the training centroid with the
-  // training covariance (divisor n - 1, as R's cov; from memory: the paper takes the ratio of
-  // distances, and the flag threshold 1 is the same for their squares). Hand-worked: the corners
-  // (0,0), (2,0), (0,2), (2,2) have mean (1,1) and covariance (4/3) I, so every corner has
-  // D^2 = 2 / (4/3) = 1.5; the point (1,3) has D^2 = 4 / (4/3) = 3, NT2 = sqrt(3 / 1.5) = sqrt(2).
+TEST_CASE("NT2 is the squared Mahalanobis distance over the largest squared training distance", "[domain]") {
+  // Mesgaran, Cousens & Webber 2014 (from memory): NT2 = D^2(x) / max_i D^2(x_i), D^2 the squared
+  // Mahalanobis distance from the training centroid with the training covariance (divisor n - 1,
+  // as R's cov). Hand-worked: the corners (0,0), (2,0), (0,2), (2,2) have mean (1,1) and covariance
+  // (4/3) I, so every corner has D^2 = 2 / (4/3) = 1.5; the point (1,3) has D^2 = 4 / (4/3) = 3,
+  // NT2 = 3 / 1.5 = 2 (the ratio of distances would be sqrt(2)).
   Eigen::MatrixXd corners(4, 2);
   corners << 0, 0, 2, 0, 0, 2, 2, 2;
   const habcast::WhiteningFrame frame = habcast::whitening_frame(corners, 1e-9);
@@ -60,7 +60,26 @@ TEST_CASE("NT2 is the Mahalanobis distance over the largest training distance", 
   CHECK_THAT(y[0] * y[0] + y[1] * y[1], WithinAbs(1.5, 1e-12));
   const double point[2] = {1, 3};
   frame.whiten(point, y);
-  CHECK_THAT(std::sqrt((y[0] * y[0] + y[1] * y[1]) / 1.5), WithinAbs(std::sqrt(2.0), 1e-12));
+  CHECK_THAT((y[0] * y[0] + y[1] * y[1]) / 1.5, WithinAbs(2.0, 1e-12));
+  // The same through the model's own NT2 band: corners as training samples, (1,3) as a pixel.
+  const std::string model_text =
+      "habcast_model = 1\n[model]\nfamily = \"gaussian\"\n[covariates.a]\n[covariates.b]\n"
+      "[coefficients]\nterms = [\"(Intercept)\", \"a\", \"b\"]\nestimates = [0.0, 1.0, 1.0]\n";
+  const habcast::ModelSpec spec = habcast::parse_model_text(model_text, "corners.toml");
+  const habcast::TermPlan plan(spec);
+  const habcast::TrainingSamples samples = habcast::parse_training_samples("a,b\n0,0\n2,0\n0,2\n2,2\n", "corners.csv", spec);
+  habcast::NoveltyOptions options;
+  options.hull = false;
+  options.pairs = false;
+  const habcast::NoveltyModel model(spec, plan, samples, options);
+  Eigen::ArrayXXd pixel(1, 2);
+  pixel << 1, 1.999;  // in range (so bit 8 can be set); D^2 = 0.998001 / (4/3)
+  std::uint8_t valid = 1, flags = 0;
+  habcast::DomainTally tally(2);
+  habcast::NoveltyBlock out;
+  model.check(pixel, 1, &valid, &flags, out, tally);
+  CHECK_THAT(out.nt2[0], WithinAbs(0.998001 / (4.0 / 3.0) / 1.5, 1e-6));
+  CHECK(model.nt2_max_distance() == Approx(std::sqrt(1.5)));
 }
 
 namespace {

@@ -61,7 +61,10 @@ struct DirectNt2 {
     const Eigen::Vector2d v(t - mean[0], p - mean[1]);
     return std::sqrt(v.dot(inverse * v));
   }
-  [[nodiscard]] double operator()(double t, double p) const { return distance(t, p) / max_distance; }
+  // NT2: ratio of squared distances (Mesgaran et al. 2014, from memory).
+  [[nodiscard]] double operator()(double t, double p) const {
+    return distance(t, p) * distance(t, p) / (max_distance * max_distance);
+  }
 };
 
 }  // namespace
@@ -190,7 +193,7 @@ TEST_CASE("bad training tables for the joint checks give a clear message and no 
   }
   SECTION("a single row") {
     CHECK(run("tmin,precip\n1,1\n", err) == 3);
-    CHECK_THAT(err, Catch::Matchers::Contains("train.csv") && Catch::Matchers::Contains("1 sample(s) record tmin") &&
+    CHECK_THAT(err, Catch::Matchers::Contains("train.csv") && Catch::Matchers::Contains("1 sample records tmin") &&
                         Catch::Matchers::Contains("--checks range"));
   }
   SECTION("a covariate with zero variance") {

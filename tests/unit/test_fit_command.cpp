@@ -101,7 +101,7 @@ TEST_CASE("fit drops points outside the grid and on nodata, counts them, and rep
   CHECK(out.find("18 used") != std::string::npos);
   CHECK(out.find("1 outside the grid") != std::string::npos);
   CHECK(out.find("1 on nodata (elev 1)") != std::string::npos);
-  CHECK(err.find("2 points share 1 pixel (") != std::string::npos);  // "1 pixel", not "1 pixels"
+  CHECK(err.find("2 points share one pixel") != std::string::npos);  // singular, not "1 pixels"
   CHECK(err.find("p.csv:20 and") != std::string::npos);
 }
 

@@ -37,7 +37,7 @@ struct ErrorScene {
     habcast::test::write_raster(dir.file("cover.tif"), grid, "Byte", [](int, int c) { return c < 20 ? 1.0 : (c == 39 ? 3.0 : 2.0); },
                                 true, 0.0);
     habcast::test::write_text(model, kModel);
-    habcast::test::write_text(dir.file("train.csv"), "elev,cover\n320,1\n600,2\n450,forest\n");
+    habcast::test::write_text(dir.file("train.csv"), "elev,cover\n320,open\n600,forest\n450,forest\n");
   }
   int run(std::vector<std::string> extra, std::string* err = nullptr) {
     std::vector<std::string> args{"predict", model, "-o", out, "-q"};

@@ -10,4 +10,8 @@ std::string significant(double value, int digits) {
   return text;
 }
 
+std::string count_of(std::int64_t count, const std::string& noun, const std::string& plural) {
+  return std::to_string(count) + " " + (count == 1 ? noun : (plural.empty() ? noun + "s" : plural));
+}
+
 }  // namespace habcast

@@ -26,7 +26,7 @@ NoveltyModel::NoveltyModel(const ModelSpec& spec, const TermPlan& plan, const Tr
                            const NoveltyOptions& options)
     : spec_(spec), options_(options) {
   for (std::size_t c = 0; c < spec.covariates.size(); ++c)
-    if (!spec.covariates[c].categorical && plan.uses_covariate(static_cast<int>(c)))
+    if (!spec.covariates[c].categorical && plan.uses_covariate(static_cast<int>(c)) && !plan.offset_only(static_cast<int>(c)))
       covariates_.push_back(static_cast<int>(c));
   if (!active()) {
     hull_method_ = covariates_.empty() ? "not applicable: the model uses no continuous covariate" : "not requested";
@@ -61,7 +61,8 @@ void NoveltyModel::build_univariate(const ModelSpec& spec, const TrainingSamples
     std::sort(values.begin(), values.end());
     if (values.size() < 2)
       throw InputError(located(samples.path, 0,
-                               std::to_string(values.size()) + " sample(s) record " + cov.name +
+                               count_of(static_cast<std::int64_t>(values.size()), "sample") +
+                                   (values.size() == 1 ? " records " : " record ") + cov.name +
                                    "; similarity, NT2 and the hulls need at least 2 distinct values." + fix));
     if (values.front() == values.back())
       throw InputError(located(samples.path, 0,
@@ -91,7 +92,8 @@ void NoveltyModel::build_joint(const ModelSpec& spec, const TrainingSamples& sam
     }
   const bool need_joint = (options_.nt2 || options_.hull) && d >= 1;
   if (need_joint && complete_ < 2) {
-    notes_.push_back("Only " + std::to_string(complete_) + " training sample(s) record all of " + names(covariates_) +
+    notes_.push_back("Only " + count_of(complete_, "training sample") + (complete_ == 1 ? " records" : " record") +
+                     " all of " + names(covariates_) +
                      ", so NT2 and the training hull were not computed.");
     options_.nt2 = false;
     options_.hull = false;
@@ -104,7 +106,7 @@ void NoveltyModel::build_joint(const ModelSpec& spec, const TrainingSamples& sam
       frame_->whiten(x.data(), y.data());
       double r2 = 0.0;
       for (int j = 0; j < frame_->rank; ++j) r2 += y[static_cast<std::size_t>(j)] * y[static_cast<std::size_t>(j)];
-      nt2_max_ = std::max(nt2_max_, std::sqrt(r2));
+      nt2_max_ = std::max(nt2_max_, r2);  // squared distances: NT2 is their ratio (Mesgaran et al. 2014)
     }
     if (frame_->rank < d)
       notes_.push_back("The training samples of " + names(covariates_) + " span only " + std::to_string(frame_->rank) +
@@ -247,7 +249,10 @@ void NoveltyModel::check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const st
       off_plane = frame_->whiten(out.z.data(), out.y.data());
       double r2 = 0.0;
       for (int j = 0; j < frame_->rank; ++j) r2 += out.y[static_cast<std::size_t>(j)] * out.y[static_cast<std::size_t>(j)];
-      const double nt2 = nt2_max_ > 0.0 ? std::sqrt(r2) / nt2_max_ : 0.0;
+      // NT2 = D²(pixel) / max D²(training samples), the ratio of squared Mahalanobis distances of
+      // Mesgaran, Cousens & Webber 2014 (from memory). NT2 > 1 exactly where D > max D, so the
+      // flag is the same as for the ratio of distances.
+      const double nt2 = nt2_max_ > 0.0 ? r2 / nt2_max_ : 0.0;
       out.nt2[i] = static_cast<float>(std::min(nt2, 1e30));
       if (nt2 > options_.nt2_threshold) {
         ++tally.nt2_above;

@@ -5,6 +5,7 @@
 // that share a term. Built once from the training samples; checks blocks of pixels after
 // TrainingDomain has set the range and level bits. Documented in docs/extrapolation-flags.md.
 #include <Eigen/Core>
+#include <cmath>
 #include <cstdint>
 #include <optional>
 #include <string>
@@ -68,7 +69,8 @@ class NoveltyModel {
   /// Notes on degenerate training sets and their fallbacks (also warnings of the run).
   [[nodiscard]] const std::vector<std::string>& notes() const { return notes_; }
   [[nodiscard]] std::int64_t complete_samples() const { return complete_; }
-  [[nodiscard]] double nt2_max_distance() const { return nt2_max_; }
+  /// The largest Mahalanobis distance (not squared) of a training sample from the centroid.
+  [[nodiscard]] double nt2_max_distance() const { return std::sqrt(nt2_max_); }
   [[nodiscard]] bool active() const { return !covariates_.empty() && options_.any(); }
 
   /// Checks the first `rows` pixels of `raw` (rows x all covariates, raw values). Pixels with
@@ -91,7 +93,7 @@ class NoveltyModel {
   std::int64_t complete_ = 0;
   std::optional<WhiteningFrame> frame_;      ///< for NT2
   bool hull_shares_nt2_frame_ = false;       ///< the hull's frame equals frame_: whiten once per pixel
-  double nt2_max_ = 0.0;
+  double nt2_max_ = 0.0;                     ///< largest SQUARED training distance, NT2's denominator
   std::optional<TrainingHull> hull_;
   std::vector<CovariatePair> pairs_;
   std::vector<TrainingHull> pair_hulls_;

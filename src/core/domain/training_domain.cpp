@@ -6,6 +6,7 @@
 
 #include "core/base/error.hpp"
 #include "core/domain/extrapolation_flags.hpp"
+#include "core/model/term_plan.hpp"
 
 namespace habcast {
 
@@ -34,7 +35,10 @@ void DomainTally::merge(const DomainTally& other) {
 }
 
 TrainingDomain::TrainingDomain(const ModelSpec& spec, const TrainingSamples& samples)
-    : spec_(spec), ranges_(spec.covariates.size()), seen_(spec.covariates.size()), samples_(samples.raw.rows()) {
+    : spec_(spec), ranges_(spec.covariates.size()), seen_(spec.covariates.size()), offset_only_(spec.covariates.size()),
+      samples_(samples.raw.rows()) {
+  const TermPlan plan(spec);
+  for (std::size_t c = 0; c < spec.covariates.size(); ++c) offset_only_[c] = plan.offset_only(static_cast<int>(c));
   for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
     const auto col = samples.raw.col(static_cast<Eigen::Index>(c));
     CovariateRange r{std::numeric_limits<double>::infinity(), -std::numeric_limits<double>::infinity(), 0};
@@ -89,13 +93,14 @@ void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const s
     } else {
       const double lo = ranges_[c].min;
       const double hi = ranges_[c].max;
+      const std::uint8_t bit = offset_only_[c] ? std::uint8_t{0} : flag::outside_range;
       for (Eigen::Index r = 0; r < rows; ++r) {
         if (!valid[r]) continue;
         if (v[r] < lo) {
-          flags[r] |= flag::outside_range;
+          flags[r] |= bit;
           ++tally.below[c];
         } else if (v[r] > hi) {
-          flags[r] |= flag::outside_range;
+          flags[r] |= bit;
           ++tally.above[c];
         }
       }

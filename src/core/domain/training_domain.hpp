@@ -45,6 +45,9 @@ class TrainingDomain {
   /// Level codes seen in training for categorical covariate `covariate`, sorted.
   [[nodiscard]] const std::vector<std::int64_t>& levels_seen(std::size_t covariate) const { return seen_[covariate]; }
   [[nodiscard]] std::int64_t sample_count() const { return samples_; }
+  /// A covariate used only by the offset: its range is checked and counted (tally below/above)
+  /// but sets no flag bit, because it is not part of the niche (docs/extrapolation-flags.md).
+  [[nodiscard]] bool offset_only(std::size_t covariate) const { return offset_only_[covariate]; }
 
   /// Writes the range and level bits for the first `rows` rows of `raw` (rows x covariates, raw
   /// values; row-wise valid mask). Invalid rows get flag::nodata. Adds per-covariate counts to
@@ -59,6 +62,7 @@ class TrainingDomain {
   const ModelSpec& spec_;
   std::vector<CovariateRange> ranges_;
   std::vector<std::vector<std::int64_t>> seen_;
+  std::vector<bool> offset_only_;
   std::int64_t samples_ = 0;
 };
 

@@ -25,19 +25,46 @@ bool parse_double(const std::string& text, double& out) {
   return ec == std::errc() && ptr == last && std::isfinite(out);
 }
 
-double categorical_code(const Covariate& c, const std::string& value, const std::string& path, long line) {
-  for (const Level& l : c.levels)
-    if (l.name == value) return static_cast<double>(l.code);
-  double number = 0.0;
-  if (parse_double(value, number) && number == std::floor(number)) {
-    // A whole number too large for a code (found by fuzz_training_samples) is no level either.
-    const std::optional<std::int64_t> code = level_code(number);
-    if (code && c.level_index(*code) >= 0) return number;
-    throw InputError(located(path, line, "level code " + value + " of \"" + c.name +
-                                             "\" is not declared in the model file; add it to the covariate's levels"));
+/// Which reading of a categorical column's cells has been seen first, so that a column mixing level
+/// names and level codes is refused (docs/model-format.md, "Naming a level").
+struct LevelConvention {
+  long name_line = 0;  ///< first line with a cell that is only a level's name
+  std::string name_value;
+  long code_line = 0;  ///< first line with a cell that is only a level's code
+  std::string code_value;
+};
+
+double categorical_code(const Covariate& c, const std::string& value, const std::string& path, long line,
+                        LevelConvention& convention) {
+  const LevelLookup found = c.find_level(value);
+  if (found.ambiguous())
+    throw InputError(located(path, line, "the value " + found.ambiguity(c, value) + "; the training table's cells are "
+                                                                                   "read by the same rule as terms"));
+  if (!found.found()) {
+    double number = 0.0;
+    if (parse_double(value, number) && number == std::floor(number))
+      throw InputError(located(path, line, "level code " + value + " of \"" + c.name +
+                                               "\" is not declared in the model file; add it to the covariate's levels "
+                                               "(declared: " + c.level_list() + ")"));
+    throw InputError(located(path, line, "\"" + value + "\" is not a level of \"" + c.name +
+                                             "\" (give a declared level name or integer code; declared: " + c.level_list() + ")"));
   }
-  throw InputError(located(path, line, "\"" + value + "\" is not a level of \"" + c.name +
-                                           "\" (give a declared level name or integer code)"));
+  const Level& level = c.levels[static_cast<std::size_t>(found.index)];
+  // A cell that both readings agree on (an integer name equal to its own code) fits either convention.
+  if (found.by_code < 0 && convention.name_line == 0) {
+    convention.name_line = line;
+    convention.name_value = value;
+  } else if (found.by_name < 0 && convention.code_line == 0) {
+    convention.code_line = line;
+    convention.code_value = value;
+  }
+  if (convention.name_line && convention.code_line)
+    throw InputError(located(path, line, "column \"" + c.name + "\" mixes level names and level codes: line " +
+                                             std::to_string(convention.name_line) + " holds the name \"" +
+                                             convention.name_value + "\", line " + std::to_string(convention.code_line) +
+                                             " the code " + convention.code_value +
+                                             "; write the whole column one way (codes, as in the raster, or names)"));
+  return static_cast<double>(level.code);
 }
 
 }  // namespace
@@ -68,6 +95,7 @@ TrainingSamples parse_training_samples(const std::string& text, const std::strin
     column[c] = found;
   }
 
+  std::vector<LevelConvention> conventions(k);
   std::vector<double> values;  // row-major while reading
   std::size_t rows = 0;
   while (std::getline(in, line)) {
@@ -83,7 +111,7 @@ TrainingSamples parse_training_samples(const std::string& text, const std::strin
       double x = std::numeric_limits<double>::quiet_NaN();
       if (!is_missing(v)) {
         if (cov.categorical) {
-          x = categorical_code(cov, v, path, line_number);
+          x = categorical_code(cov, v, path, line_number, conventions[c]);
         } else if (!parse_double(v, x)) {
           throw InputError(located(path, line_number, "value \"" + v + "\" of \"" + cov.name +
                                                           "\" is not a finite number (leave the cell empty or NA if not recorded)"));

@@ -156,9 +156,13 @@ void read_levels(TomlTableReader& s, Covariate& c) {
   }
   if (const toml::node* ref = s.get("reference")) {
     if (!ref->is_string()) s.fail(*ref, "reference of \"" + c.name + "\" must be a level name in quotes");
-    c.reference_level = *ref->value<std::string>();
-    if (!names.count(c.reference_level))
-      s.fail(*ref, "reference level \"" + c.reference_level + "\" is not among the levels of \"" + c.name + "\"");
+    const std::string text = *ref->value<std::string>();
+    const LevelLookup found = c.find_level(text);
+    if (found.ambiguous()) s.fail(*ref, "reference " + found.ambiguity(c, text));
+    if (!found.found())
+      s.fail(*ref, "reference level \"" + text + "\" is not among the levels of \"" + c.name + "\" (by name or by code): " +
+                       c.level_list());
+    c.reference_level = c.levels[static_cast<std::size_t>(found.index)].name;
   } else {
     c.reference_level = c.levels.front().name;
   }
@@ -292,6 +296,7 @@ void read_coefficients(const toml::table& root, ModelSpec& spec) {
     spec.covariance = std::move(V);
   }
   if (const toml::node* offset = s.get("offset")) {
+    spec.offset_line = toml_line(*offset);
     if (offset->is_string()) spec.offset_term = *offset->value<std::string>();
     else spec.offset_constant = s.finite_number(*offset, "[coefficients] offset");
   }

@@ -1,6 +1,7 @@
 #include "core/model/model_spec.hpp"
 
 #include <algorithm>
+#include <charconv>
 #include <cmath>
 
 namespace habcast {
@@ -9,6 +10,41 @@ int Covariate::level_index(std::int64_t code) const {
   for (std::size_t i = 0; i < levels.size(); ++i)
     if (levels[i].code == code) return static_cast<int>(i);
   return -1;
+}
+
+std::optional<std::int64_t> code_in_text(const std::string& text) {
+  const char* first = text.data();
+  const char* last = text.data() + text.size();
+  if (first != last && *first == '+') ++first;
+  double value = 0.0;
+  const auto [ptr, ec] = std::from_chars(first, last, value);
+  if (first == last || ec != std::errc() || ptr != last) return std::nullopt;
+  return level_code(value);
+}
+
+LevelLookup Covariate::find_level(const std::string& text) const {
+  LevelLookup found;
+  for (std::size_t i = 0; i < levels.size(); ++i)
+    if (levels[i].name == text) found.by_name = static_cast<int>(i);
+  if (const std::optional<std::int64_t> code = code_in_text(text)) found.by_code = level_index(*code);
+  if (!found.ambiguous()) found.index = found.by_name >= 0 ? found.by_name : found.by_code;
+  return found;
+}
+
+std::string LevelLookup::ambiguity(const Covariate& c, const std::string& text) const {
+  if (!ambiguous()) return "";
+  const Level& named = c.levels[static_cast<std::size_t>(by_name)];
+  const Level& coded = c.levels[static_cast<std::size_t>(by_code)];
+  return "\"" + text + "\" could mean two levels of \"" + c.name + "\": the level named \"" + named.name + "\" (code " +
+         std::to_string(named.code) + ") or the level with code " + std::to_string(coded.code) + " (named \"" +
+         coded.name + "\"). Give the levels names that are not another level's code (an integer name is best "
+         "written with the same code, as habcast's exporters do)";
+}
+
+std::string Covariate::level_list() const {
+  std::string s;
+  for (const Level& l : levels) s += (s.empty() ? "" : ", ") + l.name + " (code " + std::to_string(l.code) + ")";
+  return s;
 }
 
 int ModelSpec::covariate_index(const std::string& covariate_name) const {

@@ -21,6 +21,8 @@ struct Level {
   std::string name;
 };
 
+struct LevelLookup;
+
 struct Covariate {
   std::string name;
   bool categorical = false;
@@ -40,7 +42,34 @@ struct Covariate {
 
   /// Index into `levels` of the level with this code, or -1 when the model never saw it.
   [[nodiscard]] int level_index(std::int64_t code) const;
+
+  /// The one rule by which text names a level, wherever it does (a term's `soil[...]`, a training
+  /// table cell, describe's --level, fit's --reference): the text is read as a level's name and,
+  /// when it is a whole number, as a level's code. If exactly one level fits, or both readings give
+  /// the same level, that level is meant. If the readings give two different levels (the name of one
+  /// is the code of another) the text is ambiguous. docs/model-format.md, "Naming a level".
+  [[nodiscard]] LevelLookup find_level(const std::string& text) const;
+  /// "heath (code 1), bog (code 2)": the levels as a message lists them.
+  [[nodiscard]] std::string level_list() const;
 };
+
+/// The result of Covariate::find_level.
+struct LevelLookup {
+  int index = -1;          ///< the level meant, or -1 (none fits, or the text is ambiguous)
+  int by_name = -1;        ///< the level whose name is the text, or -1
+  int by_code = -1;        ///< the level whose code the text is, or -1
+  [[nodiscard]] bool ambiguous() const { return by_name >= 0 && by_code >= 0 && by_name != by_code; }
+  [[nodiscard]] bool found() const { return index >= 0; }
+  /// For an ambiguous lookup: ""1" is the name of level "1" (code 2) and the code of level
+  /// "0" (code 1)", naming both readings. Empty otherwise.
+  [[nodiscard]] std::string ambiguity(const Covariate& c, const std::string& text) const;
+  /// Whether the text was read as a name (false: as a code). Meaningful when found().
+  [[nodiscard]] bool read_as_name() const { return by_name >= 0; }
+};
+
+/// The code a level label stands for when read as a number: a whole number ("2", "2.0") that a
+/// 64-bit integer holds; else nothing.
+std::optional<std::int64_t> code_in_text(const std::string& text);
 
 /// The level code a raster or table value stands for: the value itself when it is a whole number
 /// that a 64-bit integer can hold, else nothing (2.5, 1e30, NaN and infinities are codes of no level).
@@ -83,6 +112,7 @@ struct ModelSpec {
   // Offset added to the linear predictor: a term expression (coefficient 1) or a constant.
   std::optional<std::string> offset_term;
   double offset_constant = 0.0;
+  long offset_line = 0;  ///< line of [coefficients] offset, for messages
 
   // Fit statistics as recorded by the fitting software (optional; shown in reports, not used in
   // predictions).

@@ -1,5 +1,6 @@
 #include "core/model/term_plan.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <map>
@@ -9,7 +10,7 @@
 
 namespace habcast {
 
-TermPlan::TermPlan(const ModelSpec& spec) : used_(spec.covariates.size(), false) {
+TermPlan::TermPlan(const ModelSpec& spec) : used_(spec.covariates.size(), false), in_terms_(spec.covariates.size(), false) {
   std::map<std::string, std::size_t> seen;  // canonical label -> position
   terms_.reserve(spec.terms.size());
   for (std::size_t i = 0; i < spec.terms.size(); ++i) {
@@ -21,17 +22,45 @@ TermPlan::TermPlan(const ModelSpec& spec) : used_(spec.covariates.size(), false)
                                "term \"" + spec.terms[i] + "\" repeats term " + std::to_string(it->second + 1) +
                                    " (\"" + spec.terms[it->second] +
                                    "\"); each term may appear once (factor order does not matter)"));
-    for (const TermFactor& f : term.factors) used_[static_cast<std::size_t>(f.covariate)] = true;
+    for (const TermFactor& f : term.factors) used_[static_cast<std::size_t>(f.covariate)] = in_terms_[static_cast<std::size_t>(f.covariate)] = true;
     terms_.push_back(std::move(term));
   }
+  reject_reference_indicators(spec);
   for (std::size_t c = 0; c < spec.covariates.size(); ++c)
     if (spec.covariates[c].categorical) categorical_.push_back(static_cast<int>(c));
   if (spec.offset_term) {
-    offset_ = parse_term(*spec.offset_term, spec, spec.path, 0);
+    offset_ = parse_term(*spec.offset_term, spec, spec.path, spec.offset_line, "offset");
     for (const TermFactor& f : offset_->factors) used_[static_cast<std::size_t>(f.covariate)] = true;
   }
   for (int c : categorical_)
     if (used_[static_cast<std::size_t>(c)]) used_categorical_.push_back(c);
+}
+
+void TermPlan::reject_reference_indicators(const ModelSpec& spec) const {
+  // With an intercept, the reference level's own indicator is the intercept minus the other
+  // levels' indicators: a coefficient on it means the file names the wrong level (a code read as a
+  // name, or the other way round), so it is refused rather than applied to the wrong class.
+  // Products (soil[peat]:tmin) may name the reference level: R writes them when the continuous
+  // factor has no main effect.
+  const bool has_intercept = std::any_of(terms_.begin(), terms_.end(), [](const Term& t) { return t.intercept; });
+  if (!has_intercept) return;
+  for (std::size_t i = 0; i < terms_.size(); ++i) {
+    const Term& t = terms_[i];
+    if (t.factors.size() != 1 || t.factors[0].level < 0) continue;
+    const Covariate& c = spec.covariates[static_cast<std::size_t>(t.factors[0].covariate)];
+    const Level& level = c.levels[static_cast<std::size_t>(t.factors[0].level)];
+    if (level.name != c.reference_level) continue;
+    throw InputError(located(spec.path, i < spec.term_lines.size() ? spec.term_lines[i] : 0,
+                             "term \"" + spec.terms[i] + "\" names level \"" + level.name + "\" (code " +
+                                 std::to_string(level.code) + "), the reference level of \"" + c.name +
+                                 "\", which the intercept absorbs and which has no term of its own. If the term was "
+                                 "meant for another level, name that level; if \"" + level.name +
+                                 "\" is not the reference, set reference = \"...\" in [covariates." + c.name + "]"));
+  }
+}
+
+bool TermPlan::offset_only(int covariate) const {
+  return uses_covariate(covariate) && !in_terms_[static_cast<std::size_t>(covariate)];
 }
 
 bool TermPlan::uses_covariate(int covariate) const {

@@ -29,6 +29,10 @@ class TermPlan {
   [[nodiscard]] const std::optional<Term>& offset_term() const { return offset_; }
   /// True for covariates that appear in at least one term or in the offset.
   [[nodiscard]] bool uses_covariate(int covariate) const;
+  /// True for covariates that appear in the offset and in no term (effort, area, exposure). They
+  /// scale the prediction but are not part of the niche: the joint checks leave them out, describe
+  /// holds them, and their range check is reported on its own (docs/extrapolation-flags.md).
+  [[nodiscard]] bool offset_only(int covariate) const;
 
   /// Fills X (rows x term_count) for the first `rows` rows of `values`. Sets valid[i] = 0 where a
   /// term is undefined or not finite (log of a non-positive value, ...) or a categorical value is
@@ -42,11 +46,13 @@ class TermPlan {
                    std::uint8_t* valid) const;
 
  private:
+  void reject_reference_indicators(const ModelSpec& spec) const;
   void fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column) const;
 
   std::vector<Term> terms_;
   std::optional<Term> offset_;
   std::vector<bool> used_;
+  std::vector<bool> in_terms_;         ///< used by at least one term (not only by the offset)
   std::vector<int> categorical_;       ///< indices of categorical covariates
   std::vector<int> used_categorical_;  ///< ... of those that enter a term or the offset
 };

@@ -34,8 +34,8 @@ std::string declared_list(const ModelSpec& spec) {
 class TermParser {
  public:
   TermParser(std::string text, const std::string& label, const ModelSpec& spec, const std::string& file,
-             long line)
-      : s_(std::move(text)), label_(label), spec_(spec), file_(file), line_(line) {}
+             long line, const char* role)
+      : s_(std::move(text)), label_(label), spec_(spec), file_(file), line_(line), role_(role) {}
 
   Term parse() {
     Term term;
@@ -58,7 +58,7 @@ class TermParser {
 
  private:
   [[noreturn]] void fail(const std::string& why) const {
-    throw InputError(located(file_, line_, "term \"" + label_ + "\": " + why));
+    throw InputError(located(file_, line_, std::string(role_) + " \"" + label_ + "\": " + why));
   }
 
   std::string name() {
@@ -131,15 +131,13 @@ class TermParser {
     if (!c.categorical)
       fail("\"" + covariate_name + "[...]\" selects a level, but \"" + covariate_name +
            "\" is continuous; declare it with type = \"categorical\" and its levels");
-    for (std::size_t i = 0; i < c.levels.size(); ++i) {
-      if (c.levels[i].name == level || std::to_string(c.levels[i].code) == level) {
-        f.level = static_cast<int>(i);
-        return f;
-      }
-    }
-    std::string known;
-    for (const Level& l : c.levels) known += (known.empty() ? "" : ", ") + l.name;
-    fail("\"" + level + "\" is not a level of \"" + covariate_name + "\"; its levels are " + known);
+    const LevelLookup found = c.find_level(level);
+    if (found.ambiguous()) fail(found.ambiguity(c, level));
+    if (!found.found())
+      fail("\"" + level + "\" is not a level of \"" + covariate_name + "\" (by name or by code); its levels are " +
+           c.level_list());
+    f.level = found.index;
+    return f;
   }
 
   TermFactor factor() {
@@ -226,16 +224,18 @@ class TermParser {
   const ModelSpec& spec_;
   const std::string& file_;
   long line_;
+  const char* role_;
   std::size_t pos_ = 0;
 };
 
 }  // namespace
 
-Term parse_term(const std::string& label, const ModelSpec& spec, const std::string& file, long line) {
+Term parse_term(const std::string& label, const ModelSpec& spec, const std::string& file, long line,
+                const char* role) {
   std::string compact;
   for (char ch : label)
     if (!std::isspace(static_cast<unsigned char>(ch))) compact += ch;
-  return TermParser(compact, label, spec, file, line).parse();
+  return TermParser(compact, label, spec, file, line, role).parse();
 }
 
 }  // namespace habcast

@@ -28,7 +28,9 @@ struct Term {
 
 /// Parses one term label. Throws InputError located at `file`:`line` that says what is wrong and
 /// how to write it (unknown covariate, unknown function or level, malformed power, ...).
-Term parse_term(const std::string& label, const ModelSpec& spec, const std::string& file, long line);
+/// `role` names the label in messages: "term", or "offset" for [coefficients] offset.
+Term parse_term(const std::string& label, const ModelSpec& spec, const std::string& file, long line,
+                const char* role = "term");
 
 const char* to_string(TermFunction function);
 

@@ -10,7 +10,6 @@ namespace habcast {
 
 namespace {
 
-bool contains(const std::vector<int>& v, int x) { return std::find(v.begin(), v.end(), x) != v.end(); }
 
 std::string continuous_names(const ModelSpec& spec) {
   std::string s;
@@ -30,12 +29,11 @@ int find_covariate(const ModelSpec& spec, const std::string& name, const std::st
 }
 
 int find_level(const Covariate& cov, const std::string& level) {
-  for (std::size_t l = 0; l < cov.levels.size(); ++l)
-    if (cov.levels[l].name == level || std::to_string(cov.levels[l].code) == level) return static_cast<int>(l);
-  std::string all;
-  for (const Level& l : cov.levels) all += (all.empty() ? "" : ", ") + l.name;
+  const LevelLookup found = cov.find_level(level);
+  if (found.ambiguous()) throw UsageError("--level " + cov.name + "=" + level + ": " + found.ambiguity(cov, level));
+  if (found.found()) return found.index;
   throw UsageError("--level " + cov.name + "=" + level + ": \"" + level + "\" is not a level of \"" + cov.name +
-                   "\"; its levels are " + all);
+                   "\" (by name or by code); its levels are " + cov.level_list());
 }
 
 /// Applies --at and --level to the default reference; returns the continuous covariates held.
@@ -82,11 +80,12 @@ std::pair<int, int> choose_pair(const ModelSpec& spec, const TermPlan& plan, con
   int idx[2] = {find_covariate(spec, a, "--pair"), find_covariate(spec, b, "--pair")};
   for (int c : idx) {
     const Covariate& cov = spec.covariates[static_cast<std::size_t>(c)];
-    if (cov.categorical || !plan.uses_covariate(c))
+    if (cov.categorical || !plan.uses_covariate(c) || plan.offset_only(c))
       throw UsageError("--pair " + a + "," + b + ": \"" + cov.name + "\" is " +
-                       (cov.categorical ? "categorical" : "not used by any term") +
+                       (cov.categorical ? "categorical"
+                                        : (plan.offset_only(c) ? "used only by the offset" : "not used by any term")) +
                        "; choose two continuous covariates of the model (" + continuous_names(spec) + ")");
-    if (contains(held, c))
+    if (holds_index(held, c))
       throw UsageError("--pair " + a + "," + b + ": \"" + cov.name + "\" is held fixed by --at; drop one of the two");
   }
   if (idx[0] == idx[1]) throw UsageError("--pair needs two different covariates, got " + a + "," + b);
@@ -135,8 +134,14 @@ NicheDescription describe_niche(const ModelSpec& spec, const TermPlan& plan, con
 
   for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
     const int ci = static_cast<int>(c);
-    if (spec.covariates[c].categorical || !plan.uses_covariate(ci) || contains(focus, ci) || contains(d.held, ci))
+    if (spec.covariates[c].categorical || !plan.uses_covariate(ci) || holds_index(focus, ci) || holds_index(d.held, ci))
       continue;
+    if (plan.offset_only(ci)) {
+      // Effort, area, exposure: not part of the niche. Held like any other covariate (at its
+      // training mean, or --at), it only shifts the surface through the offset.
+      d.reference.sources[c] += "; enters only the offset";
+      continue;
+    }
     if (enters_through_function(plan, ci)) {
       d.through_function.push_back(ci);
       continue;

@@ -9,9 +9,10 @@
 
 namespace habcast {
 
+bool holds_index(const std::vector<int>& v, int x) { return std::find(v.begin(), v.end(), x) != v.end(); }
+
 namespace {
 
-bool contains(const std::vector<int>& v, int x) { return std::find(v.begin(), v.end(), x) != v.end(); }
 
 std::string term_label(const ModelSpec& spec, std::size_t j) { return "term \"" + spec.terms[j] + "\""; }
 
@@ -110,13 +111,13 @@ std::vector<int> curved_covariates(const ModelSpec& spec, const TermPlan& plan, 
     int degree = 0;
     for (const TermFactor& f : term.factors) {
       const Covariate& c = spec.covariates[static_cast<std::size_t>(f.covariate)];
-      if (!c.categorical && f.function == TermFunction::none && !contains(held, f.covariate)) degree += f.power;
+      if (!c.categorical && f.function == TermFunction::none && !holds_index(held, f.covariate)) degree += f.power;
     }
     if (degree != 2) continue;
     for (const TermFactor& f : term.factors) {
       const Covariate& c = spec.covariates[static_cast<std::size_t>(f.covariate)];
-      if (!c.categorical && f.function == TermFunction::none && !contains(held, f.covariate) &&
-          !contains(curved, f.covariate))
+      if (!c.categorical && f.function == TermFunction::none && !holds_index(held, f.covariate) &&
+          !holds_index(curved, f.covariate))
         curved.push_back(f.covariate);
     }
   }
@@ -187,8 +188,8 @@ QuadraticForm extract_quadratic_form(const ModelSpec& spec, const TermPlan& plan
 
   if (const auto& offset = plan.offset_term()) {
     for (const TermFactor& f : offset->factors)
-      if (contains(focus, f.covariate))
-        throw InputError(located(spec.path, 0,
+      if (holds_index(focus, f.covariate))
+        throw InputError(located(spec.path, spec.offset_line,
                                  "the offset \"" + *spec.offset_term + "\" depends on \"" +
                                      spec.covariates[static_cast<std::size_t>(f.covariate)].name +
                                      "\"; describe needs an offset that does not involve the analysed covariates"));
@@ -196,7 +197,7 @@ QuadraticForm extract_quadratic_form(const ModelSpec& spec, const TermPlan& plan
     std::uint8_t ok = 1;
     plan.fill_offset(row, 1, off, &ok);
     if (!ok)
-      throw InputError(located(spec.path, 0, "the offset \"" + *spec.offset_term +
+      throw InputError(located(spec.path, spec.offset_line, "the offset \"" + *spec.offset_term +
                                                  "\" is undefined at the reference point; choose --at values"));
     form.offset = off[0];
   }

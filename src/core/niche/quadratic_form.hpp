@@ -14,6 +14,9 @@
 
 namespace habcast {
 
+/// Whether the list of covariate indices `v` holds `x`.
+bool holds_index(const std::vector<int>& v, int x);
+
 /// Where every covariate is held when it is not in the focus: the model value of a continuous
 /// covariate, the level index of a categorical one, and a short note of where the value came from.
 struct ReferencePoint {

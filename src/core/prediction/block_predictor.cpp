@@ -26,15 +26,12 @@ void PredictionTally::merge(const PredictionTally& other) {
   domain.merge(other.domain);
 }
 
-bool is_low_certainty(Family family, double lower, double upper) {
-  if (family == Family::binomial) return upper - lower > 0.5;
-  if (lower <= 0.0) return upper > 0.0;
-  return upper > 3.0 * lower;
-}
-
 BlockPredictor::BlockPredictor(const ModelSpec& spec, const TermPlan& plan, const Evaluator& evaluator,
-                               const TrainingDomain* domain, const NoveltyModel* novelty)
-    : spec_(spec), plan_(plan), evaluator_(evaluator), domain_(domain), novelty_(domain ? novelty : nullptr) {}
+                               const TrainingDomain* domain, const NoveltyModel* novelty,
+                               const LowCertaintyRule* certainty)
+    : spec_(spec), plan_(plan), evaluator_(evaluator), domain_(domain),
+      certainty_(certainty ? *certainty : LowCertaintyRule::for_model(spec, nullptr)),
+      novelty_(domain ? novelty : nullptr) {}
 
 namespace {
 
@@ -120,7 +117,7 @@ void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutpu
       out.se[o] = to_output(prediction_.se_mu[i]);
       out.lower[o] = to_output_off_nodata(prediction_.lower[i], tally.moved_off_nodata);
       out.upper[o] = to_output_off_nodata(prediction_.upper[i], tally.moved_off_nodata);
-      if (is_low_certainty(spec_.family, prediction_.lower[i], prediction_.upper[i])) ++tally.low_certainty;
+      if (certainty_.applies(prediction_.lower[i], prediction_.upper[i])) ++tally.low_certainty;
     }
   }
 }

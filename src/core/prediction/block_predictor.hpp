@@ -12,6 +12,7 @@
 #include "core/model/model_spec.hpp"
 #include "core/model/model_values.hpp"
 #include "core/model/term_plan.hpp"
+#include "core/prediction/low_certainty.hpp"
 
 namespace habcast {
 
@@ -26,7 +27,7 @@ struct PredictionTally {
   std::int64_t not_representable = 0; ///< response beyond the Float32 range (written as nodata)
   std::int64_t moved_off_nodata = 0;   ///< predicted values equal to the nodata marker, moved one Float32 step
   std::int64_t predicted = 0;          ///< pixels with a suitability value
-  std::int64_t low_certainty = 0;      ///< predicted pixels whose interval is wide (see is_low_certainty)
+  std::int64_t low_certainty = 0;      ///< predicted pixels whose interval is wide (see LowCertaintyRule)
   double sum_response = 0.0;
   double min_response = 0.0;
   double max_response = 0.0;
@@ -36,11 +37,6 @@ struct PredictionTally {
   void merge(const PredictionTally& other);
 };
 
-/// Whether a prediction is too uncertain to read as a value: for probabilities a confidence
-/// interval wider than 0.5 (it spans most of the scale); for counts and means an interval whose
-/// upper limit exceeds three times the lower one, or one that includes zero (common practice, no
-/// source: thresholds chosen for a plain warning, documented in docs/report.md).
-bool is_low_certainty(Family family, double lower, double upper);
 
 /// Output arrays of one block, row-major over the block's pixels.
 struct BlockOutputs {
@@ -56,8 +52,10 @@ class BlockPredictor {
  public:
   /// `domain` may be null (no training samples): then no flags are produced. `novelty` may be
   /// null (no training samples, or no joint checks asked for).
+  /// `certainty` (may be null: the family's rule without training samples) decides which
+  /// predictions count as low certainty.
   BlockPredictor(const ModelSpec& spec, const TermPlan& plan, const Evaluator& evaluator, const TrainingDomain* domain,
-                 const NoveltyModel* novelty = nullptr);
+                 const NoveltyModel* novelty = nullptr, const LowCertaintyRule* certainty = nullptr);
 
   /// `raw`: rows x covariates raw values (column per covariate), `valid`: 1 where every covariate
   /// has data. Resizes and fills `out`; adds counts to `tally`.
@@ -74,6 +72,7 @@ class BlockPredictor {
   const TermPlan& plan_;
   const Evaluator& evaluator_;
   const TrainingDomain* domain_;
+  LowCertaintyRule certainty_;
   const NoveltyModel* novelty_;
   const Eigen::ArrayXXd* raw_ = nullptr;
   std::vector<std::uint8_t> predict_valid_;

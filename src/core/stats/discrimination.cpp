@@ -6,6 +6,7 @@
 #include <numeric>
 
 #include "core/base/error.hpp"
+#include "core/base/number_text.hpp"
 #include "core/numeric/normal_distribution.hpp"
 
 namespace habcast {
@@ -68,8 +69,8 @@ Discrimination discriminate(const std::vector<double>& scores, const std::vector
   Discrimination d;
   for (std::uint8_t o : observed) (o ? d.presences : d.absences)++;
   if (d.presences == 0 || d.absences == 0)
-    throw InputError("the points hold " + std::to_string(d.presences) + " presences and " + std::to_string(d.absences) +
-                     " absences; discrimination needs both (for presence-only data use --presence-only, which samples "
+    throw InputError("the points hold " + count_of(d.presences, "presence") + " and " + count_of(d.absences, "absence") +
+                     "; discrimination needs both (for presence-only data use --presence-only, which samples "
                      "background points from the grid)");
   d.auc = auc_mann_whitney(scores, observed);
   d.auc_se = auc_standard_error_hanley_mcneil(d.auc, d.presences, d.absences);

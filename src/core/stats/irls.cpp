@@ -214,7 +214,7 @@ void check_aliasing(const GlmProblem& p, const Eigen::VectorXd& w, double tolera
   }
   throw InputError("the model cannot be fitted: its terms are aliased (the design matrix has rank " +
                    std::to_string(p.X.cols() - static_cast<Eigen::Index>(aliased.size())) + " < " +
-                   std::to_string(p.X.cols()) + " terms): " + why + ". Remove the aliased term(s) from the formula");
+                   std::to_string(p.X.cols()) + " terms): " + why + std::string(aliased.size() == 1 ? ". Remove the aliased term from the formula" : ". Remove the aliased terms from the formula"));
 }
 
 /// Terms still moving after the deviance has converged. At a finite maximum one more IRLS step
