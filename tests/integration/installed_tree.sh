@@ -12,6 +12,8 @@
 # Exit 77 (ctest: skipped) in deb mode when BUILD_DIR has no package newer than its habcast
 # binary; build it with scripts/package.sh BUILD_DIR (scripts/test.sh does).
 set -euo pipefail
+# No `producer | grep -q` under pipefail (an early grep exit kills the producer with SIGPIPE and
+# the pipeline fails at random): text goes to files or variables first.
 mode=$1
 build=$(cd "$2" && pwd)
 source_dir=$(cd "$3" && pwd)
@@ -71,8 +73,9 @@ while read -r command; do
 done < <(awk '/^Subcommands:/ {on = 1; next} on && /^  [a-z]/ {print $1}' <<<"$help")
 
 # Nothing of the build or source tree in the binary: it could only be looked for at run time.
+strings "$binary_text" >"$scratch/strings.txt"
 for path in "$source_dir" "$build"; do
-  ! strings "$binary_text" | grep -qF "$path" || fail "bin/habcast contains the path $path"
+  ! grep -qF "$path" "$scratch/strings.txt" || fail "bin/habcast contains the path $path"
 done
 
 if [[ $mode == deb ]]; then
@@ -82,11 +85,11 @@ if [[ $mode == deb ]]; then
   while read -r soname; do
     lib=$(ldconfig -p | awk -v so="$soname" '$1 == so {print $NF; exit}')
     [[ -n $lib ]] || fail "the binary needs $soname, which this system does not have"
-    owner=$(dpkg -S "$(readlink -f "$lib")" 2>/dev/null | head -n1 | cut -d: -f1) ||
-      owner=$(dpkg -S "$lib" 2>/dev/null | head -n1 | cut -d: -f1)
+    # dpkg knows a library by the path its package installed (merged /usr: maybe not the real one).
+    owner=$( (dpkg -S "$lib" || dpkg -S "$(readlink -f "$lib")") 2>/dev/null | awk -F: 'NR == 1 {print $1}')
     [[ -n $owner ]] || fail "no Debian package owns $lib ($soname)"
-    tr ',|' '\n\n' <<<"$depends" | awk '{print $1}' | grep -qxF -- "$owner" ||
-      fail "Depends ($depends) lacks $owner, which provides $soname"
+    depends_names=$(tr ',|' '\n\n' <<<"$depends" | awk '{print $1}')
+    grep -qxF -- "$owner" <<<"$depends_names" || fail "Depends ($depends) lacks $owner, which provides $soname"
   done < <(objdump -p "$bin" | awk '$1 == "NEEDED" {print $2}')
   # ... and apt can satisfy them on this system (a simulation: nothing is installed).
   if command -v apt-get >/dev/null; then

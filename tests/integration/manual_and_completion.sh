@@ -5,6 +5,8 @@
 # and a completion that completes commands, options and option choices.
 # Usage: manual_and_completion.sh HABCAST GENERATED_DIR. Exit 77 (skipped) without man(1).
 set -euo pipefail
+# Note: no `producer | grep -q` under pipefail (grep quits early, the producer dies of SIGPIPE
+# and the pipeline fails at random); text goes into variables first.
 habcast=$1
 gen=$2
 fail() { echo "FAIL: $*" >&2; exit 1; }
@@ -38,15 +40,17 @@ for c in "${commands[@]}"; do
   first_footer_line=$(awk 'seen && NF {print; exit} /^Options:/ {o = 1} o && /^$/ {seen = 1}' <<<"$help")
   if [[ -n $first_footer_line ]]; then
     key=$(sed 's/^ *//; s/ *$//' <<<"$first_footer_line" | cut -c1-40)
-    zcat "$gen/man1/habcast-$c.1.gz" | sed 's/\\-/-/g; s/\\e/\\/g' | grep -qF -- "$key" ||
-      fail "habcast-$c.1 lacks the help's text '$key'"
+    page_text=$(zcat "$gen/man1/habcast-$c.1.gz" | sed 's/\\-/-/g; s/\\e/\\/g')
+    grep -qF -- "$key" <<<"$page_text" || fail "habcast-$c.1 lacks the help's text '$key'"
   fi
 done
 # No page for a command that --help does not list (a removed command's page must not linger).
 for page in "$gen"/man1/*.1.gz; do
   name=$(basename "$page" .1.gz)
   [[ $name == habcast ]] && continue
-  printf '%s\n' "${commands[@]}" | grep -qx -- "${name#habcast-}" || fail "stale page $name for no command"
+  known=0
+  for c in "${commands[@]}"; do [[ ${name#habcast-} == "$c" ]] && known=1; done
+  ((known)) || fail "stale page $name for no command"
 done
 
 # Completion: run the generated function on typed words, print what it offers.
