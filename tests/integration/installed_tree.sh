@@ -105,7 +105,9 @@ for lib in GDAL PROJ Eigen Qhull; do grep -q "^$lib [0-9]" <<<"$versions" || fai
 
 # predict on the installed sample data, run from elsewhere; the installed tree stays untouched.
 before=$(cd "$prefix" && find . -printf '%p %s %T@\n' | sort)
-(cd "$scratch" && "$bin" predict "$share/habcast/sample-rasters/demo-model.toml" -o out --threads 2 -q 2>predict.log) ||
+# As a user would run it: no GDAL_DATA or PROJ_DATA pointing anywhere (the test runner sets them).
+(cd "$scratch" && env -u GDAL_DATA -u PROJ_DATA -u PROJ_LIB \
+  "$bin" predict "$share/habcast/sample-rasters/demo-model.toml" -o out --threads 2 -q 2>predict.log) ||
   fail "predict on the installed sample data failed: $(cat "$scratch/predict.log")"
 for f in suitability.tif uncertainty.tif extrapolation.tif report.json; do
   [[ -s $scratch/out/$f ]] || fail "predict wrote no $f"
