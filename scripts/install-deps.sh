@@ -2,11 +2,14 @@
 # Installs the Debian 12 packages habcast needs to build and test.
 # Idempotent: packages already present are skipped, so re-running is cheap.
 # Usage: scripts/install-deps.sh [--with-reference-tools] [--with-cluster-tools] [--with-fuzz]
+#                                [--with-packaging-tools]
 #   --with-reference-tools also installs R, vegan, MASS and statsmodels, used by the reference
 #   checks and to regenerate reference numbers in tests/reference/.
 #   --with-cluster-tools also installs Slurm and munge, for the test that runs
 #   the example batch job array on a single-node cluster it starts itself.
 #   --with-fuzz also installs clang and its libFuzzer/sanitizer runtime (scripts/fuzz.sh).
+#   --with-packaging-tools also installs what scripts/package.sh needs: dpkg-shlibdeps (dpkg-dev),
+#   file (CPack's strip step), lintian, and man-db (the manual-page test).
 set -euo pipefail
 
 packages=(
@@ -22,6 +25,7 @@ for flag in "$@"; do
     --with-reference-tools) packages+=(r-base-core r-cran-vegan r-cran-mass python3-statsmodels) ;;
     --with-cluster-tools) packages+=(slurm-wlm munge) ;;
     --with-fuzz) packages+=(clang libclang-rt-14-dev) ;;
+    --with-packaging-tools) packages+=(dpkg-dev file lintian man-db) ;;
     *) echo "install-deps.sh: unknown option $flag" >&2; exit 2 ;;
   esac
 done

@@ -4,6 +4,8 @@
 # build-asan/ and runs it there: any sanitizer report fails the test that triggered it.
 # Installs missing Debian packages first, including R and statsmodels used by the reference checks
 # and Slurm and munge for the job-array integration test.
+# The Debian package is made from the same build (scripts/package.sh build-test) and checked by
+# lintian there and by the package test in ctest.
 # HABCAST_TEST_SANITIZE=0 skips the sanitizer build (quicker local runs).
 # Both builds are unity builds (CMake compiles the sources of a target in batches of 8 as one
 # file): Eigen, GDAL, nlohmann/json and Catch2 headers are then parsed a few times instead of
@@ -16,6 +18,7 @@ scripts/install-deps.sh --with-reference-tools --with-cluster-tools
 unity=(-DCMAKE_UNITY_BUILD=ON -DCMAKE_UNITY_BUILD_BATCH_SIZE=8)
 cmake -S . -B build-test -G Ninja -DCMAKE_BUILD_TYPE=RelWithDebInfo -DHABCAST_WERROR=ON "${unity[@]}" >/dev/null
 cmake --build build-test --parallel
+scripts/package.sh build-test  # the .deb of this very build, for the package test below (no rebuild)
 ctest --test-dir build-test --output-on-failure --parallel "$(nproc)"
 
 if [[ "${HABCAST_TEST_SANITIZE:-1}" != "0" ]]; then

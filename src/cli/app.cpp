@@ -6,6 +6,7 @@
 #include <ostream>
 
 #include "cli/commands.hpp"
+#include "cli/version_text.hpp"
 #include "core/base/error.hpp"
 
 namespace habcast::cli {
@@ -23,14 +24,19 @@ constexpr const char* kAbout =
 
 }  // namespace
 
-int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err) {
-  CLI::App app{kAbout, "habcast"};
-  app.set_version_flag("--version", std::string("habcast ") + HABCAST_VERSION);
+void build_app(CLI::App& app, CommandRegistry& registry) {
+  app.name("habcast");
+  app.description(kAbout);
+  app.set_version_flag("--version", "", "Print the versions of habcast, GDAL, PROJ, Eigen and Qhull and exit");
   app.require_subcommand(1);
   app.fallthrough(false);
-
-  CommandRegistry registry;
   register_commands(app, registry);
+}
+
+int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err) {
+  CLI::App app;
+  CommandRegistry registry;
+  build_app(app, registry);
 
   // CLI11 parses argv in reverse order of a vector.
   std::vector<std::string> reversed(args.rbegin(), args.rend());
@@ -43,7 +49,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
     out << app.help("", CLI::AppFormatMode::All);
     return 0;
   } catch (const CLI::CallForVersion&) {
-    out << "habcast " << HABCAST_VERSION << "\n";
+    out << version_text();
     return 0;
   } catch (const CLI::ParseError& e) {
     // Help requested on a subcommand arrives here too (as a CallForHelp raised from it).

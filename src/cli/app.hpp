@@ -4,7 +4,18 @@
 #include <string>
 #include <vector>
 
+namespace CLI {
+class App;
+}
+
 namespace habcast::cli {
+
+class CommandRegistry;
+
+/// Sets up habcast's whole command line on `app`: its name, the about text, --version and every
+/// command. run() parses with it; the manual pages and the bash completion are generated from it
+/// at build time (packaging/docgen), so they say exactly what --help says.
+void build_app(CLI::App& app, CommandRegistry& registry);
 
 /// Parses `args` (without the program name), runs the command and returns the process exit code
 /// (see docs/exit-codes.md). Normal output goes to `out`, messages and progress to `err`.

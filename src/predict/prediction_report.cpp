@@ -6,6 +6,7 @@
 
 #include "core/base/number_text.hpp"
 #include "core/domain/extrapolation_flags.hpp"
+#include "raster/library_versions.hpp"
 
 namespace habcast {
 
@@ -187,6 +188,7 @@ nlohmann::ordered_json prediction_report(const ReportContext& ctx, const std::ve
   const PredictionTally& t = *ctx.tally;
   json report;
   report["habcast_version"] = ctx.tool_version;
+  for (const LibraryVersion& lib : library_versions()) report["libraries"][lib.name] = lib.in_use;
   report["command"] = "predict";
   report["started_utc"] = ctx.started_utc;
   report["elapsed_seconds"] = ctx.elapsed_seconds;

@@ -105,4 +105,7 @@ HullFacets qhull_facets(const Eigen::MatrixXd& points) {
   return out;
 }
 
+// qh_version is a global of libqhull_r itself, so this names the library loaded at run time.
+std::string qhull_version() { return qh_version; }
+
 }  // namespace habcast

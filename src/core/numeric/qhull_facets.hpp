@@ -31,4 +31,8 @@ class HullBuildError : public std::runtime_error {
 /// convex face of the hull. Throws HullBuildError when the points span fewer than dim dimensions.
 HullFacets qhull_facets(const Eigen::MatrixXd& points);
 
+/// The version string of the Qhull library linked at run time (its qh_version, e.g.
+/// "2020.2.r 2020/08/31"), for `habcast --version` and the reports.
+std::string qhull_version();
+
 }  // namespace habcast
