@@ -4,8 +4,8 @@
 #include <cmath>
 #include <stdexcept>
 
-#include "core/base/number_text.hpp"
 #include "render/text_metrics.hpp"
+#include "render/unit_text.hpp"
 
 namespace habcast {
 
@@ -27,7 +27,7 @@ std::vector<Tick> round_ticks(double lo, double hi, int count) {
   for (double n = std::ceil((lo - tolerance) * divisor / multiplier);; n += 1.0) {
     const double v = n * multiplier / divisor;
     if (v > hi + tolerance) break;
-    ticks.push_back({v == 0.0 ? 0.0 : v, significant(v == 0.0 ? 0.0 : v, 4)});
+    ticks.push_back({v == 0.0 ? 0.0 : v, typeset_number(v == 0.0 ? 0.0 : v, 4)});
   }
   return ticks;
 }

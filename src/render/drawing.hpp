@@ -27,3 +27,4 @@
 #include "render/legend.hpp"
 #include "render/scale_bar.hpp"
 #include "render/text_metrics.hpp"
+#include "render/unit_text.hpp"

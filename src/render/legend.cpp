@@ -110,7 +110,7 @@ double Legend::draw(Figure& figure, Point2 top_left, const std::string& role) co
             for (std::size_t i = 0; i < k.edges.size() && i + 1 < n; ++i) {
               const double at = y + kStep * static_cast<double>(n - 1 - i);
               figure.line({x + kBarWidth, at}, {x + kBarWidth + 2.5, at}, Stroke{kInk, 0.5}, role + "-key");
-              figure.text({x + kBarWidth + 4.0, at}, k.edges[i], edge, role + "-label");
+              figure.text({x + kBarWidth + 4.0, at}, k.edges[i], edge, role + "-value");
             }
           } else if constexpr (std::is_same_v<T, Ramp>) {
             IndexedImage bar;
@@ -125,7 +125,7 @@ double Legend::draw(Figure& figure, Point2 top_left, const std::string& role) co
             for (const auto& [position, text] : k.labels) {
               const double at = y + (1.0 - position) * k.height;
               figure.line({x + kBarWidth, at}, {x + kBarWidth + 2.5, at}, Stroke{kInk, 0.5}, role + "-key");
-              figure.text({x + kBarWidth + 4.0, at}, text, edge, role + "-label");
+              figure.text({x + kBarWidth + 4.0, at}, text, edge, role + "-value");
             }
           }
           if constexpr (std::is_same_v<T, LineKey> || std::is_same_v<T, MarkerKey> || std::is_same_v<T, SwatchKey>)

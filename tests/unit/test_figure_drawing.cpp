@@ -93,7 +93,7 @@ TEST_CASE("Round ticks include both ends when they are round", "[figure]") {
   std::vector<double> values;
   for (const Tick& t : round_ticks(0, 1, 5)) values.push_back(t.value);
   CHECK(values == std::vector<double>{0, 0.2, 0.4, 0.6, 0.8, 1});
-  CHECK(round_ticks(-5, 15, 4).front().label == "-5");
+  CHECK(round_ticks(-5, 15, 4).front().label == "−5");  // a true minus sign, U+2212
   CHECK(round_ticks(-5, 15, 4).back().label == "15");
   CHECK(round_ticks(0.13, 0.87, 4).front().label == "0.2");
 }
