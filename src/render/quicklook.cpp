@@ -78,6 +78,26 @@ struct MapLayers {
   bool any_flagged = false;
 };
 
+/// Each value of a w x h raster repeated into a k x k square.
+std::vector<std::uint8_t> repeated(const std::vector<std::uint8_t>& v, int w, int h, int k) {
+  if (k == 1) return v;
+  std::vector<std::uint8_t> out(v.size() * static_cast<std::size_t>(k) * static_cast<std::size_t>(k));
+  const std::size_t W = static_cast<std::size_t>(w) * static_cast<std::size_t>(k);
+  for (std::size_t y = 0; y < static_cast<std::size_t>(h) * static_cast<std::size_t>(k); ++y)
+    for (std::size_t x = 0; x < W; ++x)
+      out[y * W + x] = v[(y / static_cast<std::size_t>(k)) * static_cast<std::size_t>(w) + x / static_cast<std::size_t>(k)];
+  return out;
+}
+
+void repeat_cells(MapLayers& m, int k) {
+  const int w = m.image.width, h = m.image.height;
+  m.image.index = repeated(m.image.index, w, h, k);
+  m.dark_hatch.on = repeated(m.dark_hatch.on, w, h, k);
+  m.light_hatch.on = repeated(m.light_hatch.on, w, h, k);
+  m.image.width = m.dark_hatch.width = m.light_hatch.width = w * k;
+  m.image.height = m.dark_hatch.height = m.light_hatch.height = h * k;
+}
+
 MapLayers map_layers(const Field& f, int w, int h) {
   MapLayers m;
   m.image.width = w;
@@ -157,6 +177,7 @@ QuicklookLayout quicklook_layout(int raster_width, int raster_height) {
   const double per_point = kPngDpi / 72.0;
   l.pixels_x = std::clamp(static_cast<int>(std::lround(l.map.width * per_point)), 1, raster_width);
   l.pixels_y = std::clamp(static_cast<int>(std::lround(l.map.height * per_point)), 1, raster_height);
+  l.repeat = std::max(1, std::min(static_cast<int>(l.map.width * per_point) / l.pixels_x, static_cast<int>(l.map.height * per_point) / l.pixels_y));
   l.width = kA4FigureWidth;
   return l;
 }
@@ -185,6 +206,7 @@ Figure quicklook_figure(const std::string& suitability_path, const std::string& 
   value_range(field);
   MapLayers layers = map_layers(field, layout.pixels_x, layout.pixels_y);
   field.values = {};  // the float buffer is no longer needed
+  repeat_cells(layers, layout.repeat);
   const RasterGrid grid = read_grid(suitability_path);
 
   const double legend_x = layout.map.right() + kLegendGap;

@@ -91,6 +91,7 @@ TEST_CASE("The quicklook reads a big raster at the picture's size, so memory doe
   const QuicklookLayout big = quicklook_layout(10000, 10000);
   CHECK(big.pixels_x == 1375);
   CHECK(big.pixels_y == 1375);
+  CHECK(big.repeat == 1);
   CHECK(quicklook_layout(40000, 40000).pixels_x == 1375);
   // A long thin raster fits the 360 pt height.
   const QuicklookLayout tall = quicklook_layout(1000, 4000);
