@@ -12,6 +12,7 @@
 
 #include <chrono>
 #include <cmath>
+#include <ctime>
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
@@ -74,12 +75,10 @@ void make_rasters(const std::string& suitability, const std::string& flags, int 
 }  // namespace
 
 int main(int argc, char** argv) {
-  if (argc < 2) {
-    std::fprintf(stderr, "usage: habcast_quicklook_cost FOLDER [SIZE]\n");
-    return 2;
-  }
-  const fs::path folder = argv[1];
-  const int size = argc > 2 ? std::stoi(argv[2]) : 10000;
+  const std::vector<std::string> args(argv + 1, argv + argc);
+  if (args.empty()) return std::fputs("usage: habcast_quicklook_cost FOLDER [SIZE=10000]\n", stderr), 2;
+  const fs::path folder = args[0];
+  const int size = args.size() > 1 ? std::stoi(args[1]) : 10000;
   fs::create_directories(folder);
   habcast::ensure_gdal();
   for (const bool overviews : {false, true}) {
@@ -89,11 +88,13 @@ int main(int argc, char** argv) {
     if (!fs::exists(suitability) || !fs::exists(flags)) make_rasters(suitability, flags, size, overviews);
     for (const char* ext : {".png", ".pdf"}) {
       const auto start = std::chrono::steady_clock::now();
+      const std::clock_t cpu_start = std::clock();
       const habcast::Figure fig = habcast::quicklook_figure(suitability, flags, "Quicklook cost " + tag);
       const std::string path = (folder / ("quicklook-" + tag + ext)).string();
       std::ofstream(path, std::ios::binary) << habcast::encode_figure(fig, path);
       const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-      std::printf("%-28s %-4s %6.2f s\n", tag.c_str(), ext + 1, seconds);
+      const double cpu = static_cast<double>(std::clock() - cpu_start) / CLOCKS_PER_SEC;
+      std::printf("%-20s %-4s wall %6.2f s  cpu %6.2f s\n", tag.c_str(), ext + 1, seconds, cpu);
     }
   }
   return 0;

@@ -29,8 +29,14 @@ void panel_title(Figure& fig, double x, const std::string& text) {
   fig.text({x, kTop - 8.0}, text, t, "panel-title");
 }
 
-/// A legend of its own under each panel, below the axis title.
-void panel_legend(Figure& fig, const Legend& legend, double x) { legend.draw(fig, {x, kTop + kPanel + 40.0}); }
+/// A panel's ticks, axis titles and frame, and its own legend below it.
+void finish_panel(Figure& fig, Axes& ax, const std::vector<Tick>& xt, const std::vector<Tick>& yt, const std::string& x_title,
+                  const std::string& y_title, const Legend& legend) {
+  ax.x_axis(xt, x_title);
+  ax.y_axis(yt, y_title);
+  ax.frame();
+  legend.draw(fig, {ax.area().x, kTop + kPanel + 40.0});
+}
 
 void roc_panel(Figure& fig, const Discrimination& d) {
   panel_title(fig, kLeft, "ROC curve, AUC " + fixed(d.auc, 3) + " (95 % CI " + fixed(d.auc_lower, 2) + "–" + fixed(d.auc_upper, 2) + ")");
@@ -43,14 +49,11 @@ void roc_panel(Figure& fig, const Discrimination& d) {
   ax.line(roc, curve(), "roc");
   const Marker best{MarkerShape::diamond, 6.0, Fill{fs::kWhite}, Stroke{kInk, 1.1}};
   ax.points({{1.0 - d.best.specificity(), d.best.sensitivity()}}, best, "best-threshold");
-  ax.x_axis(ticks, "false positive rate (1 − specificity)");
-  ax.y_axis(ticks, "true positive rate (sensitivity)");
-  ax.frame();
   Legend legend(kPanel + 20.0);
   legend.line("model", curve());
   legend.line("no skill (AUC 0.5)", kNoSkill);
   legend.marker("largest TSS, " + fixed(d.best.tss(), 3) + ", at threshold " + typeset_number(d.best.threshold, 3), best);
-  panel_legend(fig, legend, kLeft);
+  finish_panel(fig, ax, ticks, ticks, "false positive rate (1 − specificity)", "true positive rate (sensitivity)", legend);
 }
 
 void calibration_panel(Figure& fig, const std::vector<CalibrationBin>& bins) {
@@ -68,13 +71,10 @@ void calibration_panel(Figure& fig, const std::vector<CalibrationBin>& bins) {
     const double size = 3.0 + 9.0 * std::sqrt(static_cast<double>(b.count) / static_cast<double>(largest));
     ax.points({{b.mean_predicted, b.observed_rate}}, Marker{MarkerShape::circle, size, dot_fill(), Stroke{fs::kWhite, 0.5}}, "calibration-bin");
   }
-  ax.x_axis(ticks, "mean predicted probability");
-  ax.y_axis(ticks, "observed share of presences");
-  ax.frame();
   Legend legend(kPanel + 20.0);
   legend.marker("bin (larger dot: more points; largest " + std::to_string(largest) + ")", Marker{MarkerShape::circle, 7.0, dot_fill()});
   legend.line("perfect calibration", kNoSkill);
-  panel_legend(fig, legend, x);
+  finish_panel(fig, ax, ticks, ticks, "mean predicted probability", "observed share of presences", legend);
 }
 
 void boyce_panel(Figure& fig, const BoyceResult& boyce) {
@@ -94,13 +94,10 @@ void boyce_panel(Figure& fig, const BoyceResult& boyce) {
   std::vector<Point2> curve_points;
   for (const BoyceWindow& w : boyce.windows) curve_points.push_back({(w.lower + w.upper) / 2.0, w.ratio});
   ax.line(curve_points, curve(), "boyce");
-  ax.x_axis(xt, "suitability (window centre)");
-  ax.y_axis(yt, "predicted / expected");
-  ax.frame();
   Legend legend(kPanel + 20.0);
   legend.line("presences over background, per window", curve());
   legend.line("as many as by chance (ratio 1)", kNoSkill);
-  panel_legend(fig, legend, x);
+  finish_panel(fig, ax, xt, yt, "suitability (window centre)", "predicted / expected", legend);
 }
 
 }  // namespace

@@ -25,14 +25,42 @@ constexpr double kTop = kMargin + fs::kTitleSize + 14.0;
 const Rgb kNoData{228, 228, 228};
 constexpr int kRampSteps = 255;  // palette 0..254: the ramp; 255: no data
 
-/// One band read at the picture's size: GDAL picks the source cells (nearest neighbour, from an
-/// overview when the file has one), so only pixels_x x pixels_y values are ever held.
+/// The band to read for a picture of w x h: the smallest overview still at least that size, or
+/// the band itself. Choosing it here (rather than leaving it to GDAL) lets the reads below go row
+/// by row and still use overviews.
+GDALRasterBand& source_band(GDALRasterBand& band, int w, int h) {
+  GDALRasterBand* best = &band;
+  for (int i = 0; i < band.GetOverviewCount(); ++i) {
+    GDALRasterBand* o = band.GetOverview(i);
+    if (o && o->GetXSize() >= w && o->GetYSize() >= h && o->GetXSize() < best->GetXSize()) best = o;
+  }
+  return *best;
+}
+
+/// One band read at the picture's size, nearest cell: for each picture row, the source row under
+/// its centre, decimated across by RasterIO. Rows are taken in order, and the band's cached
+/// blocks are dropped whenever the reads leave a row of blocks, so GDAL holds one row of blocks
+/// at a time: memory follows the picture's width, not the raster's size, and each block is
+/// decoded once.
 template <typename T>
 std::vector<T> read_decimated(GDALDataset& ds, const std::string& path, int w, int h, GDALDataType type) {
-  GDALRasterBand& band = input_band(ds, path, 1);
+  GDALRasterBand& band = source_band(input_band(ds, path, 1), w, h);
+  const int W = band.GetXSize(), H = band.GetYSize();
+  int block_w = 0, block_h = 0;
+  band.GetBlockSize(&block_w, &block_h);
   std::vector<T> values(static_cast<std::size_t>(w) * static_cast<std::size_t>(h));
-  if (band.RasterIO(GF_Read, 0, 0, ds.GetRasterXSize(), ds.GetRasterYSize(), values.data(), w, h, type, 0, 0, nullptr) != CE_None)
-    throw InputError(path + ": cannot read the raster for the quicklook (" + gdal_reason() + ")");
+  int cached_block_row = -1;
+  for (int j = 0; j < h; ++j) {
+    const int row = std::min(H - 1, static_cast<int>((j + 0.5) * H / h));
+    if (row / std::max(block_h, 1) != cached_block_row) {
+      band.FlushCache();
+      cached_block_row = row / std::max(block_h, 1);
+    }
+    if (band.RasterIO(GF_Read, 0, row, W, 1, values.data() + static_cast<std::size_t>(j) * static_cast<std::size_t>(w), w, 1, type, 0, 0,
+                      nullptr) != CE_None)
+      throw InputError(path + ": cannot read the raster for the quicklook (" + gdal_reason() + ")");
+  }
+  band.FlushCache();
   return values;
 }
 
@@ -185,7 +213,8 @@ QuicklookLayout quicklook_layout(int raster_width, int raster_height) {
 Figure quicklook_figure(const std::string& suitability_path, const std::string& extrapolation_path, const std::string& title,
                         const std::string& caption) {
   ensure_gdal();
-  DatasetPtr suitability = open_input_raster(suitability_path);
+  // predict's outputs are GeoTIFFs, whose driver decodes the blocks of one read on all cores.
+  DatasetPtr suitability = open_input_raster(suitability_path, {"NUM_THREADS=ALL_CPUS"});
   const int W = suitability->GetRasterXSize(), H = suitability->GetRasterYSize();
   const QuicklookLayout layout = quicklook_layout(W, H);
 
@@ -198,7 +227,7 @@ Figure quicklook_figure(const std::string& suitability_path, const std::string& 
   field.nodata = static_cast<float>(nd);
   field.units = band.GetUnitType();
   if (!extrapolation_path.empty()) {
-    DatasetPtr flags = open_input_raster(extrapolation_path);
+    DatasetPtr flags = open_input_raster(extrapolation_path, {"NUM_THREADS=ALL_CPUS"});
     if (flags->GetRasterXSize() != W || flags->GetRasterYSize() != H)
       throw InputError(extrapolation_path + ": not the size of " + suitability_path + "; the quicklook needs both from one run");
     field.flags = read_decimated<std::uint8_t>(*flags, extrapolation_path, layout.pixels_x, layout.pixels_y, GDT_Byte);
