@@ -25,7 +25,7 @@ fi
 # The same pictures as PDF, for a report: the niche plot from the model, and the quicklook from a
 # second, quiet run (--quicklook draws one file per run; the demo takes a moment).
 mkdir -p "$pictures"
-build/habcast describe sample-rasters/demo-model.toml --plot "$pictures/niche.pdf" --plot-png "$pictures/niche.png" >/dev/null 2>&1
+build/habcast describe sample-rasters/demo-model.toml --plot "$pictures/niche.pdf" --plot-png "$pictures/niche.png" >/dev/null
 build/habcast predict sample-rasters/demo-model.toml -o "$pictures/run" --overwrite -q --quicklook "$pictures/quicklook.pdf"
 cp "$out/quicklook.png" "$pictures/quicklook.png"
 

@@ -5,6 +5,7 @@
 #include <cairo-pdf.h>
 #include <cairo-svg.h>
 #include <cairo.h>
+#include <zlib.h>
 
 #include <algorithm>
 #include <cctype>
@@ -285,6 +286,25 @@ std::string vector_file(const Figure& figure, FigureFormat format) {
   return bytes;
 }
 
+/// `png` with international text chunks (iTXt, UTF-8; PNG specification, ISO/IEC 15948, 11.3.4.5)
+/// inserted after the IHDR chunk, so the file says what it shows and what drew it. Cairo's PNG
+/// writer has no place for text.
+std::string with_text_chunks(const std::string& png, const std::vector<std::pair<std::string, std::string>>& entries) {
+  constexpr std::size_t kAfterHeader = 8 + 4 + 4 + 13 + 4;  // signature, then IHDR: length, type, 13 bytes, CRC
+  std::string chunks;
+  auto be32 = [](std::uint32_t v) {
+    return std::string{static_cast<char>(v >> 24), static_cast<char>(v >> 16), static_cast<char>(v >> 8), static_cast<char>(v)};
+  };
+  for (const auto& [key, text] : entries) {
+    if (text.empty()) continue;
+    // keyword, NUL, compression flag 0, method 0, empty language tag, NUL, empty translated keyword, NUL, text
+    const std::string body = "iTXt" + key + std::string(3, '\0') + std::string(2, '\0') + text;
+    const auto crc = crc32(0L, reinterpret_cast<const Bytef*>(body.data()), static_cast<uInt>(body.size()));
+    chunks += be32(static_cast<std::uint32_t>(body.size() - 4)) + body + be32(static_cast<std::uint32_t>(crc));
+  }
+  return png.substr(0, kAfterHeader) + chunks + png.substr(kAfterHeader);
+}
+
 std::string png_file(const Figure& figure, double dpi) {
   const int w = png_pixels(figure.width(), dpi), h = png_pixels(figure.height(), dpi);
   SurfacePtr surface = checked_image(CAIRO_FORMAT_RGB24, w, h);
@@ -297,7 +317,7 @@ std::string png_file(const Figure& figure, double dpi) {
   std::string bytes;
   const cairo_status_t status = cairo_surface_write_to_png_stream(surface.get(), append, &bytes);
   if (status != CAIRO_STATUS_SUCCESS) throw IoError(std::string("encoding the PNG failed: ") + cairo_status_to_string(status));
-  return bytes;
+  return with_text_chunks(bytes, {{"Title", figure.title}, {"Description", figure.subject}, {"Software", "habcast"}});
 }
 
 }  // namespace

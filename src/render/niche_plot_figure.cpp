@@ -21,7 +21,7 @@ constexpr double kLegendGap = 26.0; // between the plot and the legend column
 constexpr double kMargin = 8.0;     // page edge
 constexpr double kPixelsPerPoint = 2.0;  // resolution of the band image (144 per inch; edges are smooth)
 
-const Stroke kUnderlay{fs::kWhite, 2.6, {}, 0.8};
+const Stroke kUnderlay{fs::kWhite, 2.6, {}, 0.7};
 
 std::vector<double> band_edges(const NichePlot& plot) {
   std::vector<double> edges;
@@ -81,7 +81,7 @@ Marker optimum_marker() { return {MarkerShape::circle, 6.5, Fill{fs::kWhite}, St
 /// A line drawn over a white underlay, so it stays visible on the darkest band.
 void underlaid(Axes& ax, const std::vector<Point2>& pts, const Stroke& stroke, const std::string& role) {
   Stroke under = kUnderlay;
-  under.width = stroke.width + 1.2;
+  under.width = stroke.width + 0.9;
   ax.line(pts, under, role + "-underlay");
   ax.line(pts, stroke, role);
 }

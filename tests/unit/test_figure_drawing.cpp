@@ -60,6 +60,12 @@ TEST_CASE("One figure is written as a valid SVG, PNG and PDF", "[figure]") {
   CHECK_FALSE(test::parses_as_svg(svg.substr(0, svg.size() / 2)));
   CHECK_FALSE(test::looks_like_pdf(pdf.substr(0, pdf.size() - 20)));
   CHECK_FALSE(test::has_png_signature(pdf));
+  // The PNG names what it shows and what drew it. libpng (through GDAL's PNG driver, which reports
+  // text chunks as metadata) drops a text chunk whose CRC is wrong, so this checks the CRCs too.
+  const test::DecodedPng decoded = test::decode_png(png);
+  CHECK(decoded.width == 2008);
+  CHECK(decoded.metadata_title == "Drawing check");
+  CHECK(decoded.metadata_software == "habcast");
 }
 
 TEST_CASE("PNG pixels have the colours the figure drew, hatching included", "[figure]") {
