@@ -12,7 +12,7 @@ namespace {
 
 namespace fs = figure_style;
 
-constexpr double kMargin = 8.0, kPanel = 168.0, kLeft = 50.0, kGap = 76.0, kTop = 68.0;
+constexpr double kEvalMargin = 8.0, kPanel = 168.0, kPanelLeft = 50.0, kPanelGap = 76.0, kPanelTop = 68.0;
 
 const Stroke kNoSkill{fs::kGrey, 0.8, {3.0, 2.0}};
 Stroke curve() { return {ramp_colour(0.15), 1.4}; }
@@ -26,7 +26,7 @@ std::string fixed(double v, int decimals) {
 
 void panel_title(Figure& fig, double x, const std::string& text) {
   TextStyle t{fs::kAxisTitleSize, true};
-  fig.text({x, kTop - 8.0}, text, t, "panel-title");
+  fig.text({x, kPanelTop - 8.0}, text, t, "panel-title");
 }
 
 /// A panel's ticks, axis titles and frame, and its own legend below it.
@@ -35,12 +35,12 @@ void finish_panel(Figure& fig, Axes& ax, const std::vector<Tick>& xt, const std:
   ax.x_axis(xt, x_title);
   ax.y_axis(yt, y_title);
   ax.frame();
-  legend.draw(fig, {ax.area().x, kTop + kPanel + 40.0});
+  legend.draw(fig, {ax.area().x, kPanelTop + kPanel + 40.0});
 }
 
 void roc_panel(Figure& fig, const Discrimination& d) {
-  panel_title(fig, kLeft, "ROC curve, AUC " + fixed(d.auc, 3) + " (95 % CI " + fixed(d.auc_lower, 2) + "–" + fixed(d.auc_upper, 2) + ")");
-  Axes ax(fig, Rect{kLeft, kTop, kPanel, kPanel}, 0, 1, 0, 1);
+  panel_title(fig, kPanelLeft, "ROC curve, AUC " + fixed(d.auc, 3) + " (95 % CI " + fixed(d.auc_lower, 2) + "–" + fixed(d.auc_upper, 2) + ")");
+  Axes ax(fig, Rect{kPanelLeft, kPanelTop, kPanel, kPanel}, 0, 1, 0, 1);
   const std::vector<Tick> ticks = round_ticks(0, 1, 5);
   ax.grid(ticks, ticks);
   ax.line({{0, 0}, {1, 1}}, kNoSkill, "no-skill");
@@ -57,9 +57,9 @@ void roc_panel(Figure& fig, const Discrimination& d) {
 }
 
 void calibration_panel(Figure& fig, const std::vector<CalibrationBin>& bins) {
-  const double x = kLeft + kPanel + kGap;
+  const double x = kPanelLeft + kPanel + kPanelGap;
   panel_title(fig, x, "Calibration");
-  Axes ax(fig, Rect{x, kTop, kPanel, kPanel}, 0, 1, 0, 1);
+  Axes ax(fig, Rect{x, kPanelTop, kPanel, kPanel}, 0, 1, 0, 1);
   const std::vector<Tick> ticks = round_ticks(0, 1, 5);
   ax.grid(ticks, ticks);
   ax.line({{0, 0}, {1, 1}}, kNoSkill, "perfect-calibration");
@@ -78,7 +78,7 @@ void calibration_panel(Figure& fig, const std::vector<CalibrationBin>& bins) {
 }
 
 void boyce_panel(Figure& fig, const BoyceResult& boyce) {
-  const double x = kLeft + kPanel + kGap;
+  const double x = kPanelLeft + kPanel + kPanelGap;
   panel_title(fig, x, "Boyce curve, index " + (std::isfinite(boyce.index) ? fixed(boyce.index, 3) : std::string("undefined")));
   const double lo = boyce.windows.empty() ? 0.0 : boyce.windows.front().lower;
   double hi = boyce.windows.empty() ? 1.0 : boyce.windows.back().upper;
@@ -87,7 +87,7 @@ void boyce_panel(Figure& fig, const BoyceResult& boyce) {
   for (const BoyceWindow& w : boyce.windows) top = std::max(top, w.ratio);
   const std::vector<Tick> yt = round_ticks(0, top * 1.05, 5);
   const double ymax = std::max(top * 1.05, yt.empty() ? 1.0 : yt.back().value);
-  Axes ax(fig, Rect{x, kTop, kPanel, kPanel}, lo, hi, 0, ymax);
+  Axes ax(fig, Rect{x, kPanelTop, kPanel, kPanel}, lo, hi, 0, ymax);
   const std::vector<Tick> xt = round_ticks(lo, hi, 5);
   ax.grid(xt, yt);
   ax.line({{lo, 1.0}, {hi, 1.0}}, kNoSkill, "random-expectation");
@@ -104,13 +104,13 @@ void boyce_panel(Figure& fig, const BoyceResult& boyce) {
 
 Figure evaluation_figure(const Discrimination& d, const std::vector<CalibrationBin>* calibration, const BoyceResult* boyce,
                          const std::string& title) {
-  Figure fig(kA4FigureWidth, kTop + kPanel + 100.0);
+  Figure fig(kA4FigureWidth, kPanelTop + kPanel + 100.0);
   fig.title = title;
   fig.subject = "evaluation: ROC curve and " + std::string(calibration ? "calibration" : boyce ? "Boyce curve" : "no second panel");
-  std::vector<std::string> lines = wrap_text(title, fs::title(), fig.width() - 2 * kMargin);
+  std::vector<std::string> lines = wrap_text(title, fs::title(), fig.width() - 2 * kEvalMargin);
   if (lines.size() > 2) lines.resize(2);  // a long path in the title; the file's metadata keeps it whole
-  fig.text_lines({kMargin, kMargin + fs::kTitleSize}, lines, fs::title(), 1.2, "title");
-  fig.text({kMargin, kMargin + fs::kTitleSize + 2.6 * fs::kSubtitleSize + (lines.size() > 1 ? fs::kTitleSize * 1.2 : 0.0)},
+  fig.text_lines({kEvalMargin, kEvalMargin + fs::kTitleSize}, lines, fs::title(), 1.2, "title");
+  fig.text({kEvalMargin, kEvalMargin + fs::kTitleSize + 2.6 * fs::kSubtitleSize + (lines.size() > 1 ? fs::kTitleSize * 1.2 : 0.0)},
            std::to_string(d.presences) + " presences, " + std::to_string(d.absences) + (boyce ? " background points" : " absences"),
            fs::subtitle(), "subtitle");
   roc_panel(fig, d);

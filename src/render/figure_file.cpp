@@ -12,6 +12,7 @@
 #include <cmath>
 #include <filesystem>
 #include <memory>
+#include <numbers>
 
 #include "core/base/error.hpp"
 #include "render/pango_text.hpp"
@@ -20,7 +21,6 @@ namespace habcast {
 
 namespace {
 
-constexpr double kPi = 3.14159265358979323846;
 
 struct SurfaceFree {
   void operator()(cairo_surface_t* s) const { cairo_surface_destroy(s); }
@@ -48,7 +48,7 @@ void apply_stroke(cairo_t* cr, const Stroke& s) {
 /// Hatch lines across a box, placed on multiples of the spacing measured from the page origin, so
 /// that neighbouring hatched areas line up.
 void hatch_lines(cairo_t* cr, double x0, double y0, double x1, double y1, const Hatch& h) {
-  const double a = h.angle_degrees * kPi / 180.0;
+  const double a = h.angle_degrees * std::numbers::pi / 180.0;
   const Point2 along{std::cos(a), -std::sin(a)}, across{std::sin(a), std::cos(a)};
   double lo = INFINITY, hi = -INFINITY;
   for (Point2 corner : {Point2{x0, y0}, Point2{x1, y0}, Point2{x0, y1}, Point2{x1, y1}}) {
@@ -108,7 +108,7 @@ void marker_path(cairo_t* cr, Point2 c, const Marker& m) {
   const double r = m.size / 2.0;
   cairo_new_sub_path(cr);
   switch (m.shape) {
-    case MarkerShape::circle: cairo_arc(cr, c.x, c.y, r, 0.0, 2.0 * kPi); break;
+    case MarkerShape::circle: cairo_arc(cr, c.x, c.y, r, 0.0, 2.0 * std::numbers::pi); break;
     case MarkerShape::square: cairo_rectangle(cr, c.x - r, c.y - r, m.size, m.size); break;
     case MarkerShape::triangle:
       cairo_move_to(cr, c.x, c.y - 1.15 * r);
@@ -151,7 +151,7 @@ void paint(cairo_t* cr, const TextMark& m) {
   const Point2 offset = pango_text::anchor_offset(pango_text::layout_box(layout.get()), m.style);
   cairo_save(cr);
   cairo_translate(cr, m.at.x, m.at.y);
-  cairo_rotate(cr, -m.style.angle_degrees * kPi / 180.0);
+  cairo_rotate(cr, -m.style.angle_degrees * std::numbers::pi / 180.0);
   cairo_move_to(cr, offset.x, offset.y);
   if (m.style.halo > 0.0) {
     cairo_new_path(cr);

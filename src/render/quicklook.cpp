@@ -20,8 +20,8 @@ namespace {
 
 namespace fs = figure_style;
 
-constexpr double kMargin = 8.0, kMapBoxWidth = 330.0, kMapBoxHeight = 360.0, kLegendGap = 18.0;
-constexpr double kTop = kMargin + fs::kTitleSize + 14.0;
+constexpr double kPageMargin = 8.0, kMapBoxWidth = 330.0, kMapBoxHeight = 360.0, kMapLegendGap = 18.0;
+constexpr double kMapTop = kPageMargin + fs::kTitleSize + 14.0;
 const Rgb kNoData{228, 228, 228};
 constexpr int kRampSteps = 255;  // palette 0..254: the ramp; 255: no data
 
@@ -189,8 +189,8 @@ double draw_scale(Figure& fig, const RasterGrid& grid, const QuicklookLayout& l,
     sampling += "; no georeferencing, so no scale";
   }
   y += 4.0 + fs::kNoteSize;
-  for (const std::string& line : wrap_text(sampling, fs::note(), fig.width() - 2 * kMargin)) {
-    fig.text({kMargin, y}, line, fs::note(), "sampling-note");
+  for (const std::string& line : wrap_text(sampling, fs::note(), fig.width() - 2 * kPageMargin)) {
+    fig.text({kPageMargin, y}, line, fs::note(), "sampling-note");
     y += 1.3 * fs::kNoteSize;
   }
   return y;
@@ -201,7 +201,7 @@ double draw_scale(Figure& fig, const RasterGrid& grid, const QuicklookLayout& l,
 QuicklookLayout quicklook_layout(int raster_width, int raster_height) {
   QuicklookLayout l;
   const double scale = std::min(kMapBoxWidth / raster_width, kMapBoxHeight / raster_height);
-  l.map = {kMargin, kTop, raster_width * scale, raster_height * scale};
+  l.map = {kPageMargin, kMapTop, raster_width * scale, raster_height * scale};
   const double per_point = kPngDpi / 72.0;
   l.pixels_x = std::clamp(static_cast<int>(std::lround(l.map.width * per_point)), 1, raster_width);
   l.pixels_y = std::clamp(static_cast<int>(std::lround(l.map.height * per_point)), 1, raster_height);
@@ -238,28 +238,28 @@ Figure quicklook_figure(const std::string& suitability_path, const std::string& 
   repeat_cells(layers, layout.repeat);
   const RasterGrid grid = read_grid(suitability_path);
 
-  const double legend_x = layout.map.right() + kLegendGap;
-  const Legend legend = map_legend(field, layers.any_flagged, layout.width - legend_x - kMargin);
+  const double legend_x = layout.map.right() + kMapLegendGap;
+  const Legend legend = map_legend(field, layers.any_flagged, layout.width - legend_x - kPageMargin);
   // Lay out the foot (scale bar, sampling note, caption) on a scratch page to learn its height.
   Figure scratch(layout.width, 1.0);
-  const double body = kTop + std::max(layout.map.height, legend.height());
+  const double body = kMapTop + std::max(layout.map.height, legend.height());
   double bottom = draw_scale(scratch, grid, layout, body);
-  const std::vector<std::string> caption_lines = wrap_text(caption, fs::note(), layout.width - 2 * kMargin);
+  const std::vector<std::string> caption_lines = wrap_text(caption, fs::note(), layout.width - 2 * kPageMargin);
   bottom += 1.3 * fs::kNoteSize * static_cast<double>(caption_lines.size());
 
-  Figure fig(layout.width, bottom + kMargin);
+  Figure fig(layout.width, bottom + kPageMargin);
   fig.title = title;
   fig.subject = "suitability map quicklook";
-  fig.text({kMargin, kMargin + fs::kTitleSize}, title, fs::title(), "title");
+  fig.text({kPageMargin, kPageMargin + fs::kTitleSize}, title, fs::title(), "title");
   fig.image(layout.map, std::move(layers.image), "map");
   if (layers.any_flagged) {
     fig.hatch_mask(layout.map, std::move(layers.dark_hatch), map_hatch(kInk), "extrapolated");
     fig.hatch_mask(layout.map, std::move(layers.light_hatch), map_hatch(fs::kWhite), "extrapolated");
   }
   fig.rect(layout.map, std::nullopt, Stroke{kInk, 0.5}, "frame");
-  legend.draw(fig, {legend_x, kTop});
+  legend.draw(fig, {legend_x, kMapTop});
   const double y = draw_scale(fig, grid, layout, body);
-  fig.text_lines({kMargin, y}, caption_lines, fs::note(), 1.3, "caption");
+  fig.text_lines({kPageMargin, y}, caption_lines, fs::note(), 1.3, "caption");
   return fig;
 }
 
