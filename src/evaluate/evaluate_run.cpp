@@ -22,7 +22,8 @@
 #include "raster/point_sampler.hpp"
 #include "raster/point_source.hpp"
 #include "raster/point_transform.hpp"
-#include "render/evaluation_svg.hpp"
+#include "render/evaluation_figure.hpp"
+#include "render/figure_file.hpp"
 
 namespace habcast {
 
@@ -255,6 +256,7 @@ EvaluateSummary run_evaluate(const EvaluateOptions& o, const std::string& tool_v
   if (o.background < 10 && o.presence_only) throw UsageError("--background needs at least 10 points");
   if (!o.background_path.empty() && !o.presence_only)
     throw UsageError("--write-background needs --presence-only (background points are drawn only for presence-only data)");
+  if (!o.svg_path.empty()) figure_format(o.svg_path);  // .svg, .png or .pdf; refused before any work
   refuse_to_clobber({o.svg_path, o.binary_path, o.background_path}, o.overwrite);
   ensure_gdal();
 
@@ -408,8 +410,9 @@ EvaluateSummary run_evaluate(const EvaluateOptions& o, const std::string& tool_v
   }
 
   if (!o.svg_path.empty()) {
-    write_file_atomically(o.svg_path, evaluation_svg(d, calibration ? &*calibration : nullptr, boyce ? &*boyce : nullptr,
-                                                     "habcast evaluate: " + source->describe() + " with " + o.points.path));
+    const Figure figure = evaluation_figure(d, calibration ? &*calibration : nullptr, boyce ? &*boyce : nullptr,
+                                            "habcast evaluate: " + source->describe() + " with " + o.points.path);
+    write_file_atomically(o.svg_path, encode_figure(figure, o.svg_path));
     r["svg"] = o.svg_path;
     t << "\nWrote " << o.svg_path << "\n";
   }
