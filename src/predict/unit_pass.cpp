@@ -82,14 +82,46 @@ void cover_window(const UnitPlan& plan, const Window& w, BlockUnitCover& cover) 
   cover.sort();
 }
 
+nlohmann::ordered_json unit_sums_json(const UnitSums& s) {
+  nlohmann::ordered_json g = nlohmann::ordered_json::array();
+  for (Eigen::Index i = 0; i < s.sum_gradient.size(); ++i) g.push_back(s.sum_gradient[i]);
+  return {{"area_ha", s.area_ha},
+          {"data_area_ha", s.data_area_ha},
+          {"checked_area_ha", s.checked_area_ha},
+          {"sum_mu", s.sum_mu},
+          {"above_area_ha", s.above_area_ha},
+          {"flagged_area_ha", s.flagged_area_ha},
+          {"cause_area_ha", s.cause_area_ha},
+          {"sum_gradient", g}};
+}
+
+UnitSums unit_sums_from_json(const nlohmann::json& j, const std::string& where) {
+  try {
+    UnitSums s;
+    s.area_ha = j.at("area_ha").get<double>();
+    s.data_area_ha = j.at("data_area_ha").get<double>();
+    s.checked_area_ha = j.at("checked_area_ha").get<double>();
+    s.sum_mu = j.at("sum_mu").get<double>();
+    s.above_area_ha = j.at("above_area_ha").get<double>();
+    s.flagged_area_ha = j.at("flagged_area_ha").get<double>();
+    s.cause_area_ha = j.at("cause_area_ha").get<std::array<double, 5>>();
+    const auto g = j.at("sum_gradient").get<std::vector<double>>();
+    if (!g.empty()) s.sum_gradient = Eigen::Map<const Eigen::VectorXd>(g.data(), static_cast<Eigen::Index>(g.size()));
+    return s;
+  } catch (const nlohmann::json::exception& e) {
+    throw InputError(where + ": the unit sums are incomplete or malformed (" + e.what() + "); redo the tile");
+  }
+}
+
 UnitResults summarise_units(const UnitPlan& plan, const std::vector<UnitSums>& sums, const ModelSpec& spec, double z,
                             double level) {
   UnitResults r;
+  r.sums = sums;
   const Eigen::MatrixXd* V = spec.covariance ? &*spec.covariance : nullptr;
   std::size_t outside = 0, empty = 0;
   for (std::size_t u = 0; u < plan.units.size(); ++u) {
     r.summaries.push_back(summarise_unit(sums[u], spec.link, V, z));
-    if (!plan.units.status[u].empty()) ++outside;
+    if (!plan.units.status[u].empty() || !(sums[u].area_ha > 0.0)) ++outside;
     else if (!r.summaries.back().has_prediction) ++empty;
   }
   r.report = {{"file", plan.units.source.path},
@@ -172,6 +204,7 @@ std::string csv_cell(const std::string& text) {
 
 std::string status_text(const UnitPlan& plan, const UnitSummary& s, std::size_t u) {
   if (!plan.units.status[u].empty()) return plan.units.status[u];
+  if (!(s.area_ha > 0.0)) return "outside the raster";
   return s.has_prediction ? "ok" : "no prediction (no data under the unit)";
 }
 
@@ -221,6 +254,7 @@ nlohmann::ordered_json units_json(const UnitPlan& plan, const UnitResults& resul
       if (auto v = c.value(results.summaries[u])) row[c.name] = *v;
       else row[c.name] = nullptr;
     }
+    row["sums"] = unit_sums_json(results.sums[u]);
     rows.push_back(std::move(row));
   }
   j["rows"] = std::move(rows);

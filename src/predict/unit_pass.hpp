@@ -43,10 +43,16 @@ void cover_window(const UnitPlan& plan, const Window& w, BlockUnitCover& cover);
 
 /// Finished per-unit numbers and where they were written.
 struct UnitResults {
+  std::vector<UnitSums> sums;  ///< what the summaries were formed from (units.json keeps them for merging)
   std::vector<UnitSummary> summaries;
   nlohmann::ordered_json report;  ///< summary for report.json: counts, files, rules
   std::vector<std::string> warnings;
 };
+
+/// A unit's sums as JSON (every double round-trips exactly) and back, so that the sums of several
+/// tiles can be merged into the region's (habcast batch).
+nlohmann::ordered_json unit_sums_json(const UnitSums& sums);
+UnitSums unit_sums_from_json(const nlohmann::json& json, const std::string& where);
 
 /// Forms the summaries from the merged sums.
 UnitResults summarise_units(const UnitPlan& plan, const std::vector<UnitSums>& sums, const ModelSpec& spec, double z,

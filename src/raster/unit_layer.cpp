@@ -53,12 +53,16 @@ std::string srs_name(const OGRSpatialReference* srs) {
 
 }  // namespace
 
-ManagementUnits read_units(const UnitLayerOptions& o, const RasterGrid& grid) {
+namespace {
+
+ManagementUnits read_units_on(const UnitLayerOptions& o, const RasterGrid* grid_or_null) {
   ensure_gdal();
+  static const RasterGrid kNoGrid;
+  const RasterGrid& grid = grid_or_null ? *grid_or_null : kNoGrid;
   const auto& gt = grid.geotransform;
-  if (!grid.has_geotransform)
+  if (grid_or_null && !grid.has_geotransform)
     throw InputError("the prediction grid has no georeferencing, so the units of " + o.path + " cannot be placed on it");
-  if (gt[2] != 0.0 || gt[4] != 0.0)
+  if (grid_or_null && (gt[2] != 0.0 || gt[4] != 0.0))
     throw InputError("the prediction grid is rotated (geotransform terms " + significant(gt[2], 6) + ", " + significant(gt[4], 6) +
                      "); unit summaries need north-up cells: warp the covariates to a north-up grid first");
   take_gdal_error();
@@ -94,12 +98,12 @@ ManagementUnits read_units(const UnitLayerOptions& o, const RasterGrid& grid) {
   OGRSpatialReference grid_srs;
   const bool grid_has_crs = !grid.crs_wkt.empty() && grid_srs.importFromWkt(grid.crs_wkt.c_str()) == OGRERR_NONE;
   u.crs_name = srs_name(layer_srs);
-  if (static_cast<bool>(layer_srs) != grid_has_crs)
+  if (grid_or_null && static_cast<bool>(layer_srs) != grid_has_crs)
     throw InputError(o.path + ": " + (layer_srs ? "the units have a CRS (" + u.crs_name + ") but the prediction grid has none"
                                                 : "the units have no CRS but the prediction grid is in " + grid.crs_name) +
                      "; assign the missing CRS (e.g. gdal_edit.py -a_srs or ogr2ogr -a_srs) so the two can be matched");
   std::unique_ptr<OGRCoordinateTransformation, TransformDeleter> ct;
-  if (layer_srs && grid_has_crs && !layer_srs->IsSame(&grid_srs)) {
+  if (grid_or_null && layer_srs && grid_has_crs && !layer_srs->IsSame(&grid_srs)) {
     OGRSpatialReference from(*layer_srs), to(grid_srs);
     from.SetAxisMappingStrategy(OAMS_TRADITIONAL_GIS_ORDER);
     to.SetAxisMappingStrategy(OAMS_TRADITIONAL_GIS_ORDER);
@@ -128,6 +132,11 @@ ManagementUnits read_units(const UnitLayerOptions& o, const RasterGrid& grid) {
     u.where.push_back(where);
 
     const OGRGeometry* g = feature->GetGeometryRef();
+    if (!grid_or_null) {
+      u.polygons.emplace_back();
+      u.status.emplace_back();
+      continue;
+    }
     if (!g || g->IsEmpty()) {
       u.polygons.emplace_back();
       u.status.emplace_back("no geometry");
@@ -156,6 +165,12 @@ ManagementUnits read_units(const UnitLayerOptions& o, const RasterGrid& grid) {
   if (u.size() == 0) throw InputError(o.path + ": layer \"" + u.layer_name + "\" holds no features");
   return u;
 }
+
+}  // namespace
+
+ManagementUnits read_units(const UnitLayerOptions& options, const RasterGrid& grid) { return read_units_on(options, &grid); }
+
+ManagementUnits read_unit_ids(const UnitLayerOptions& options) { return read_units_on(options, nullptr); }
 
 std::vector<double> cell_area_ha_by_row(const RasterGrid& grid, const std::string& what) {
   const auto& gt = grid.geotransform;

@@ -36,6 +36,10 @@ struct ManagementUnits {
 /// InputError for a grid whose geotransform is rotated (cells are then not axis-aligned).
 ManagementUnits read_units(const UnitLayerOptions& options, const RasterGrid& grid);
 
+/// Reads only the units' ids (same checks of layer, id field and duplicates; no geometry is
+/// placed): for merging per-unit sums of several tiles.
+ManagementUnits read_unit_ids(const UnitLayerOptions& options);
+
 /// Area of one cell of `grid` per row, in hectares: constant for a projected CRS (the cell's area
 /// in its linear unit, converted to metres); for a geographic CRS the exact area of the cell on
 /// the CRS's ellipsoid between its two latitudes. Throws InputError when the grid has no CRS or

@@ -17,6 +17,7 @@
 #include "core/numeric/cell_coverage.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/unit_layer.hpp"
+#include "batch_test_scene.hpp"
 #include "test_support.hpp"
 
 namespace {
@@ -393,4 +394,33 @@ TEST_CASE("Cell areas on a geographic grid follow the ellipsoid", "[units]") {
   g.geotransform = {-180.0, 360.0, 0.0, 90.0, 0.0, -90.0};
   const std::vector<double> halves = habcast::cell_area_ha_by_row(g, "test");
   CHECK(halves.at(0) == Approx(halves.at(1)).epsilon(1e-14));
+}
+
+TEST_CASE("A unit spanning batch tiles gets the numbers of one raster", "[units][batch]") {
+  habcast::test::BatchScene scene(2, 2, 20, 16);
+  // A triangle across all four tiles and a small square inside one, in the scene's UTM grid
+  // (origin 500000, 4000000; 100 m pixels; the whole grid is 43 x 35 pixels).
+  write_units(scene.file("units.gpkg"),
+              {{"across", "POLYGON((500310 3999870,504120 3999150,501900 3996620,500310 3999870))"},
+               {"inside", rect_wkt(500250, 3999750, 500875, 3999320)}});
+  scene.write_manifest("[units]\npath = \"units.gpkg\"\nid = \"name\"\nthreshold = 2.5\n");
+  std::string err;
+  REQUIRE(scene.run({"-q"}, nullptr, &err) == 0);
+  INFO(err);
+  REQUIRE(habcast::test::run_cli({"predict", scene.model(), "-c", "elev=" + scene.file("elev.tif"), "-c",
+                                  "cover=" + scene.file("cover.tif"), "-o", scene.file("whole"), "--units",
+                                  scene.file("units.gpkg"), "--units-id", "name", "--units-threshold", "2.5", "-q"}) == 0);
+  const nlohmann::json region = nlohmann::json::parse(habcast::test::read_text(scene.out() + "/units.json"));
+  const nlohmann::json whole = nlohmann::json::parse(habcast::test::read_text(scene.file("whole/units.json")));
+  CHECK(region["merged_from_tiles"] == 4);
+  for (const char* id : {"across", "inside"}) {
+    INFO("unit " << id);
+    for (const char* key : {"area_ha", "data_area_ha", "mean", "mean_se", "mean_lower", "above_threshold_ha",
+                            "extrapolated_share", "share_range"})
+      CHECK(unit_row(region, id)[key].get<double>() == Approx(unit_row(whole, id)[key].get<double>()).epsilon(1e-12));
+  }
+  // Poisson: no expected occupied area.
+  CHECK_FALSE(unit_row(region, "across").contains("expected_ha"));
+  const nlohmann::json report = nlohmann::json::parse(habcast::test::read_text(scene.out() + "/batch-report.json"));
+  CHECK(report["units"]["units"] == 2);
 }
