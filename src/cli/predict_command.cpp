@@ -148,6 +148,9 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
                   "LAYER of --units to read (needed when the source holds several layers)");
   cmd->add_option("--units-id", args->options.units.layer.id_field,
                   "FIELD of --units naming each unit (values must be unique). Default: the feature id");
+  cmd->add_option("--units-map", args->options.units.map_path,
+                  "FILE.png, FILE.pdf or FILE.svg: also draw the units coloured by their mean, hatched where\n"
+                  "more than half of a unit is extrapolated, with a legend and a scale bar");
   cmd->add_option("--units-threshold", args->options.units.threshold_text,
                   "VALUE, or the JSON report of habcast evaluate (its binary map's, --threshold's or\n"
                   "max-TSS threshold, in that order): units also report the area where the prediction\n"

@@ -387,6 +387,11 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   }
   std::optional<UnitPlan> unit_plan;
   if (options.units.active()) unit_plan = plan_units(options.units, grid, spec.family);
+  if (!options.units.map_path.empty()) {
+    if (!unit_plan) throw UsageError("--units-map draws the units of --units: give --units POLYGONS too");
+    figure_format(options.units.map_path);
+    refuse_to_clobber({options.units.map_path}, options.overwrite, ", or choose another --units-map path");
+  }
   if (!options.quicklook_path.empty()) {
     figure_format(options.quicklook_path);  // .png, .pdf or .svg; anything else is refused before the run
     refuse_to_clobber({options.quicklook_path}, options.overwrite, ", or choose another --quicklook path");
@@ -492,6 +497,15 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
                            unit_table_columns(*unit_plan, *unit_results, spec));
     write_file_atomically(units_csv_path, units_csv(*unit_plan, *unit_results, spec));
     write_file_atomically(units_json_path, units_json(*unit_plan, *unit_results, spec, options.level).dump(2) + "\n");
+    // Like the quicklook, a convenience: if it cannot be drawn, the tables still stand.
+    if (!options.units.map_path.empty()) {
+      try {
+        write_file_atomically(options.units.map_path,
+                              encode_figure(units_map(*unit_plan, *unit_results, spec, grid), options.units.map_path));
+      } catch (const Error& e) {
+        unit_results->warnings.push_back(std::string("no units map was written: ") + e.what());
+      }
+    }
   }
 
   ReportContext ctx;
@@ -512,6 +526,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     ctx.outputs.emplace_back("units", units_gpkg);
     ctx.outputs.emplace_back("units_table", units_csv_path);
     ctx.outputs.emplace_back("units_json", units_json_path);
+    if (!options.units.map_path.empty() && fs::exists(options.units.map_path)) ctx.outputs.emplace_back("units_map", options.units.map_path);
   }
   ctx.outputs.emplace_back("report", out.report_path);
   ctx.tally = &total;

@@ -4,11 +4,13 @@
 #include <cmath>
 #include <fstream>
 #include <functional>
+#include <limits>
 #include <sstream>
 
 #include "core/base/error.hpp"
 #include "core/base/number_text.hpp"
 #include "predict/prediction_report.hpp"
+#include "render/unit_map.hpp"
 
 namespace habcast {
 
@@ -224,6 +226,38 @@ std::vector<std::string> unit_status(const UnitPlan& plan, const UnitResults& re
   std::vector<std::string> s;
   for (std::size_t u = 0; u < results.summaries.size(); ++u) s.push_back(status_text(plan, results.summaries[u], u));
   return s;
+}
+
+Figure units_map(const UnitPlan& plan, const UnitResults& results, const ModelSpec& spec, const RasterGrid& grid) {
+  UnitMapInput in;
+  in.title = (spec.name.empty() ? std::string("Prediction") : spec.name) + ": mean per unit";
+  in.value_label = spec.family == Family::binomial ? "Mean suitability (probability)" : "Mean " + spec.response;
+  in.grid = grid;
+  double lo = 0.0, hi = 1.0;
+  if (spec.family != Family::binomial) {
+    lo = std::numeric_limits<double>::infinity();
+    hi = -lo;
+    for (const UnitSummary& s : results.summaries)
+      if (s.has_prediction) {
+        lo = std::min(lo, s.mean);
+        hi = std::max(hi, s.mean);
+      }
+    if (!(hi > lo)) {
+      lo = std::isfinite(lo) ? lo - 0.5 : 0.0;
+      hi = lo + 1.0;
+    }
+  }
+  in.lo = lo;
+  in.hi = hi;
+  for (std::size_t u = 0; u < plan.units.size(); ++u) {
+    UnitMapUnit m;
+    m.rings = plan.units.polygons[u].rings;
+    const UnitSummary& s = results.summaries[u];
+    if (s.has_prediction) m.mean = s.mean;
+    m.mostly_extrapolated = s.checked_area_ha > 0.0 && s.flagged_share > 0.5;
+    in.units.push_back(std::move(m));
+  }
+  return unit_map_figure(in);
 }
 
 std::string units_csv(const UnitPlan& plan, const UnitResults& results, const ModelSpec& spec) {

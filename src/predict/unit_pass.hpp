@@ -12,12 +12,14 @@
 #include "raster/unit_layer.hpp"
 #include "raster/unit_layer_writer.hpp"
 #include "raster/window.hpp"
+#include "render/figure.hpp"
 
 namespace habcast {
 
 struct UnitOptions {
   UnitLayerOptions layer;              ///< empty path: no unit summaries
   std::string threshold_text;          ///< a probability/value, or an evaluate JSON report; empty: none
+  std::string map_path;                ///< a picture of the units (.png, .pdf, .svg); empty: none
   [[nodiscard]] bool active() const { return !layer.path.empty(); }
 };
 
@@ -62,6 +64,9 @@ UnitResults summarise_units(const UnitPlan& plan, const std::vector<UnitSums>& s
 /// the GeoPackage layer.
 std::vector<UnitTableColumn> unit_table_columns(const UnitPlan& plan, const UnitResults& results, const ModelSpec& spec);
 std::vector<std::string> unit_status(const UnitPlan& plan, const UnitResults& results);
+
+/// The picture of the units (render/unit_map.hpp) coloured by their means.
+Figure units_map(const UnitPlan& plan, const UnitResults& results, const ModelSpec& spec, const RasterGrid& grid);
 
 /// The CSV and JSON text of the unit table.
 std::string units_csv(const UnitPlan& plan, const UnitResults& results, const ModelSpec& spec);

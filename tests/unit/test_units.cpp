@@ -17,6 +17,8 @@
 #include "core/numeric/cell_coverage.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/unit_layer.hpp"
+#include "render/figure_file.hpp"
+#include "render/unit_map.hpp"
 #include "batch_test_scene.hpp"
 #include "test_support.hpp"
 
@@ -423,4 +425,38 @@ TEST_CASE("A unit spanning batch tiles gets the numbers of one raster", "[units]
   CHECK_FALSE(unit_row(region, "across").contains("expected_ha"));
   const nlohmann::json report = nlohmann::json::parse(habcast::test::read_text(scene.out() + "/batch-report.json"));
   CHECK(report["units"]["units"] == 2);
+}
+
+TEST_CASE("The units map draws every unit, hatches mostly extrapolated ones and is a valid picture", "[units]") {
+  habcast::UnitMapInput in;
+  in.title = "test";
+  in.value_label = "Mean suitability (probability)";
+  in.grid.width = 10;
+  in.grid.height = 8;
+  habcast::UnitMapUnit a, b, c;
+  a.rings = {{{0, 0}, {5, 0}, {5, 8}, {0, 8}}};
+  a.mean = 0.2;
+  b.rings = {{{5, 0}, {10, 0}, {10, 8}, {5, 8}}, {{6, 2}, {6, 3}, {7, 3}, {7, 2}}};  // a hole (clockwise)
+  b.mean = 0.9;
+  b.mostly_extrapolated = true;
+  c.rings = {{{2, 2}, {3, 2}, {3, 3}}};  // no prediction
+  in.units = {a, b, c};
+  const habcast::Figure fig = habcast::unit_map_figure(in);
+  CHECK(fig.marks_with_role("unit").size() == 3);
+  CHECK(fig.marks_with_role("unit-hole").size() == 1);
+  int hatched = 0;
+  for (const habcast::Mark* m : fig.marks_with_role("unit"))
+    hatched += std::get<habcast::PathMark>(m->shape).hatch.has_value() ? 1 : 0;
+  CHECK(hatched == 1);
+  const std::string png = habcast::encode_figure(fig, "map.png");
+  REQUIRE(png.size() > 8);
+  CHECK(png.substr(1, 3) == "PNG");
+  const std::string svg = habcast::encode_figure(fig, "map.svg");
+  CHECK(svg.find("<svg") != std::string::npos);
+
+  MapScene s;
+  write_units(s.dir.file("u.gpkg"), {{"all", rect_wkt(500000, 4000000, 504000, 3997000)}});
+  CHECK(s.predict("out", {"--units-map", s.dir.file("map.pdf")}) == 2);  // no --units
+  REQUIRE(s.predict("out", {"--units", s.dir.file("u.gpkg"), "--units-map", s.dir.file("map.pdf")}) == 0);
+  CHECK(habcast::test::read_text(s.dir.file("map.pdf")).substr(0, 5) == "%PDF-");
 }
