@@ -65,11 +65,8 @@ ManagementUnits read_units_on(const UnitLayerOptions& o, const RasterGrid* grid_
   if (grid_or_null && (gt[2] != 0.0 || gt[4] != 0.0))
     throw InputError("the prediction grid is rotated (geotransform terms " + significant(gt[2], 6) + ", " + significant(gt[4], 6) +
                      "); unit summaries need north-up cells: warp the covariates to a north-up grid first");
-  take_gdal_error();
-  GDALDatasetUniquePtr ds(GDALDataset::Open(o.path.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
-  if (!ds)
-    throw InputError(o.path + ": cannot open as a vector data source (" + gdal_reason() +
-                     "); give the units as a GeoPackage, Shapefile, GeoJSON or other OGR polygon source");
+  GDALDatasetUniquePtr ds =
+      open_input_vector(o.path, "give the units as a GeoPackage, Shapefile, GeoJSON or other OGR polygon source");
   OGRLayer& layer = units_layer(*ds, o);
   ManagementUnits u;
   u.source = o;

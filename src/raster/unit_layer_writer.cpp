@@ -14,10 +14,7 @@ namespace habcast {
 
 void write_units_geopackage(const std::string& path, const ManagementUnits& units, const std::vector<std::string>& status,
                             const std::vector<UnitTableColumn>& columns) {
-  ensure_gdal();
-  take_gdal_error();
-  GDALDatasetUniquePtr source(GDALDataset::Open(units.source.path.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
-  if (!source) throw InputError(units.source.path + ": cannot reopen the units (" + gdal_reason() + ")");
+  GDALDatasetUniquePtr source = open_input_vector(units.source.path, "the units file changed during the run");
   OGRLayer* in = source->GetLayerByName(units.layer_name.c_str());
   if (!in) throw InputError(units.source.path + ": the layer \"" + units.layer_name + "\" disappeared during the run");
 
