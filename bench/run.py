@@ -160,9 +160,70 @@ def contenders(habcast, floor, stack, out_root, args):
                                                      "--no-novelty-rasters"]
         # ... and predict's defaults, which also write novelty.tif (3 Float32 bands) and least_similar.tif.
         runs["habcast default"] = lambda out: base + ["-o", str(out)]
+    if "--units" in help_text:
+        # 1,000 management units summarised in the same pass (exact coverage, delta-method SEs).
+        units = ensure_units(stack)
+        runs["habcast+units"] = lambda out: base + ["-o", str(out), *same_outputs, "--units", str(units)]
     if "--max-error" in help_text:
         runs["habcast--max-error"] = lambda out: base + ["-o", str(out), *same_outputs, "--max-error", f"{MAX_ERROR:g}"]
     return {name: (make, out_root / name) for name, make in runs.items()}
+
+
+def ensure_units(stack, count_x=40, count_y=25):
+    """1,000 management units tiling the stack: jittered quadrilaterals whose shared edges wiggle
+    through 8 segments each, so their boundaries cross cells at every angle. Deterministic."""
+    path = stack / "units.gpkg"
+    if path.exists():
+        return path
+    import random
+    from osgeo import ogr, osr
+    ds = gdal.Open(str(stack / "tmin.tif"))
+    gt, w, h = ds.GetGeoTransform(), ds.RasterXSize, ds.RasterYSize
+    srs = osr.SpatialReference(wkt=ds.GetProjection())
+    rng = random.Random(7)
+    sx, sy = w * gt[1] / count_x, h * gt[5] / count_y
+    corner = {(i, j): (gt[0] + i * sx + (rng.uniform(-0.2, 0.2) * sx if 0 < i < count_x else 0),
+                       gt[3] + j * sy + (rng.uniform(-0.2, 0.2) * sy if 0 < j < count_y else 0))
+              for i in range(count_x + 1) for j in range(count_y + 1)}
+    edges = {}
+
+    def edge(a, b):
+        """Points from corner a towards corner b, b itself excluded; both sides see the same wiggle."""
+        key = (min(a, b), max(a, b))
+        if key not in edges:
+            (x0, y0), (x1, y1) = corner[key[0]], corner[key[1]]
+            (i0, j0), (i1, j1) = key
+            border = (i0 == i1 and i0 in (0, count_x)) or (j0 == j1 and j0 in (0, count_y))
+            pts = []
+            for k in range(8):
+                t = k / 8
+                jitter = 0.0 if border or k == 0 else rng.uniform(-0.03, 0.03)
+                pts.append((x0 + t * (x1 - x0) - jitter * (y1 - y0), y0 + t * (y1 - y0) + jitter * (x1 - x0)))
+            edges[key] = pts
+        pts = edges[key]
+        return pts if key[0] == a else [corner[a]] + pts[:0:-1]
+
+    tmp = path.with_suffix(".tmp.gpkg")
+    out = ogr.GetDriverByName("GPKG").CreateDataSource(str(tmp))
+    layer = out.CreateLayer("units", srs, ogr.wkbPolygon)
+    layer.CreateField(ogr.FieldDefn("unit", ogr.OFTString))
+    for i in range(count_x):
+        for j in range(count_y):
+            ring = ogr.Geometry(ogr.wkbLinearRing)
+            loop = [(i, j), (i + 1, j), (i + 1, j + 1), (i, j + 1), (i, j)]
+            for a, b in zip(loop, loop[1:]):
+                for x, y in edge(a, b):
+                    ring.AddPoint_2D(x, y)
+            ring.CloseRings()
+            poly = ogr.Geometry(ogr.wkbPolygon)
+            poly.AddGeometry(ring)
+            f = ogr.Feature(layer.GetLayerDefn())
+            f.SetField("unit", f"u{i:02d}_{j:02d}")
+            f.SetGeometry(poly)
+            layer.CreateFeature(f)
+    out = None
+    tmp.rename(path)
+    return path
 
 
 def values_for_floor(habcast_cmd, out_root):
@@ -210,6 +271,8 @@ def race(habcast, floor, stack, args):
         result["hull_over_habcast"] = t["habcast+hull"]["wall_s"] / t["habcast"]["wall_s"]
         result["checks_over_habcast"] = t["habcast+checks"]["wall_s"] / t["habcast"]["wall_s"]
         result["default_over_habcast"] = t["habcast default"]["wall_s"] / t["habcast"]["wall_s"]
+    if "habcast+units" in t:
+        result["units_over_habcast"] = t["habcast+units"]["wall_s"] / t["habcast"]["wall_s"]
     if "habcast--max-error" in t:
         result["bytes_lossless_over_max_error"] = t["habcast"]["output_bytes"] / t["habcast--max-error"]["output_bytes"]
         result["time_lossless_over_max_error"] = t["habcast"]["wall_s"] / t["habcast--max-error"]["wall_s"]

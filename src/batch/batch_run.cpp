@@ -14,6 +14,7 @@
 #include "batch/manifest.hpp"
 #include "batch/mosaic.hpp"
 #include "batch/region_report.hpp"
+#include "batch/region_units.hpp"
 #include "batch/tile_list.hpp"
 #include "batch/tile_record.hpp"
 #include "core/model/model_file.hpp"
@@ -21,6 +22,7 @@
 #include "pipeline/stop_signal.hpp"
 #include "predict/predict_run.hpp"
 #include "predict/prediction_report.hpp"
+#include "predict/unit_pass.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/output_raster.hpp"
 #include "raster/raster_grid.hpp"
@@ -67,7 +69,15 @@ BatchPlan make_plan(const BatchOptions& options, const std::string& tool_version
     throw InputError(located(plan.spec.path, plan.spec.training_line, "training samples " + *plan.spec.training_samples +
                                                                           " do not exist; check the path (relative to the model file)"));
   plan.tiles = list_tiles(plan.manifest, plan.spec);
-  plan.settings = {plan.manifest.level, plan.manifest.block_size, plan.manifest.creation_options, plan.manifest.overviews};
+  plan.settings = {plan.manifest.level, plan.manifest.block_size, plan.manifest.creation_options, plan.manifest.overviews,
+                   nullptr};
+  if (!plan.manifest.units_path.empty()) {
+    // Checked before any tile runs: a bad layer, id field or threshold would fail every tile.
+    (void)read_unit_ids({plan.manifest.units_path, plan.manifest.units_layer, plan.manifest.units_id});
+    (void)resolve_unit_threshold(plan.manifest.units_threshold, plan.spec.family);
+    plan.settings.units = units_stamp(plan.manifest.units_path, plan.manifest.units_layer, plan.manifest.units_id,
+                                      plan.manifest.units_threshold);
+  }
   plan.model_hash = model_fingerprint(plan.spec.path, plan.spec.training_samples ? &*plan.spec.training_samples : nullptr);
   plan.tool_version = tool_version;
   return plan;
@@ -131,6 +141,8 @@ TileRun run_tile(const BatchPlan& plan, const Tile& tile, int threads, TileProgr
     po.creation_options = plan.settings.creation_options;
     po.overviews = plan.settings.overviews;
     po.overwrite = true;
+    po.units.layer = {plan.manifest.units_path, plan.manifest.units_layer, plan.manifest.units_id};
+    po.units.threshold_text = plan.manifest.units_threshold;
     const PredictSummary summary = run_predict(po, progress, plan.tool_version);
     run.record = done_record(tile.id, fingerprint, summary.outputs, seconds());
     // Written last: a tile is done exactly when its record says so.
@@ -248,9 +260,23 @@ void finish_region(const BatchPlan& plan, const BatchOptions& options, std::map<
   } else {
     summary.warnings.push_back("No tile is done, so no mosaic was built.");
   }
+  const int not_done = static_cast<int>(plan.tiles.size() - finished.size());
+  std::optional<RegionUnits> units;
+  if (!plan.manifest.units_path.empty()) {
+    if (not_done == 0) {
+      std::vector<std::string> tile_dirs;
+      for (const FinishedTile& f : finished) tile_dirs.push_back(f.folder);
+      units = merge_region_units(plan.manifest, plan.spec, tile_dirs);
+      summary.outputs.insert(summary.outputs.end(), units->outputs.begin(), units->outputs.end());
+      summary.warnings.insert(summary.warnings.end(), units->warnings.begin(), units->warnings.end());
+    } else {
+      summary.warnings.push_back("No region unit summaries: units that span tiles need every tile, and " +
+                                 std::to_string(not_done) + " " + (not_done == 1 ? "is" : "are") + " not done.");
+    }
+  }
   in.mosaic = summary.outputs;
   RegionReport report = region_report(in);
-  const int not_done = static_cast<int>(plan.tiles.size() - finished.size());
+  if (units) report.json["units"] = units->report;
   summary.not_done = not_done;
   int exit_code = 0;
   if (not_done > 0) {

@@ -10,6 +10,7 @@
 #include <toml++/toml.h>
 
 #include "core/base/error.hpp"
+#include "core/base/number_text.hpp"
 #include "core/base/toml_table_reader.hpp"
 
 namespace habcast {
@@ -83,6 +84,25 @@ void read_predict(const toml::table& root, BatchManifest& m) {
   t.reject_unknown("level, block_size, creation_options, overviews, max_extrapolated");
 }
 
+void read_units_table(const toml::table& root, BatchManifest& m) {
+  const toml::node* node = root.get("units");
+  if (!node) return;
+  if (!node->is_table()) throw InputError(located(m.path, toml_line(*node), "units must be a table [units] with path = \"...\""));
+  TomlTableReader t(*node->as_table(), "units.", "in [units]", m.path);
+  const toml::node* p = t.get("path");
+  if (!p || !p->is_string())
+    throw InputError(located(m.path, toml_line(p ? *p : *node), "[units] needs path = \"units.gpkg\" (a quoted path to the polygons)"));
+  m.units_path = resolve(m.path, *p->value<std::string>());
+  m.units_layer = t.string("layer").value_or("");
+  m.units_id = t.string("id").value_or("");
+  if (const toml::node* th = t.get("threshold")) {
+    if (th->is_number()) m.units_threshold = significant(*th->value<double>(), 17);
+    else if (th->is_string()) m.units_threshold = resolve(m.path, *th->value<std::string>());
+    else t.fail(*th, "units.threshold is a number, or a quoted path to an evaluate JSON report");
+  }
+  t.reject_unknown("path, layer, id, threshold");
+}
+
 void read_pattern(const toml::table& root, BatchManifest& m) {
   const toml::node* node = root.get("tiles");
   if (!node) return;
@@ -153,8 +173,10 @@ BatchManifest parse_batch_manifest(const std::string& text, const std::string& p
   top.get("predict");
   top.get("tiles");
   top.get("tile");
-  top.reject_unknown("habcast_batch, model, output, [predict], [tiles] and [[tile]]");
+  top.get("units");
+  top.reject_unknown("habcast_batch, model, output, [predict], [tiles], [[tile]] and [units]");
   read_predict(root, m);
+  read_units_table(root, m);
   read_pattern(root, m);
   read_tile_table(root, m);
   if (!m.pattern && m.tiles.empty())

@@ -30,6 +30,12 @@ struct BatchManifest {
   bool overviews = false;
   std::optional<double> max_extrapolated_percent;  ///< judged over the whole region
 
+  // [units]: per-unit summaries in every tile, merged into the region's (docs/units.md).
+  std::string units_path;       ///< absolute; empty: no units
+  std::string units_layer;
+  std::string units_id;
+  std::string units_threshold;  ///< a number, or an evaluate JSON report (absolute path)
+
   std::optional<std::string> pattern;  ///< absolute, with {tile} and {covariate} placeholders
   std::string pattern_as_written;
   long pattern_line = 0;

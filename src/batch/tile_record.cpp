@@ -68,14 +68,21 @@ json tile_fingerprint(const Tile& tile, const std::string& model_hash, const Til
                       const std::string& tool_version) {
   json inputs = json::array();
   for (const auto& [covariate, path] : tile.rasters) inputs.push_back(file_stamp(covariate, path));
-  return {{"habcast_version", tool_version},
-          {"model_hash", model_hash},
-          {"options",
-           {{"level", s.level},
-            {"block_size", s.block_size},
-            {"creation_options", s.creation_options},
-            {"overviews", s.overviews}}},
-          {"inputs", inputs}};
+  json options{{"level", s.level},
+               {"block_size", s.block_size},
+               {"creation_options", s.creation_options},
+               {"overviews", s.overviews}};
+  // Only when asked for, so that records of runs without units stay valid.
+  if (!s.units.is_null()) options["units"] = s.units;
+  return {{"habcast_version", tool_version}, {"model_hash", model_hash}, {"options", options}, {"inputs", inputs}};
+}
+
+json units_stamp(const std::string& path, const std::string& layer, const std::string& id, const std::string& threshold) {
+  json j{{"file", file_stamp("units", path)}, {"layer", layer}, {"id", id}, {"threshold", threshold}};
+  // A threshold read from an evaluate report changes with that file.
+  struct stat st {};
+  if (!threshold.empty() && stat(threshold.c_str(), &st) == 0) j["threshold_file"] = file_stamp("threshold", threshold);
+  return j;
 }
 
 std::string model_fingerprint(const std::string& model_path, const std::string* training_path) {

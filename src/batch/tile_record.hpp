@@ -17,11 +17,16 @@ struct TileSettings {
   int block_size = 512;
   std::vector<std::string> creation_options;
   bool overviews = false;
+  nlohmann::ordered_json units;  ///< [units] of the manifest with its file's stamp; null without units
 };
 
 /// What a tile's outputs depend on. `model_hash` covers the model file and its training table.
 nlohmann::ordered_json tile_fingerprint(const Tile& tile, const std::string& model_hash, const TileSettings& settings,
                                         const std::string& tool_version);
+
+/// The [units] settings with the size and time of the units file (and of a threshold report).
+nlohmann::ordered_json units_stamp(const std::string& path, const std::string& layer, const std::string& id,
+                                   const std::string& threshold);
 
 /// FNV-1a 64 of the model file followed by its training table (when it names one), as hex.
 std::string model_fingerprint(const std::string& model_path, const std::string* training_path);

@@ -26,6 +26,10 @@ constexpr const char* kPredictHelp =
     "  novelty.tif        Float32, 3 bands: MESS similarity (%), NT1, NT2 (D^2 / max D^2)\n"
     "  least_similar.tif  UInt8, the covariate with the lowest similarity (attribute table names it)\n"
     "  report.json        counts, shares and areas per cause and covariate, warnings, timing\n"
+    "  units.gpkg, units.csv, units.json  with --units: per unit (reserve, parcel, ...) its area,\n"
+    "                     mean suitability with a delta-method standard error and interval, expected\n"
+    "                     occupied area (binomial), area above --units-threshold, share extrapolated\n"
+    "                     per cause; pixels weighted by the exact share of their area inside the unit\n"
     "Joint checks run on the model values (after transform and standardisation) of the continuous\n"
     "covariates the model uses; see docs/extrapolation-flags.md.\n"
     "All covariate rasters must share one grid (size, geotransform, CRS). A pixel where any covariate\n"
@@ -34,7 +38,8 @@ constexpr const char* kPredictHelp =
     "Example:\n"
     "  habcast predict sample-rasters/demo-model.toml -o out/\n"
     "  habcast predict model.toml -c tmin=tmin_2050.tif -c precip=precip_2050.tif -o out-2050/ \\\n"
-    "      --max-extrapolated 10 --co COMPRESS=ZSTD --overviews\n\n"
+    "      --max-extrapolated 10 --co COMPRESS=ZSTD --overviews\n"
+    "  habcast predict model.toml -o out/ --units reserves.gpkg --units-id name --units-threshold 0.5\n\n"
     "Exit codes: 0 ok, 2 usage, 3 bad input, 4 read/write failure,\n"
     "            5 outputs written but more extrapolation than --max-extrapolated, 130/143 interrupted.";
 
@@ -135,6 +140,21 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--quicklook", args->options.quicklook_path,
                   "FILE.png, FILE.pdf or FILE.svg (format by extension): also draw a one-page picture of\n"
                   "suitability.tif with extrapolated pixels hatched, a legend and a scale bar");
+  cmd->add_option("--units", args->options.units.layer.path,
+                  "POLYGONS: summarise the prediction per unit (any OGR source: GeoPackage, Shapefile,\n"
+                  "GeoJSON; transformed to the grid's CRS); writes units.gpkg, units.csv, units.json.\n"
+                  "See docs/units.md");
+  cmd->add_option("--units-layer", args->options.units.layer.layer,
+                  "LAYER of --units to read (needed when the source holds several layers)");
+  cmd->add_option("--units-id", args->options.units.layer.id_field,
+                  "FIELD of --units naming each unit (values must be unique). Default: the feature id");
+  cmd->add_option("--units-map", args->options.units.map_path,
+                  "FILE.png, FILE.pdf or FILE.svg: also draw the units coloured by their mean, hatched where\n"
+                  "more than half of a unit is extrapolated, with a legend and a scale bar");
+  cmd->add_option("--units-threshold", args->options.units.threshold_text,
+                  "VALUE, or the JSON report of habcast evaluate (its binary map's, --threshold's or\n"
+                  "max-TSS threshold, in that order): units also report the area where the prediction\n"
+                  "is at least this");
   cmd->add_flag("--overwrite", args->options.overwrite, "Replace existing outputs in the output folder");
   cmd->add_option("--max-extrapolated", args->max_extrapolated,
                   "PERCENT: exit with code 5 when more than this share of valid pixels is extrapolated\n"

@@ -29,6 +29,7 @@
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "predict/prediction_report.hpp"
+#include "predict/unit_pass.hpp"
 #include "raster/covariate_reader.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/output_raster.hpp"
@@ -140,6 +141,8 @@ struct Worker {
   BlockPredictor predictor;
   Eigen::ArrayXXd raw;
   std::vector<std::uint8_t> valid;
+  BlockUnitCover unit_cover;
+  std::vector<std::uint32_t> unit_slots;  ///< scratch of BlockUnitSums::at, one entry per unit
 
   Worker(const std::vector<CovariateInput>& inputs, const ModelSpec& spec, const TermPlan& plan, double level,
          double quantum, const TrainingDomain* domain, const NoveltyModel* novelty, const LowCertaintyRule* certainty)
@@ -153,6 +156,7 @@ struct Worker {
 struct BlockResult {
   BlockOutputs outputs;
   PredictionTally tally;
+  BlockUnitSums units;
 };
 
 struct Outputs {
@@ -382,6 +386,13 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     if (options.novelty.any()) novelty.emplace(spec, plan, *samples, options.novelty);
   }
   const LowCertaintyRule certainty = LowCertaintyRule::for_model(spec, samples ? &*samples : nullptr);
+  std::optional<UnitPlan> unit_plan;
+  if (options.units.active()) unit_plan = plan_units(options.units, grid, spec.family);
+  if (!options.units.map_path.empty()) {
+    if (!unit_plan) throw UsageError("--units-map draws the units of --units: give --units POLYGONS too");
+    figure_format(options.units.map_path);
+    refuse_to_clobber({options.units.map_path}, options.overwrite, ", or choose another --units-map path");
+  }
   if (!options.quicklook_path.empty()) {
     figure_format(options.quicklook_path);  // .png, .pdf or .svg; anything else is refused before the run
     refuse_to_clobber({options.quicklook_path}, options.overwrite, ", or choose another --quicklook path");
@@ -407,6 +418,16 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     throw IoError(options.output_dir + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
   Outputs out = create_outputs(options, spec, grid, spec.covariance.has_value(), domain.has_value(),
                                novelty ? &*novelty : nullptr, tool_version, threads);
+  const fs::path out_dir(options.output_dir);
+  const std::string units_gpkg = (out_dir / "units.gpkg").string();
+  const std::string units_csv_path = (out_dir / "units.csv").string();
+  const std::string units_json_path = (out_dir / "units.json").string();
+  if (unit_plan) {
+    refuse_to_clobber({units_gpkg, units_csv_path, units_json_path}, options.overwrite,
+                      " (the old file is kept until the new one is complete), or choose another output folder with -o");
+    for (auto& w : workers) w->unit_slots.assign(unit_plan->units.size(), 0);
+  }
+  std::vector<UnitSums> unit_totals(unit_plan ? unit_plan->units.size() : 0);
 
   const std::size_t k = spec.covariates.size();
   set_gdal_cache(options.gdal_cache_bytes > 0 ? options.gdal_cache_bytes
@@ -425,14 +446,24 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
         worker.valid.assign(static_cast<std::size_t>(n), 1);
         for (std::size_t c = 0; c < k; ++c)
           worker.readers[c].read(w, worker.raw.col(static_cast<Eigen::Index>(c)).data(), worker.valid.data());
-        BlockResult result{buffers.take(), PredictionTally(k)};
-        worker.predictor.run(worker.raw, worker.valid, n, result.outputs, result.tally);
+        BlockResult result{buffers.take(), PredictionTally(k), {}};
+        if (unit_plan) {
+          cover_window(*unit_plan, w, worker.unit_cover);
+          const UnitPass pass{&worker.unit_cover, &result.units, &worker.unit_slots,
+                              unit_plan->threshold ? unit_plan->threshold->value : 0.0, spec.covariance.has_value()};
+          worker.predictor.run(worker.raw, worker.valid, n, result.outputs, result.tally, &pass);
+          result.units.release_slots(worker.unit_slots);
+        } else {
+          worker.predictor.run(worker.raw, worker.valid, n, result.outputs, result.tally);
+        }
         return result;
       },
       [&](std::size_t item, BlockResult& result) {
         write_block(out, windows[item], result.outputs);
         buffers.give(std::move(result.outputs));
         total.merge(result.tally);
+        for (std::size_t i = 0; i < result.units.units.size(); ++i)
+          unit_totals[result.units.units[i]].merge(result.units.sums[i]);
         progress.advance(static_cast<std::int64_t>(item + 1));
         if ((item + 1) % kTrimEvery == 0) return_free_memory();
       },
@@ -459,6 +490,25 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     }
   }
 
+  std::optional<UnitResults> unit_results;
+  if (unit_plan) {
+    const Evaluator evaluator(spec, options.level, 0.0);
+    unit_results = summarise_units(*unit_plan, unit_totals, spec, evaluator.z(), options.level);
+    write_units_geopackage(units_gpkg, unit_plan->units, unit_status(*unit_plan, *unit_results),
+                           unit_table_columns(*unit_plan, *unit_results, spec));
+    write_file_atomically(units_csv_path, units_csv(*unit_plan, *unit_results, spec));
+    write_file_atomically(units_json_path, units_json(*unit_plan, *unit_results, spec, options.level).dump(2) + "\n");
+    // Like the quicklook, a convenience: if it cannot be drawn, the tables still stand.
+    if (!options.units.map_path.empty()) {
+      try {
+        write_file_atomically(options.units.map_path,
+                              encode_figure(units_map(*unit_plan, *unit_results, spec, grid), options.units.map_path));
+      } catch (const Error& e) {
+        unit_results->warnings.push_back(std::string("no units map was written: ") + e.what());
+      }
+    }
+  }
+
   ReportContext ctx;
   ctx.tool_version = tool_version;
   ctx.spec = &spec;
@@ -474,6 +524,12 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     ctx.outputs.emplace_back(role, r->final_path());
   }
   if (!options.quicklook_path.empty() && quicklook_problem.empty()) ctx.outputs.emplace_back("quicklook", options.quicklook_path);
+  if (unit_plan) {
+    ctx.outputs.emplace_back("units", units_gpkg);
+    ctx.outputs.emplace_back("units_table", units_csv_path);
+    ctx.outputs.emplace_back("units_json", units_json_path);
+    if (!options.units.map_path.empty() && fs::exists(options.units.map_path)) ctx.outputs.emplace_back("units_map", options.units.map_path);
+  }
   ctx.outputs.emplace_back("report", out.report_path);
   ctx.tally = &total;
   ctx.started_utc = started;
@@ -482,7 +538,10 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   PredictSummary summary;
   summary.warnings = prediction_warnings(ctx);
   if (!quicklook_problem.empty()) summary.warnings.push_back(quicklook_problem);
+  if (unit_results)
+    summary.warnings.insert(summary.warnings.end(), unit_results->warnings.begin(), unit_results->warnings.end());
   summary.report = prediction_report(ctx, summary.warnings);
+  if (unit_results) summary.report["units"] = unit_results->report;
   if (options.max_extrapolated_percent && domain) {
     const double pct = total.domain.checked > 0 ? 100.0 * static_cast<double>(total.domain.flagged) /
                                                       static_cast<double>(total.domain.checked)

@@ -53,6 +53,14 @@ bool value_fits(GDALDataType type, double value) {
   }
 }
 
+GDALDatasetUniquePtr open_input_vector(const std::string& path, const std::string& what_to_give) {
+  ensure_gdal();
+  take_gdal_error();  // a message left by an earlier call must not be blamed on this file
+  GDALDatasetUniquePtr ds(GDALDataset::Open(path.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
+  if (!ds) throw InputError(path + ": cannot open as a vector data source (" + gdal_reason() + "); " + what_to_give);
+  return ds;
+}
+
 DatasetPtr open_input_raster(const std::string& path, const std::vector<std::string>& open_options) {
   ensure_gdal();
   take_gdal_error();  // a message left by an earlier call must not be blamed on this file

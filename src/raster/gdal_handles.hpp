@@ -29,6 +29,10 @@ struct CplFree {
 /// Opens `path` read-only as a raster. Throws InputError naming the file with GDAL's reason.
 DatasetPtr open_input_raster(const std::string& path, const std::vector<std::string>& open_options = {});
 
+/// Opens `path` read-only as a vector source. Throws InputError naming the file with GDAL's reason
+/// and `what_to_give` (e.g. "give the units as a GeoPackage, ...").
+GDALDatasetUniquePtr open_input_vector(const std::string& path, const std::string& what_to_give);
+
 /// Throws InputError naming the file when `band` is not one of its bands.
 GDALRasterBand& input_band(GDALDataset& dataset, const std::string& path, int band);
 

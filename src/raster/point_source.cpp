@@ -70,12 +70,8 @@ OGRLayer& pick_layer(GDALDataset& ds, const PointSourceOptions& o) {
 }
 
 Points read_ogr_points(const PointSourceOptions& o) {
-  ensure_gdal();
-  take_gdal_error();
-  GDALDatasetUniquePtr ds(GDALDataset::Open(o.path.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY));
-  if (!ds)
-    throw InputError(o.path + ": cannot open as a vector data source (" + gdal_reason() +
-                     "); give a CSV with x/y columns or a GeoPackage, Shapefile or other OGR point source");
+  GDALDatasetUniquePtr ds =
+      open_input_vector(o.path, "give a CSV with x/y columns or a GeoPackage, Shapefile or other OGR point source");
   OGRLayer& layer = pick_layer(*ds, o);
   Points p;
   p.path = o.path;

@@ -5,6 +5,7 @@
 #include <limits>
 
 #include "core/domain/extrapolation_flags.hpp"
+#include "core/model/link.hpp"
 
 namespace habcast {
 
@@ -59,7 +60,7 @@ float to_output_off_nodata(double v, std::int64_t& moved) {
 }  // namespace
 
 void BlockPredictor::run(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows,
-                         BlockOutputs& out, PredictionTally& tally) {
+                         BlockOutputs& out, PredictionTally& tally, const UnitPass* units) {
   const auto n = static_cast<std::size_t>(rows);
   out.suitability.assign(n, kFloatNodata);
   const bool with_se = evaluator_.has_covariance();
@@ -78,9 +79,12 @@ void BlockPredictor::run(const Eigen::ArrayXXd& raw, const std::vector<std::uint
   }
 
   raw_ = &raw;
+  units_ = units && units->cover && units->cover->size() > 0 ? units : nullptr;
+  unit_cursor_ = 0;
   for (Eigen::Index first = 0; first < rows; first += kChunk)
     run_chunk(first, std::min(kChunk, rows - first), out, tally);
   raw_ = nullptr;
+  units_ = nullptr;
 }
 
 void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally) {
@@ -118,6 +122,37 @@ void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutpu
       out.lower[o] = to_output_off_nodata(prediction_.lower[i], tally.moved_off_nodata);
       out.upper[o] = to_output_off_nodata(prediction_.upper[i], tally.moved_off_nodata);
       if (certainty_.applies(prediction_.lower[i], prediction_.upper[i])) ++tally.low_certainty;
+    }
+  }
+  if (units_) add_to_units(first, rows, out);
+}
+
+void BlockPredictor::add_to_units(Eigen::Index first, Eigen::Index rows, const BlockOutputs& out) {
+  const BlockUnitCover& cover = *units_->cover;
+  const auto end = static_cast<std::uint32_t>(first + rows);
+  const Link link = evaluator_.link();
+  for (; unit_cursor_ < cover.size() && cover.pixel[unit_cursor_] < end; ++unit_cursor_) {
+    const std::size_t o = cover.pixel[unit_cursor_];
+    const double a = cover.area_ha[unit_cursor_];
+    UnitSums& u = units_->sums->at(cover.unit[unit_cursor_], *units_->slot_of);
+    u.area_ha += a;
+    if (!out.flags.empty() && out.flags[o] != flag::nodata) {
+      u.checked_area_ha += a;
+      if (out.flags[o] != 0) u.flagged_area_ha += a;
+      for (std::size_t k = 0; k < kUnitFlagBits.size(); ++k)
+        if (out.flags[o] & kUnitFlagBits[k]) u.cause_area_ha[k] += a;
+    }
+    if (out.suitability[o] == kFloatNodata) continue;
+    const Eigen::Index i = static_cast<Eigen::Index>(o) - first;
+    const double mu = prediction_.mu[i];
+    u.data_area_ha += a;
+    u.sum_mu += a * mu;
+    if (mu >= units_->threshold) u.above_area_ha += a;
+    if (units_->with_gradient) {
+      // d mu / d beta = (d mu / d eta) x: the row of the design matrix scaled by the link's slope.
+      if (u.sum_gradient.size() == 0) u.sum_gradient = Eigen::VectorXd::Zero(X_.cols());
+      const double w = a * link_inverse_derivative(link, prediction_.eta[i]);
+      u.sum_gradient += w * X_.row(i).transpose();
     }
   }
 }

@@ -13,6 +13,7 @@
 #include "core/model/model_values.hpp"
 #include "core/model/term_plan.hpp"
 #include "core/prediction/low_certainty.hpp"
+#include "core/prediction/unit_sums.hpp"
 
 namespace habcast {
 
@@ -58,15 +59,17 @@ class BlockPredictor {
                  const NoveltyModel* novelty = nullptr, const LowCertaintyRule* certainty = nullptr);
 
   /// `raw`: rows x covariates raw values (column per covariate), `valid`: 1 where every covariate
-  /// has data. Resizes and fills `out`; adds counts to `tally`.
+  /// has data. Resizes and fills `out`; adds counts to `tally`. With `units`, also adds each covered
+  /// pixel's area, prediction, gradient and flags to the sums of the units covering it.
   void run(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows, BlockOutputs& out,
-           PredictionTally& tally);
+           PredictionTally& tally, const UnitPass* units = nullptr);
 
   /// Pixels per evaluation chunk: bounds the design matrix to chunk x terms doubles.
   static constexpr Eigen::Index kChunk = 4096;
 
  private:
   void run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally);
+  void add_to_units(Eigen::Index first, Eigen::Index rows, const BlockOutputs& out);
 
   const ModelSpec& spec_;
   const TermPlan& plan_;
@@ -75,6 +78,8 @@ class BlockPredictor {
   LowCertaintyRule certainty_;
   const NoveltyModel* novelty_;
   const Eigen::ArrayXXd* raw_ = nullptr;
+  const UnitPass* units_ = nullptr;
+  std::size_t unit_cursor_ = 0;
   std::vector<std::uint8_t> predict_valid_;
   ModelValues values_;
   Eigen::MatrixXd X_;
