@@ -5,6 +5,7 @@
 #include <memory>
 
 #include "cli/commands.hpp"
+#include "cli/predict_scenarios.hpp"
 #include "core/base/error.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "predict/predict_run.hpp"
@@ -47,6 +48,7 @@ struct PredictArgs {
   long long max_memory_mib = 2048;
   std::vector<std::string> checks{"range", "hull", "pairs", "nt2", "mess"};
   bool no_novelty_rasters = false;
+  ScenarioArgs scenarios;
 };
 
 void apply_checks(PredictArgs& args) {
@@ -83,6 +85,9 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
   std::unique_ptr<Progress> progress = make_progress(args.options.progress, err, terminal);
 
   StopSignalGuard guard;
+  if (args.scenarios.any())
+    return run_predict_scenarios(args.options, args.scenarios, *progress, args.log_format == "json", args.quiet, out);
+  if (args.scenarios.threshold) throw UsageError("--threshold classifies a change: it needs --scenarios or --scenario");
   const PredictSummary summary = run_predict(args.options, *progress, HABCAST_VERSION);
   for (const std::string& w : summary.warnings) progress->message("warning", w);
 
@@ -110,7 +115,7 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
 void register_predict(CLI::App& app, CommandRegistry& registry) {
   auto args = std::make_shared<PredictArgs>();
   CLI::App* cmd = app.add_subcommand("predict", "Map a fitted model over covariate rasters");
-  cmd->footer(kPredictHelp);
+  cmd->footer(std::string(kPredictHelp) + kScenarioHelp);
   cmd->add_option("model", args->options.model_path, "Model file (TOML; see docs/model-format.md)")
       ->required()
       ->check(CLI::ExistingFile);
@@ -168,6 +173,13 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--log-format", args->log_format,
                   "text (default) or json: JSON lines of progress and warnings on stderr, report on stdout")
       ->check(CLI::IsMember({"text", "json"}));
+  cmd->add_option("--scenarios", args->scenarios.file, "FILE.toml: named scenarios, each replacing some covariates' rasters (docs/scenarios.md)")
+      ->check(CLI::ExistingFile);
+  cmd->add_option("--scenario", args->scenarios.inline_args,
+                  "NAME:COVARIATE=FILE: a scenario on the command line (repeatable; same NAME adds a covariate)");
+  cmd->add_option("--threshold", args->scenarios.threshold,
+                  "T: with scenarios, classify each pixel's change at suitability T (gain, loss, stable, not\n"
+                  "distinguishable) into change_class.tif");
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_predict_command(*args, out, err); });
 }
 

@@ -1,0 +1,462 @@
+#include "predict/scenario_run.hpp"
+
+#include <algorithm>
+#include <chrono>
+#include <filesystem>
+#include <map>
+#include <memory>
+#include <optional>
+#include <thread>
+
+#include "core/base/utc_time.hpp"
+#include "core/domain/novelty_model.hpp"
+#include "core/domain/training_domain.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/model/evaluator.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/output_precision.hpp"
+#include "core/model/term_plan.hpp"
+#include "core/prediction/block_predictor.hpp"
+#include "core/prediction/change_combiner.hpp"
+#include "pipeline/atomic_file.hpp"
+#include "pipeline/ordered_parallel.hpp"
+#include "pipeline/output_guard.hpp"
+#include "pipeline/resource_limits.hpp"
+#include "pipeline/stop_signal.hpp"
+#include "predict/prediction_folder.hpp"
+#include "predict/prediction_report.hpp"
+#include "predict/scenario_report.hpp"
+#include "raster/covariate_reader.hpp"
+#include "raster/gdal_session.hpp"
+#include "raster/output_raster.hpp"
+#include "raster/raster_grid.hpp"
+#include "raster/window.hpp"
+
+namespace habcast {
+
+namespace {
+
+namespace fs = std::filesystem;
+
+std::string covariate_list(const ModelSpec& spec) {
+  std::string s;
+  for (const Covariate& c : spec.covariates) s += (s.empty() ? "" : ", ") + c.name;
+  return s;
+}
+
+/// The baseline's raster per covariate: the -c override, else the model file's default.
+std::vector<CovariateInput> baseline_inputs(const ModelSpec& spec, const PredictOptions& options) {
+  for (const auto& [name, path] : options.covariate_rasters) {
+    (void)path;
+    if (spec.covariate_index(name) < 0)
+      throw UsageError("-c " + name + "=...: the model has no covariate \"" + name + "\"; its covariates are " +
+                       covariate_list(spec));
+  }
+  std::vector<CovariateInput> inputs;
+  for (const Covariate& c : spec.covariates) {
+    CovariateInput in{c.name, "", c.band};
+    if (auto it = options.covariate_rasters.find(c.name); it != options.covariate_rasters.end()) in.path = it->second;
+    else if (c.raster) in.path = *c.raster;
+    else
+      throw UsageError("covariate \"" + c.name + "\" has no baseline raster: pass -c " + c.name + "=FILE.tif, or set " +
+                       "raster = \"FILE.tif\" in [covariates." + c.name + "] of " + spec.path);
+    inputs.push_back(in);
+  }
+  return inputs;
+}
+
+/// A scenario's rasters: the baseline's, with the scenario's replacements.
+std::vector<CovariateInput> scenario_inputs(const ModelSpec& spec, const std::vector<CovariateInput>& baseline,
+                                            const Scenario& scenario) {
+  std::vector<CovariateInput> inputs = baseline;
+  for (const auto& [name, path] : scenario.rasters) {
+    const int c = spec.covariate_index(name);
+    if (c < 0)
+      throw InputError(scenario.source + ": scenario \"" + scenario.name + "\" replaces covariate \"" + name +
+                       "\", which the model does not have; its covariates are " + covariate_list(spec));
+    inputs[static_cast<std::size_t>(c)].path = path;
+  }
+  return inputs;
+}
+
+/// Distinct rasters read by the members: each is decoded once per window and shared.
+struct SourcePlan {
+  std::vector<CovariateInput> sources;
+  std::vector<std::vector<std::size_t>> member_sources;  ///< [member][covariate] -> source
+};
+
+SourcePlan plan_sources(const std::vector<std::vector<CovariateInput>>& members) {
+  SourcePlan plan;
+  std::map<std::pair<std::string, int>, std::size_t> index;
+  for (const auto& inputs : members) {
+    std::vector<std::size_t> mine;
+    for (const CovariateInput& in : inputs) {
+      const auto key = std::make_pair(fs::path(in.path).lexically_normal().string(), in.band);
+      auto it = index.find(key);
+      if (it == index.end()) {
+        it = index.emplace(key, plan.sources.size()).first;
+        plan.sources.push_back(in);
+      }
+      mine.push_back(it->second);
+    }
+    plan.member_sources.push_back(std::move(mine));
+  }
+  return plan;
+}
+
+RasterGrid check_sources_co_registered(const std::vector<CovariateInput>& sources) {
+  const RasterGrid reference = read_grid(sources.front().path, sources.front().band);
+  check_raster_size(sources.front().path, reference);
+  for (std::size_t i = 1; i < sources.size(); ++i)
+    check_same_grid(sources.front().path, reference, sources[i].path, read_grid(sources[i].path, sources[i].band));
+  return reference;
+}
+
+std::optional<double> chosen_threshold(const ScenarioRunOptions& options, std::string& source) {
+  const auto& file = options.scenarios.threshold;
+  if (options.threshold && file && *options.threshold != *file)
+    throw UsageError("two thresholds: --threshold " + format_value(*options.threshold) + " and threshold = " +
+                     format_value(*file) + " in " + options.scenarios.path + "; give one of them");
+  if (options.threshold) source = "--threshold";
+  else if (file) source = "scenario file " + options.scenarios.path;
+  const std::optional<double> t = options.threshold ? options.threshold : file;
+  if (t && !std::isfinite(*t)) throw UsageError("the threshold must be a finite number");
+  return t;
+}
+
+/// Per-worker state: one reader per distinct raster, one predictor per member, one change
+/// combiner per scenario, and scratch windows.
+struct Worker {
+  std::vector<CovariateReader> readers;
+  std::vector<std::unique_ptr<Evaluator>> evaluators;
+  std::vector<std::unique_ptr<BlockPredictor>> predictors;
+  std::vector<ChangeCombiner> combiners;
+  Eigen::ArrayXXd decoded;                          ///< window x sources
+  std::vector<std::vector<std::uint8_t>> source_valid;
+  std::vector<Eigen::ArrayXXd> raw;                 ///< per member: window x covariates
+  std::vector<std::vector<std::uint8_t>> valid;     ///< per member
+};
+
+struct BlockResult {
+  std::vector<BlockOutputs> members;
+  std::vector<PredictionTally> tallies;
+  std::vector<ChangeOutputs> changes;
+  std::vector<ChangeTally> change_tallies;
+};
+
+/// change.tif and change_class.tif of one scenario.
+struct ChangeRasters {
+  std::unique_ptr<OutputRaster> change;
+  std::unique_ptr<OutputRaster> classes;
+};
+
+std::vector<std::pair<std::string, std::string>> change_metadata(const ModelSpec& spec, const Scenario& s,
+                                                                  const std::string& version) {
+  std::vector<std::pair<std::string, std::string>> m{{"HABCAST_VERSION", version},
+                                                     {"HABCAST_MODEL", spec.path},
+                                                     {"HABCAST_SCENARIO", s.name}};
+  if (!s.description.empty()) m.emplace_back("HABCAST_SCENARIO_DESCRIPTION", s.description);
+  std::string replaced;
+  for (const auto& [c, path] : s.rasters) replaced += (replaced.empty() ? "" : "; ") + c + "=" + path;
+  m.emplace_back("HABCAST_SCENARIO_RASTERS", replaced);
+  m.emplace_back("HABCAST_CAUTION",
+                 "Model output, not ground truth. A change where either side is extrapolated (see change_class.tif "
+                 "and both extrapolation.tif) rests on the model beyond its training data.");
+  return m;
+}
+
+ChangeRasters create_change_rasters(const ScenarioRunOptions& options, const ModelSpec& spec, const Scenario& scenario,
+                                    const std::string& folder, const RasterGrid& grid, std::optional<double> threshold,
+                                    const std::string& version, int threads) {
+  const std::string change_path = (fs::path(folder) / "change.tif").string();
+  const std::string class_path = (fs::path(folder) / "change_class.tif").string();
+  std::vector<std::string> finals{change_path};
+  if (threshold) finals.push_back(class_path);
+  refuse_to_clobber(finals, options.predict.overwrite, ", or choose another output folder with -o");
+  std::vector<std::string> names;
+  for (const std::string& f : finals) names.push_back(fs::path(f).filename().string());
+  remove_stale_partials(folder, names);
+
+  const std::string units = spec.family == Family::binomial ? "probability" : spec.response;
+  char pct[32];
+  std::snprintf(pct, sizeof pct, "%g%%", options.predict.level * 100.0);
+  ChangeRasters r;
+  OutputSpec c;
+  c.final_path = change_path;
+  c.type = OutputType::float32;
+  c.nodata = kFloatNodata;
+  c.bands = {{"change of the prediction, scenario minus baseline (response scale)", units},
+             {"standard error of the change, sqrt((g_s-g_b)' V (g_s-g_b)) with g = d mu / d beta", units},
+             {std::string("lower ") + pct + " confidence limit of the change (normal approximation)", units},
+             {std::string("upper ") + pct + " confidence limit of the change (normal approximation)", units},
+             {"probability that the prediction fell, Phi(-change / se) (normal approximation)", "probability"}};
+  c.creation_options = options.predict.creation_options;
+  c.creation_options.insert(c.creation_options.begin(), "NUM_THREADS=" + std::to_string(threads));
+  c.metadata = change_metadata(spec, scenario, version);
+  c.metadata.emplace_back("HABCAST_CONFIDENCE_LEVEL", format_value(options.predict.level));
+  r.change = std::make_unique<OutputRaster>(c, grid);
+  if (threshold) {
+    OutputSpec k;
+    k.final_path = class_path;
+    k.type = OutputType::uint8;
+    k.nodata = change_class::nodata;
+    k.bands = {{"change class at the threshold; +16 baseline extrapolated, +32 scenario extrapolated", ""}};
+    k.creation_options = c.creation_options;
+    k.metadata = c.metadata;
+    k.metadata.emplace_back("HABCAST_THRESHOLD", format_value(*threshold));
+    k.metadata.emplace_back("HABCAST_CLASS_CODES",
+                            "1=stable unsuitable; 2=stable suitable; 3=gain; 4=loss; 5=crosses the threshold but the "
+                            "change's confidence interval includes zero (not distinguishable); +16 baseline pixel "
+                            "extrapolated; +32 scenario pixel extrapolated; 255=no data");
+    for (const auto& e : change_class::class_colour_table()) k.colours.push_back({e.value, e.r, e.g, e.b, e.a, e.label});
+    r.classes = std::make_unique<OutputRaster>(k, grid);
+  }
+  return r;
+}
+
+}  // namespace
+
+ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progress, const std::string& tool_version) {
+  const auto t0 = std::chrono::steady_clock::now();
+  const std::string started = utc_now();
+  const PredictOptions& po = options.predict;
+  check_prediction_options(po);
+  if (options.scenarios.scenarios.empty())
+    throw UsageError("no scenarios: give --scenarios FILE.toml or --scenario NAME:COVARIATE=FILE");
+  if (!po.quicklook_path.empty())
+    throw UsageError("--quicklook draws one prediction; with scenarios, draw a folder's suitability.tif afterwards");
+  if (po.max_extrapolated_percent)
+    throw UsageError("--max-extrapolated is not available with scenarios: the scenario report gives each "
+                     "scenario's extrapolated share (scenarios.json)");
+  std::string threshold_source;
+  const std::optional<double> threshold = chosen_threshold(options, threshold_source);
+  ensure_gdal();
+
+  // Everything that can be wrong with the inputs is found before any output is created.
+  const ModelSpec spec = read_model_file(po.model_path);
+  if (!spec.covariance)
+    throw InputError(located(spec.path, 0, "the change between scenarios needs the model's covariance matrix for its "
+                                           "uncertainty: add covariance = [[...]] to [coefficients]"));
+  const TermPlan plan(spec);
+  const std::vector<Scenario>& scenarios = options.scenarios.scenarios;
+  std::vector<std::vector<CovariateInput>> member_inputs{baseline_inputs(spec, po)};
+  for (const Scenario& s : scenarios) member_inputs.push_back(scenario_inputs(spec, member_inputs.front(), s));
+  const SourcePlan sources = plan_sources(member_inputs);
+  const RasterGrid grid = check_sources_co_registered(sources.sources);
+  std::optional<TrainingSamples> samples;
+  std::optional<TrainingDomain> domain;
+  std::optional<NoveltyModel> novelty;
+  if (spec.training_samples) {
+    samples = read_training_samples(spec);
+    domain.emplace(spec, *samples);
+    if (po.novelty.any()) novelty.emplace(spec, plan, *samples, po.novelty);
+  }
+
+  const std::size_t members = member_inputs.size();
+  const std::size_t k = spec.covariates.size();
+  const double quantum = po.max_error ? quantum_for_max_error(*po.max_error) : 0.0;
+  const int threads = po.threads > 0 ? po.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+  const std::vector<Window> windows = prediction_windows(grid, po.block_size);
+  std::int64_t largest_window = 0;
+  for (const Window& w : windows) largest_window = std::max(largest_window, w.pixels());
+  // Each member holds a window of covariates and its outputs, each scenario its change: counted
+  // as that many windows of predict.
+  check_working_memory(largest_window * static_cast<std::int64_t>(members + scenarios.size()),
+                       static_cast<std::int64_t>(k), plan.term_count(), threads, po.max_memory_bytes);
+
+  const double z = Evaluator(spec, po.level).z();
+  std::vector<std::unique_ptr<Worker>> workers;
+  for (int t = 0; t < threads; ++t) {
+    auto w = std::make_unique<Worker>();
+    for (const CovariateInput& in : sources.sources) w->readers.emplace_back(in.path, in.band);
+    for (std::size_t m = 0; m < members; ++m) {
+      w->evaluators.push_back(std::make_unique<Evaluator>(spec, po.level, quantum));
+      w->predictors.push_back(std::make_unique<BlockPredictor>(spec, plan, *w->evaluators.back(),
+                                                               domain ? &*domain : nullptr, novelty ? &*novelty : nullptr));
+    }
+    for (std::size_t s = 0; s < scenarios.size(); ++s) w->combiners.emplace_back(spec.link, *spec.covariance, z, threshold);
+    w->raw.resize(members);
+    w->valid.resize(members);
+    w->source_valid.resize(sources.sources.size());
+    workers.push_back(std::move(w));
+  }
+
+  // Folders: baseline/ and one per scenario, each exactly as predict writes it.
+  const fs::path top(po.output_dir);
+  std::vector<std::string> folders{(top / "baseline").string()};
+  for (const Scenario& s : scenarios) folders.push_back((top / s.name).string());
+  const std::string json_path = (top / "scenarios.json").string();
+  const std::string csv_path = (top / "scenarios.csv").string();
+  for (const std::string& f : folders) {
+    std::error_code ec;
+    fs::create_directories(f, ec);
+    if (ec || !fs::is_directory(f)) throw IoError(f + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
+  }
+  refuse_to_clobber({json_path, csv_path}, po.overwrite, ", or choose another output folder with -o");
+  std::vector<std::unique_ptr<PredictionFolder>> outputs;
+  for (std::size_t m = 0; m < members; ++m) {
+    PredictOptions mo = po;
+    mo.output_dir = folders[m];
+    outputs.push_back(std::make_unique<PredictionFolder>(mo, spec, grid, true, domain.has_value(),
+                                                         novelty ? &*novelty : nullptr, tool_version, threads));
+  }
+  std::vector<ChangeRasters> change_outputs;
+  for (std::size_t s = 0; s < scenarios.size(); ++s)
+    change_outputs.push_back(
+        create_change_rasters(options, spec, scenarios[s], folders[s + 1], grid, threshold, tool_version, threads));
+  std::vector<OutputRaster*> all_rasters;
+  for (auto& f : outputs)
+    for (OutputRaster* r : f->rasters()) all_rasters.push_back(r);
+  for (ChangeRasters& c : change_outputs) {
+    all_rasters.push_back(c.change.get());
+    if (c.classes) all_rasters.push_back(c.classes.get());
+  }
+
+  set_gdal_cache(po.gdal_cache_bytes > 0
+                     ? po.gdal_cache_bytes
+                     : prediction_cache_bytes(windows, sources.sources.size() + 6 * members + 6 * scenarios.size(),
+                                              static_cast<std::size_t>(threads)));
+  std::vector<PredictionTally> totals(members, PredictionTally(k));
+  std::vector<ChangeTally> change_totals(scenarios.size());
+  progress.start("scenarios", static_cast<std::int64_t>(windows.size()));
+
+  run_ordered<BlockResult>(
+      windows.size(), threads, 2 * static_cast<std::size_t>(threads),
+      [&](std::size_t item, int worker_index) {
+        Worker& wk = *workers[static_cast<std::size_t>(worker_index)];
+        const Window& w = windows[item];
+        const Eigen::Index n = static_cast<Eigen::Index>(w.pixels());
+        const auto un = static_cast<std::size_t>(n);
+        // Each distinct raster decoded once for all members.
+        wk.decoded.resize(n, static_cast<Eigen::Index>(sources.sources.size()));
+        for (std::size_t s = 0; s < sources.sources.size(); ++s) {
+          wk.source_valid[s].assign(un, 1);
+          wk.readers[s].read(w, wk.decoded.col(static_cast<Eigen::Index>(s)).data(), wk.source_valid[s].data());
+        }
+        BlockResult result;
+        result.members.resize(members);
+        result.tallies.assign(members, PredictionTally(k));
+        result.changes.resize(scenarios.size());
+        result.change_tallies.resize(scenarios.size());
+        for (std::size_t m = 0; m < members; ++m) {
+          wk.raw[m].resize(n, static_cast<Eigen::Index>(k));
+          wk.valid[m].assign(un, 1);
+          for (std::size_t c = 0; c < k; ++c) {
+            const std::size_t s = sources.member_sources[m][c];
+            wk.raw[m].col(static_cast<Eigen::Index>(c)) = wk.decoded.col(static_cast<Eigen::Index>(s));
+            for (std::size_t i = 0; i < un; ++i) wk.valid[m][i] &= wk.source_valid[s][i];
+          }
+          wk.predictors[m]->begin(wk.raw[m], wk.valid[m], n, result.members[m], result.tallies[m]);
+        }
+        for (std::size_t s = 0; s < scenarios.size(); ++s) wk.combiners[s].begin(n, result.changes[s]);
+        // Members walk the window chunk by chunk together, so the combiners read every member's
+        // design matrix and linear predictor of a chunk while they are in cache.
+        for (Eigen::Index first = 0; first < n; first += BlockPredictor::kChunk) {
+          const Eigen::Index rows = std::min(BlockPredictor::kChunk, n - first);
+          for (std::size_t m = 0; m < members; ++m)
+            wk.predictors[m]->chunk(first, rows, result.members[m], result.tallies[m]);
+          for (std::size_t s = 0; s < scenarios.size(); ++s)
+            wk.combiners[s].chunk(first, rows, *wk.predictors[0], *wk.predictors[s + 1], result.members[0].flags,
+                                  result.members[s + 1].flags, result.changes[s], result.change_tallies[s]);
+        }
+        for (std::size_t m = 0; m < members; ++m) wk.predictors[m]->end();
+        return result;
+      },
+      [&](std::size_t item, BlockResult& result) {
+        const Window& w = windows[item];
+        for (std::size_t m = 0; m < members; ++m) {
+          outputs[m]->write(w, result.members[m]);
+          totals[m].merge(result.tallies[m]);
+        }
+        for (std::size_t s = 0; s < scenarios.size(); ++s) {
+          const ChangeOutputs& c = result.changes[s];
+          OutputRaster& r = *change_outputs[s].change;
+          r.write(1, w, c.change.data());
+          r.write(2, w, c.se.data());
+          r.write(3, w, c.lower.data());
+          r.write(4, w, c.upper.data());
+          r.write(5, w, c.p_decline.data());
+          r.flush_completed_blocks(w);
+          if (change_outputs[s].classes) {
+            change_outputs[s].classes->write(1, w, c.classes.data());
+            change_outputs[s].classes->flush_completed_blocks(w);
+          }
+          change_totals[s].merge(result.change_tallies[s]);
+        }
+        progress.advance(static_cast<std::int64_t>(item + 1));
+      },
+      [] { return stop_signal() != 0; });
+  throw_if_stopped();
+  progress.finish();
+
+  for (OutputRaster* r : all_rasters) {
+    if (po.overviews) r->build_overviews();
+    throw_if_stopped();
+    r->close();
+  }
+  // Rename only when every raster of every folder is complete: a run leaves all or nothing.
+  for (OutputRaster* r : all_rasters) r->commit();
+
+  ScenarioSummary summary;
+  const double elapsed = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  // Each folder's report.json, as predict writes it, for that folder's stack.
+  for (std::size_t m = 0; m < members; ++m) {
+    ReportContext ctx;
+    ctx.tool_version = tool_version;
+    ctx.spec = &spec;
+    ctx.domain = domain ? &*domain : nullptr;
+    ctx.novelty = novelty ? &*novelty : nullptr;
+    ctx.inputs = member_inputs[m];
+    ctx.grid = grid;
+    ctx.level = po.level;
+    ctx.threads = threads;
+    for (OutputRaster* r : outputs[m]->rasters())
+      ctx.outputs.emplace_back(fs::path(r->final_path()).stem().string(), r->final_path());
+    if (m > 0) {
+      ctx.outputs.emplace_back("change", change_outputs[m - 1].change->final_path());
+      if (change_outputs[m - 1].classes) ctx.outputs.emplace_back("change_class", change_outputs[m - 1].classes->final_path());
+    }
+    ctx.outputs.emplace_back("report", outputs[m]->report_path());
+    ctx.tally = &totals[m];
+    ctx.started_utc = started;
+    ctx.elapsed_seconds = elapsed;
+    const std::vector<std::string> warnings = prediction_warnings(ctx);
+    nlohmann::ordered_json report = prediction_report(ctx, warnings);
+    report["scenario"] = m == 0 ? "baseline" : scenarios[m - 1].name;
+    report["exit_code"] = 0;
+    write_file_atomically(outputs[m]->report_path(), report.dump(2) + "\n");
+    for (const auto& [role, path] : ctx.outputs) {
+      (void)role;
+      summary.outputs.push_back(path);
+    }
+  }
+
+  ScenarioReportContext sc;
+  sc.tool_version = tool_version;
+  sc.spec = &spec;
+  sc.with_domain = domain.has_value();
+  sc.grid = grid;
+  sc.level = po.level;
+  sc.threshold = threshold;
+  sc.threshold_source = threshold_source;
+  sc.scenarios = &options.scenarios;
+  sc.baseline = &totals[0];
+  sc.baseline_folder = folders[0];
+  for (std::size_t s = 0; s < scenarios.size(); ++s) {
+    sc.tallies.push_back(&totals[s + 1]);
+    sc.changes.push_back(&change_totals[s]);
+    sc.folders.push_back(folders[s + 1]);
+  }
+  sc.outputs = {{"report", json_path}, {"table", csv_path}};
+  sc.started_utc = started;
+  sc.elapsed_seconds = elapsed;
+  summary.warnings = scenario_warnings(sc);
+  summary.report = scenario_report(sc, summary.warnings);
+  write_file_atomically(csv_path, scenario_csv(sc));
+  write_file_atomically(json_path, summary.report.dump(2) + "\n");
+  summary.outputs.push_back(csv_path);
+  summary.outputs.push_back(json_path);
+  return summary;
+}
+
+}  // namespace habcast
