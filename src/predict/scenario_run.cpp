@@ -3,7 +3,6 @@
 #include <algorithm>
 #include <chrono>
 #include <filesystem>
-#include <map>
 #include <memory>
 #include <optional>
 #include <thread>
@@ -24,9 +23,9 @@
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "predict/prediction_folder.hpp"
+#include "predict/prediction_members.hpp"
 #include "predict/prediction_report.hpp"
 #include "predict/scenario_report.hpp"
-#include "raster/covariate_reader.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/output_raster.hpp"
 #include "raster/raster_grid.hpp"
@@ -79,39 +78,6 @@ std::vector<CovariateInput> scenario_inputs(const ModelSpec& spec, const std::ve
   return inputs;
 }
 
-/// Distinct rasters read by the members: each is decoded once per window and shared.
-struct SourcePlan {
-  std::vector<CovariateInput> sources;
-  std::vector<std::vector<std::size_t>> member_sources;  ///< [member][covariate] -> source
-};
-
-SourcePlan plan_sources(const std::vector<std::vector<CovariateInput>>& members) {
-  SourcePlan plan;
-  std::map<std::pair<std::string, int>, std::size_t> index;
-  for (const auto& inputs : members) {
-    std::vector<std::size_t> mine;
-    for (const CovariateInput& in : inputs) {
-      const auto key = std::make_pair(fs::path(in.path).lexically_normal().string(), in.band);
-      auto it = index.find(key);
-      if (it == index.end()) {
-        it = index.emplace(key, plan.sources.size()).first;
-        plan.sources.push_back(in);
-      }
-      mine.push_back(it->second);
-    }
-    plan.member_sources.push_back(std::move(mine));
-  }
-  return plan;
-}
-
-RasterGrid check_sources_co_registered(const std::vector<CovariateInput>& sources) {
-  const RasterGrid reference = read_grid(sources.front().path, sources.front().band);
-  check_raster_size(sources.front().path, reference);
-  for (std::size_t i = 1; i < sources.size(); ++i)
-    check_same_grid(sources.front().path, reference, sources[i].path, read_grid(sources[i].path, sources[i].band));
-  return reference;
-}
-
 std::optional<double> chosen_threshold(const ScenarioRunOptions& options, std::string& source) {
   const auto& file = options.scenarios.threshold;
   if (options.threshold && file && *options.threshold != *file)
@@ -124,17 +90,9 @@ std::optional<double> chosen_threshold(const ScenarioRunOptions& options, std::s
   return t;
 }
 
-/// Per-worker state: one reader per distinct raster, one predictor per member, one change
-/// combiner per scenario, and scratch windows.
 struct Worker {
-  std::vector<CovariateReader> readers;
-  std::vector<std::unique_ptr<Evaluator>> evaluators;
-  std::vector<std::unique_ptr<BlockPredictor>> predictors;
-  std::vector<ChangeCombiner> combiners;
-  Eigen::ArrayXXd decoded;                          ///< window x sources
-  std::vector<std::vector<std::uint8_t>> source_valid;
-  std::vector<Eigen::ArrayXXd> raw;                 ///< per member: window x covariates
-  std::vector<std::vector<std::uint8_t>> valid;     ///< per member
+  std::unique_ptr<MemberWindow> members;
+  std::vector<ChangeCombiner> combiners;  ///< one per scenario
 };
 
 struct BlockResult {
@@ -241,8 +199,10 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
   const std::vector<Scenario>& scenarios = options.scenarios.scenarios;
   std::vector<std::vector<CovariateInput>> member_inputs{baseline_inputs(spec, po)};
   for (const Scenario& s : scenarios) member_inputs.push_back(scenario_inputs(spec, member_inputs.front(), s));
-  const SourcePlan sources = plan_sources(member_inputs);
-  const RasterGrid grid = check_sources_co_registered(sources.sources);
+  std::vector<PredictionMember> member_list;
+  for (const auto& inputs : member_inputs) member_list.push_back({&spec, &plan, nullptr, nullptr, inputs});
+  const MemberSources sources(member_list);
+  const RasterGrid grid = sources.check_co_registered();
   std::optional<TrainingSamples> samples;
   std::optional<TrainingDomain> domain;
   std::optional<NoveltyModel> novelty;
@@ -252,6 +212,10 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
     if (po.novelty.any()) novelty.emplace(spec, plan, *samples, po.novelty);
   }
 
+  for (PredictionMember& m : member_list) {
+    m.domain = domain ? &*domain : nullptr;
+    m.novelty = novelty ? &*novelty : nullptr;
+  }
   const std::size_t members = member_inputs.size();
   const std::size_t k = spec.covariates.size();
   const double quantum = po.max_error ? quantum_for_max_error(*po.max_error) : 0.0;
@@ -268,16 +232,8 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
   std::vector<std::unique_ptr<Worker>> workers;
   for (int t = 0; t < threads; ++t) {
     auto w = std::make_unique<Worker>();
-    for (const CovariateInput& in : sources.sources) w->readers.emplace_back(in.path, in.band);
-    for (std::size_t m = 0; m < members; ++m) {
-      w->evaluators.push_back(std::make_unique<Evaluator>(spec, po.level, quantum));
-      w->predictors.push_back(std::make_unique<BlockPredictor>(spec, plan, *w->evaluators.back(),
-                                                               domain ? &*domain : nullptr, novelty ? &*novelty : nullptr));
-    }
+    w->members = std::make_unique<MemberWindow>(member_list, sources, po.level, quantum);
     for (std::size_t s = 0; s < scenarios.size(); ++s) w->combiners.emplace_back(spec.link, *spec.covariance, z, threshold);
-    w->raw.resize(members);
-    w->valid.resize(members);
-    w->source_valid.resize(sources.sources.size());
     workers.push_back(std::move(w));
   }
 
@@ -326,40 +282,16 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
         Worker& wk = *workers[static_cast<std::size_t>(worker_index)];
         const Window& w = windows[item];
         const Eigen::Index n = static_cast<Eigen::Index>(w.pixels());
-        const auto un = static_cast<std::size_t>(n);
-        // Each distinct raster decoded once for all members.
-        wk.decoded.resize(n, static_cast<Eigen::Index>(sources.sources.size()));
-        for (std::size_t s = 0; s < sources.sources.size(); ++s) {
-          wk.source_valid[s].assign(un, 1);
-          wk.readers[s].read(w, wk.decoded.col(static_cast<Eigen::Index>(s)).data(), wk.source_valid[s].data());
-        }
         BlockResult result;
-        result.members.resize(members);
-        result.tallies.assign(members, PredictionTally(k));
         result.changes.resize(scenarios.size());
         result.change_tallies.resize(scenarios.size());
-        for (std::size_t m = 0; m < members; ++m) {
-          wk.raw[m].resize(n, static_cast<Eigen::Index>(k));
-          wk.valid[m].assign(un, 1);
-          for (std::size_t c = 0; c < k; ++c) {
-            const std::size_t s = sources.member_sources[m][c];
-            wk.raw[m].col(static_cast<Eigen::Index>(c)) = wk.decoded.col(static_cast<Eigen::Index>(s));
-            for (std::size_t i = 0; i < un; ++i) wk.valid[m][i] &= wk.source_valid[s][i];
-          }
-          wk.predictors[m]->begin(wk.raw[m], wk.valid[m], n, result.members[m], result.tallies[m]);
-        }
         for (std::size_t s = 0; s < scenarios.size(); ++s) wk.combiners[s].begin(n, result.changes[s]);
-        // Members walk the window chunk by chunk together, so the combiners read every member's
-        // design matrix and linear predictor of a chunk while they are in cache.
-        for (Eigen::Index first = 0; first < n; first += BlockPredictor::kChunk) {
-          const Eigen::Index rows = std::min(BlockPredictor::kChunk, n - first);
-          for (std::size_t m = 0; m < members; ++m)
-            wk.predictors[m]->chunk(first, rows, result.members[m], result.tallies[m]);
+        wk.members->run(w, result.members, result.tallies, [&](Eigen::Index first, Eigen::Index rows) {
           for (std::size_t s = 0; s < scenarios.size(); ++s)
-            wk.combiners[s].chunk(first, rows, *wk.predictors[0], *wk.predictors[s + 1], result.members[0].flags,
-                                  result.members[s + 1].flags, result.changes[s], result.change_tallies[s]);
-        }
-        for (std::size_t m = 0; m < members; ++m) wk.predictors[m]->end();
+            wk.combiners[s].chunk(first, rows, wk.members->predictor(0), wk.members->predictor(s + 1),
+                                  result.members[0].flags, result.members[s + 1].flags, result.changes[s],
+                                  result.change_tallies[s]);
+        });
         return result;
       },
       [&](std::size_t item, BlockResult& result) {
