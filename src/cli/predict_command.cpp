@@ -5,6 +5,7 @@
 #include <memory>
 
 #include "cli/commands.hpp"
+#include "cli/predict_model_set.hpp"
 #include "cli/predict_scenarios.hpp"
 #include "core/base/error.hpp"
 #include "pipeline/stop_signal.hpp"
@@ -49,6 +50,8 @@ struct PredictArgs {
   std::vector<std::string> checks{"range", "hull", "pairs", "nt2", "mess"};
   bool no_novelty_rasters = false;
   ScenarioArgs scenarios;
+  std::vector<std::string> models;  ///< one model, or a model set
+  ModelSetArgs model_set;
 };
 
 void apply_checks(PredictArgs& args) {
@@ -85,6 +88,14 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
   std::unique_ptr<Progress> progress = make_progress(args.options.progress, err, terminal);
 
   StopSignalGuard guard;
+  args.options.model_path = args.models.front();
+  if (args.models.size() > 1 && args.scenarios.any())
+    throw UsageError("a model set under scenarios is not available yet: run the set once per stack with -c, or the "
+                     "scenarios once per model");
+  if (args.models.size() > 1)
+    return run_predict_model_set(args.options, args.models, args.model_set, *progress, args.log_format == "json",
+                                 args.quiet, out);
+  if (!args.model_set.weights.empty()) throw UsageError("--weights weighs the models of a set: give two or more model files");
   if (args.scenarios.any())
     return run_predict_scenarios(args.options, args.scenarios, *progress, args.log_format == "json", args.quiet, out);
   if (args.scenarios.threshold) throw UsageError("--threshold classifies a change: it needs --scenarios or --scenario");
@@ -115,8 +126,8 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
 void register_predict(CLI::App& app, CommandRegistry& registry) {
   auto args = std::make_shared<PredictArgs>();
   CLI::App* cmd = app.add_subcommand("predict", "Map a fitted model over covariate rasters");
-  cmd->footer(std::string(kPredictHelp) + kScenarioHelp);
-  cmd->add_option("model", args->options.model_path, "Model file (TOML; see docs/model-format.md)")
+  cmd->footer(std::string(kPredictHelp) + kScenarioHelp + kModelSetHelp);
+  cmd->add_option("model", args->models, "Model file (TOML; see docs/model-format.md); two or more: a model set, averaged")
       ->required()
       ->check(CLI::ExistingFile);
   cmd->add_option("-c,--covariate", args->covariates,
@@ -180,6 +191,13 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--threshold", args->scenarios.threshold,
                   "T: with scenarios, classify each pixel's change at suitability T (gain, loss, stable, not\n"
                   "distinguishable) into change_class.tif");
+  cmd->add_option("--weights", args->model_set.weights,
+                  "W1,W2,...: weights of a model set's models, in order (normalised); default: Akaike weights")
+      ->delimiter(',');
+  cmd->add_option("--average-se", args->model_set.se_form,
+                  "Unconditional SE of a model set: revised (default), sqrt(sum w (se^2 + d^2)), or 2002,\n"
+                  "sum w sqrt(se^2 + d^2), with d the model's departure from the average (Burnham & Anderson 2002)")
+      ->check(CLI::IsMember({"revised", "2002"}));
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_predict_command(*args, out, err); });
 }
 
