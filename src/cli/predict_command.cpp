@@ -98,7 +98,7 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
   if (!args.model_set.weights.empty()) throw UsageError("--weights weighs the models of a set: give two or more model files");
   if (args.scenarios.any())
     return run_predict_scenarios(args.options, args.scenarios, *progress, args.log_format == "json", args.quiet, out);
-  if (args.scenarios.threshold) throw UsageError("--threshold classifies a change: it needs --scenarios or --scenario");
+  if (args.scenarios.threshold || !args.scenarios.threshold_from.empty()) throw UsageError("--threshold classifies a change: it needs --scenarios or --scenario");
   const PredictSummary summary = run_predict(args.options, *progress, HABCAST_VERSION);
   for (const std::string& w : summary.warnings) progress->message("warning", w);
 
@@ -191,6 +191,10 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--threshold", args->scenarios.threshold,
                   "T: with scenarios, classify each pixel's change at suitability T (gain, loss, stable, not\n"
                   "distinguishable) into change_class.tif");
+  cmd->add_option("--threshold-from", args->scenarios.threshold_from,
+                  "FILE: with scenarios, the threshold habcast evaluate recorded (its --json output, or the\n"
+                  "binary map of --write-binary)")
+      ->check(CLI::ExistingFile);
   cmd->add_option("--weights", args->model_set.weights,
                   "W1,W2,...: weights of a model set's models, in order (normalised); default: Akaike weights")
       ->delimiter(',');

@@ -19,6 +19,8 @@ const char* const kScenarioHelp =
     "  change_class.tif   with --threshold: 1 stable unsuitable, 2 stable suitable, 3 gain, 4 loss,\n"
     "                     5 not distinguishable; +16 baseline extrapolated, +32 scenario extrapolated\n"
     "and scenarios.json, scenarios.csv at the top (areas, shares, extrapolation per cause).\n"
+    "--threshold-from eval.json (habcast evaluate --json) or binary.tif (--write-binary) takes the\n"
+    "threshold evaluate recorded.\n"
     "  habcast predict model.toml --scenarios futures.toml --threshold 0.42 -o out/\n"
     "  habcast predict model.toml --scenario warm:tmin=tmin_2050.tif --scenario warm:precip=p_2050.tif -o out/";
 
@@ -30,6 +32,7 @@ int run_predict_scenarios(const PredictOptions& options, const ScenarioArgs& arg
   ScenarioRunOptions o;
   o.predict = options;
   o.threshold = args.threshold;
+  o.threshold_from = args.threshold_from;
   if (!args.file.empty()) o.scenarios = read_scenario_file(args.file);
   add_scenario_arguments(args.inline_args, o.scenarios);
   const ScenarioSummary summary = run_scenarios(o, progress, HABCAST_VERSION);

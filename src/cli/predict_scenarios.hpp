@@ -15,6 +15,7 @@ struct ScenarioArgs {
   std::string file;                     ///< --scenarios
   std::vector<std::string> inline_args;  ///< --scenario, repeatable
   std::optional<double> threshold;      ///< --threshold
+  std::string threshold_from;           ///< --threshold-from
   [[nodiscard]] bool any() const { return !file.empty() || !inline_args.empty(); }
 };
 

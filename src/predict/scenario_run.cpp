@@ -25,6 +25,7 @@
 #include "predict/prediction_folder.hpp"
 #include "predict/prediction_members.hpp"
 #include "predict/prediction_report.hpp"
+#include "predict/recorded_threshold.hpp"
 #include "predict/scenario_report.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/output_raster.hpp"
@@ -78,16 +79,24 @@ std::vector<CovariateInput> scenario_inputs(const ModelSpec& spec, const std::ve
   return inputs;
 }
 
+/// The threshold of the classes: --threshold, --threshold-from or the scenario file's; two that
+/// differ are ambiguous and refused, naming both.
 std::optional<double> chosen_threshold(const ScenarioRunOptions& options, std::string& source) {
-  const auto& file = options.scenarios.threshold;
-  if (options.threshold && file && *options.threshold != *file)
-    throw UsageError("two thresholds: --threshold " + format_value(*options.threshold) + " and threshold = " +
-                     format_value(*file) + " in " + options.scenarios.path + "; give one of them");
-  if (options.threshold) source = "--threshold";
-  else if (file) source = "scenario file " + options.scenarios.path;
-  const std::optional<double> t = options.threshold ? options.threshold : file;
-  if (t && !std::isfinite(*t)) throw UsageError("the threshold must be a finite number");
-  return t;
+  std::vector<std::pair<double, std::string>> given;
+  if (options.threshold) given.emplace_back(*options.threshold, "--threshold");
+  if (!options.threshold_from.empty()) {
+    const RecordedThreshold r = read_recorded_threshold(options.threshold_from);
+    given.emplace_back(r.value, r.rule);
+  }
+  if (options.scenarios.threshold) given.emplace_back(*options.scenarios.threshold, "scenario file " + options.scenarios.path);
+  if (given.empty()) return std::nullopt;
+  for (const auto& [value, from] : given)
+    if (value != given.front().first)
+      throw UsageError("two thresholds: " + format_value(given.front().first) + " (" + given.front().second + ") and " +
+                       format_value(value) + " (" + from + "); give one of them");
+  if (!std::isfinite(given.front().first)) throw UsageError("the threshold must be a finite number");
+  source = given.front().second;
+  return given.front().first;
 }
 
 struct Worker {

@@ -20,6 +20,7 @@ struct ScenarioRunOptions {
   PredictOptions predict;             ///< the model, the baseline's -c overrides, the output folder, ...
   ScenarioSet scenarios;
   std::optional<double> threshold;    ///< --threshold (the scenario file may also set one)
+  std::string threshold_from;         ///< --threshold-from: evaluate's JSON or binary map, or empty
 };
 
 struct ScenarioSummary {

@@ -10,6 +10,7 @@
 #include <string>
 #include <vector>
 
+#include "raster_test_support.hpp"
 #include "test_support.hpp"
 
 namespace {
@@ -267,4 +268,39 @@ TEST_CASE("scenarios given on the command line equal the same scenarios from a f
         habcast::test::read_band(inline_args.out + "/warm/change.tif", 2));
   CHECK(habcast::test::read_band(file.out + "/warm/change_class.tif", 1) ==
         habcast::test::read_band(inline_args.out + "/warm/change_class.tif", 1));
+}
+
+TEST_CASE("the classes' threshold can come from what evaluate recorded", "[scenarios][threshold]") {
+  Scene scene;
+  SECTION("evaluate's JSON with a binary map: that map's threshold") {
+    habcast::test::write_text(scene.dir.file("eval.json"),
+                              R"({"max_tss": {"threshold": 0.31}, "binary_map": {"threshold": 0.3, "file": "b.tif"}})");
+    REQUIRE(scene.run({"--threshold-from", scene.dir.file("eval.json")}) == 0);
+    const auto report = nlohmann::json::parse(habcast::test::read_text(scene.out + "/scenarios.json"));
+    CHECK(report["threshold"]["value"] == 0.3);
+    CHECK_THAT(report["threshold"]["source"].get<std::string>(), Contains("binary map"));
+  }
+  SECTION("evaluate's JSON with only the max-TSS threshold") {
+    habcast::test::write_text(scene.dir.file("eval.json"), R"({"max_tss": {"threshold": 0.25}})");
+    REQUIRE(scene.run({"--threshold-from", scene.dir.file("eval.json")}) == 0);
+    const auto report = nlohmann::json::parse(habcast::test::read_text(scene.out + "/scenarios.json"));
+    CHECK(report["threshold"]["value"] == 0.25);
+  }
+  SECTION("a report with two different thresholds and no map is ambiguous: both are named") {
+    habcast::test::write_text(scene.dir.file("eval.json"),
+                              R"({"max_tss": {"threshold": 0.25}, "at_threshold": {"threshold": 0.4}})");
+    std::string err;
+    CHECK(scene.run({"--threshold-from", scene.dir.file("eval.json")}, &err) == 2);
+    CHECK_THAT(err, Contains("0.25"));
+    CHECK_THAT(err, Contains("0.4"));
+  }
+  SECTION("a binary map written by evaluate: HABCAST_THRESHOLD of its metadata") {
+    // Tagged with GDAL itself, as evaluate's binary map is.
+    const std::vector<std::uint8_t> ones(static_cast<std::size_t>(kWidth * kHeight), 1);
+    habcast::test::write_geotiff(scene.dir.file("binary.tif"), habcast::test::utm_grid(kWidth, kHeight), GDT_Byte, ones,
+                                 [](GDALDataset& ds) { ds.SetMetadataItem("HABCAST_THRESHOLD", "0.3"); });
+    REQUIRE(scene.run({"--threshold-from", scene.dir.file("binary.tif")}) == 0);
+    const auto report = nlohmann::json::parse(habcast::test::read_text(scene.out + "/scenarios.json"));
+    CHECK(report["threshold"]["value"] == 0.3);
+  }
 }
