@@ -27,6 +27,7 @@
 #include "predict/prediction_report.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/output_raster.hpp"
+#include "render/figure_file.hpp"
 #include "render/quicklook.hpp"
 
 namespace habcast {
@@ -273,6 +274,7 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
                        models[m].novelty ? &*models[m].novelty : nullptr, inputs[m]});
   const MemberSources sources(members);
   const RasterGrid grid = sources.check_co_registered();
+  if (!po.quicklook_path.empty()) figure_format(po.quicklook_path);  // .png, .pdf or .svg, checked before the run
   if (!po.quicklook_path.empty()) refuse_to_clobber({po.quicklook_path}, po.overwrite, ", or choose another --quicklook path");
 
   const int threads = po.threads > 0 ? po.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
@@ -344,8 +346,10 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
   std::vector<std::string> warnings;
   if (!po.quicklook_path.empty()) {
     try {
-      write_quicklook(out.suitability->final_path(), out.extrapolation ? out.extrapolation->final_path() : "",
-                      po.quicklook_path, "habcast model set (" + std::to_string(models.size()) + " models)");
+      const Figure quicklook = quicklook_figure(out.suitability->final_path(),
+                                                out.extrapolation ? out.extrapolation->final_path() : "",
+                                                "habcast model set (" + std::to_string(models.size()) + " models)");
+      write_file_atomically(po.quicklook_path, encode_figure(quicklook, po.quicklook_path));
     } catch (const Error& e) {
       warnings.push_back(std::string("no quicklook was written: ") + e.what());
     }
