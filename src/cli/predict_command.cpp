@@ -195,6 +195,9 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
                   "FILE: with scenarios, the threshold habcast evaluate recorded (its --json output, or the\n"
                   "binary map of --write-binary)")
       ->check(CLI::ExistingFile);
+  cmd->add_option("--change-quicklook", args->scenarios.change_quicklook,
+                  "png, svg or pdf: with scenarios and a threshold, draw change_class.EXT in each scenario's folder")
+      ->check(CLI::IsMember({"png", "svg", "pdf"}));
   cmd->add_option("--weights", args->model_set.weights,
                   "W1,W2,...: weights of a model set's models, in order (normalised); default: Akaike weights")
       ->delimiter(',');

@@ -20,7 +20,7 @@ const char* const kScenarioHelp =
     "                     5 not distinguishable; +16 baseline extrapolated, +32 scenario extrapolated\n"
     "and scenarios.json, scenarios.csv at the top (areas, shares, extrapolation per cause).\n"
     "--threshold-from eval.json (habcast evaluate --json) or binary.tif (--write-binary) takes the\n"
-    "threshold evaluate recorded.\n"
+    "threshold evaluate recorded. --change-quicklook png|svg|pdf draws each scenario's classes.\n"
     "  habcast predict model.toml --scenarios futures.toml --threshold 0.42 -o out/\n"
     "  habcast predict model.toml --scenario warm:tmin=tmin_2050.tif --scenario warm:precip=p_2050.tif -o out/";
 
@@ -33,6 +33,7 @@ int run_predict_scenarios(const PredictOptions& options, const ScenarioArgs& arg
   o.predict = options;
   o.threshold = args.threshold;
   o.threshold_from = args.threshold_from;
+  o.change_quicklook = args.change_quicklook;
   if (!args.file.empty()) o.scenarios = read_scenario_file(args.file);
   add_scenario_arguments(args.inline_args, o.scenarios);
   const ScenarioSummary summary = run_scenarios(o, progress, HABCAST_VERSION);

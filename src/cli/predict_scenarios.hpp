@@ -16,6 +16,7 @@ struct ScenarioArgs {
   std::vector<std::string> inline_args;  ///< --scenario, repeatable
   std::optional<double> threshold;      ///< --threshold
   std::string threshold_from;           ///< --threshold-from
+  std::string change_quicklook;         ///< --change-quicklook
   [[nodiscard]] bool any() const { return !file.empty() || !inline_args.empty(); }
 };
 

@@ -31,6 +31,8 @@
 #include "raster/output_raster.hpp"
 #include "raster/raster_grid.hpp"
 #include "raster/window.hpp"
+#include "render/change_class_figure.hpp"
+#include "render/figure_file.hpp"
 
 namespace habcast {
 
@@ -197,6 +199,11 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
                      "scenario's extrapolated share (scenarios.json)");
   std::string threshold_source;
   const std::optional<double> threshold = chosen_threshold(options, threshold_source);
+  const std::string& ql = options.change_quicklook;
+  if (!ql.empty() && ql != "png" && ql != "svg" && ql != "pdf")
+    throw UsageError("--change-quicklook takes png, svg or pdf, got \"" + ql + "\"");
+  if (!ql.empty() && !threshold)
+    throw UsageError("--change-quicklook draws the change classes, which need a threshold: add --threshold or --threshold-from");
   ensure_gdal();
 
   // Everything that can be wrong with the inputs is found before any output is created.
@@ -257,7 +264,10 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
     fs::create_directories(f, ec);
     if (ec || !fs::is_directory(f)) throw IoError(f + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
   }
-  refuse_to_clobber({json_path, csv_path}, po.overwrite, ", or choose another output folder with -o");
+  std::vector<std::string> top_files{json_path, csv_path};
+  if (!ql.empty())
+    for (std::size_t s = 0; s < scenarios.size(); ++s) top_files.push_back((fs::path(folders[s + 1]) / ("change_class." + ql)).string());
+  refuse_to_clobber(top_files, po.overwrite, ", or choose another output folder with -o");
   std::vector<std::unique_ptr<PredictionFolder>> outputs;
   for (std::size_t m = 0; m < members; ++m) {
     PredictOptions mo = po;
@@ -339,6 +349,22 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
   for (OutputRaster* r : all_rasters) r->commit();
 
   ScenarioSummary summary;
+  // The pictures are a convenience: if one cannot be drawn, the committed rasters still stand.
+  std::vector<std::string> picture_problems;
+  if (!ql.empty()) {
+    for (std::size_t s = 0; s < scenarios.size(); ++s) {
+      const std::string path = (fs::path(folders[s + 1]) / ("change_class." + ql)).string();
+      try {
+        const Figure f = change_class_figure(change_outputs[s].classes->final_path(),
+                                             "Scenario " + scenarios[s].name + " against the baseline",
+                                             "at suitability " + format_value(*threshold));
+        write_file_atomically(path, encode_figure(f, path));
+        summary.outputs.push_back(path);
+      } catch (const Error& e) {
+        picture_problems.push_back("no change quicklook for scenario " + scenarios[s].name + ": " + e.what());
+      }
+    }
+  }
   const double elapsed = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   // Each folder's report.json, as predict writes it, for that folder's stack.
   for (std::size_t m = 0; m < members; ++m) {
@@ -392,6 +418,7 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
   sc.started_utc = started;
   sc.elapsed_seconds = elapsed;
   summary.warnings = scenario_warnings(sc);
+  summary.warnings.insert(summary.warnings.end(), picture_problems.begin(), picture_problems.end());
   summary.report = scenario_report(sc, summary.warnings);
   write_file_atomically(csv_path, scenario_csv(sc));
   write_file_atomically(json_path, summary.report.dump(2) + "\n");

@@ -21,6 +21,7 @@ struct ScenarioRunOptions {
   ScenarioSet scenarios;
   std::optional<double> threshold;    ///< --threshold (the scenario file may also set one)
   std::string threshold_from;         ///< --threshold-from: evaluate's JSON or binary map, or empty
+  std::string change_quicklook;       ///< png, svg or pdf: draw change_class.EXT in each scenario's folder; empty: none
 };
 
 struct ScenarioSummary {

@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "raster_test_support.hpp"
+#include "render/change_class_figure.hpp"
 #include "test_support.hpp"
 
 namespace {
@@ -307,4 +308,36 @@ TEST_CASE("the classes' threshold can come from what evaluate recorded", "[scena
     const auto report = nlohmann::json::parse(habcast::test::read_text(scene.out + "/scenarios.json"));
     CHECK(report["threshold"]["value"] == 0.3);
   }
+}
+
+TEST_CASE("the change-class picture shows every class of change_class.tif and hatches the marked pixels",
+          "[scenarios][quicklook]") {
+  Scene scene;
+  REQUIRE(scene.run({"--threshold", "0.3", "--change-quicklook", "svg"}) == 0);
+  CHECK(std::filesystem::exists(scene.out + "/warm/change_class.svg"));
+  const std::string tif = scene.out + "/warm/change_class.tif";
+  const habcast::Figure fig = habcast::change_class_figure(tif, "warm", "at 0.3");
+  // The raster is smaller than the picture: one image cell per pixel (repeated k x k).
+  const std::vector<double> codes = habcast::test::read_band(tif, 1);
+  std::size_t marked = 0;
+  for (double v : codes) marked += (v != 255.0 && (static_cast<int>(v) & 48) != 0) ? 1 : 0;
+  const habcast::IndexedImage* image = nullptr;
+  std::size_t hatched = 0;
+  for (const habcast::Mark& m : fig.marks()) {
+    if (m.role == "map") image = &std::get<habcast::ImageMark>(m.shape).image;
+    if (m.role == "extrapolated")
+      for (std::uint8_t on : std::get<habcast::HatchMaskMark>(m.shape).mask.on) hatched += on;
+  }
+  REQUIRE(image != nullptr);
+  const std::size_t k = static_cast<std::size_t>(image->width / kWidth);
+  REQUIRE(k >= 1);
+  CHECK(hatched == marked * k * k);
+  // Each cell's palette index is its class (1..5), 6 for no data.
+  for (int row = 0; row < kHeight; ++row)
+    for (int col = 0; col < kWidth; ++col) {
+      const double v = codes[static_cast<std::size_t>(row * kWidth + col)];
+      const std::uint8_t expected = v == 255.0 ? 6 : static_cast<std::uint8_t>(static_cast<int>(v) & 15);
+      CHECK(image->index[static_cast<std::size_t>(row) * k * static_cast<std::size_t>(image->width) + static_cast<std::size_t>(col) * k] ==
+            expected);
+    }
 }
