@@ -8,6 +8,7 @@
 
 #include "core/base/error.hpp"
 #include "core/base/number_text.hpp"
+#include "predict/prediction_report.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 
@@ -80,6 +81,27 @@ RecordedThreshold read_recorded_threshold(const std::string& path) {
   if (ext == ".tif" || ext == ".tiff") return from_raster(path);
   throw UsageError("--threshold-from " + path + ": give the JSON of habcast evaluate --json (.json) or the binary "
                    "map it wrote (.tif)");
+}
+
+/// The threshold of the classes: --threshold, --threshold-from or the scenario file's; two that
+/// differ are ambiguous and refused, naming both.
+std::optional<double> choose_threshold(std::optional<double> threshold, const std::string& threshold_from,
+                                       const ScenarioSet& scenarios, std::string& source) {
+  std::vector<std::pair<double, std::string>> given;
+  if (threshold) given.emplace_back(*threshold, "--threshold");
+  if (!threshold_from.empty()) {
+    const RecordedThreshold r = read_recorded_threshold(threshold_from);
+    given.emplace_back(r.value, r.rule);
+  }
+  if (scenarios.threshold) given.emplace_back(*scenarios.threshold, "scenario file " + scenarios.path);
+  if (given.empty()) return std::nullopt;
+  for (const auto& [value, from] : given)
+    if (value != given.front().first)
+      throw UsageError("two thresholds: " + format_value(given.front().first) + " (" + given.front().second + ") and " +
+                       format_value(value) + " (" + from + "); give one of them");
+  if (!std::isfinite(given.front().first)) throw UsageError("the threshold must be a finite number");
+  source = given.front().second;
+  return given.front().first;
 }
 
 }  // namespace habcast

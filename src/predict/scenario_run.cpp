@@ -22,6 +22,7 @@
 #include "pipeline/output_guard.hpp"
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
+#include "predict/change_rasters.hpp"
 #include "predict/prediction_folder.hpp"
 #include "predict/prediction_members.hpp"
 #include "predict/prediction_report.hpp"
@@ -81,26 +82,6 @@ std::vector<CovariateInput> scenario_inputs(const ModelSpec& spec, const std::ve
   return inputs;
 }
 
-/// The threshold of the classes: --threshold, --threshold-from or the scenario file's; two that
-/// differ are ambiguous and refused, naming both.
-std::optional<double> chosen_threshold(const ScenarioRunOptions& options, std::string& source) {
-  std::vector<std::pair<double, std::string>> given;
-  if (options.threshold) given.emplace_back(*options.threshold, "--threshold");
-  if (!options.threshold_from.empty()) {
-    const RecordedThreshold r = read_recorded_threshold(options.threshold_from);
-    given.emplace_back(r.value, r.rule);
-  }
-  if (options.scenarios.threshold) given.emplace_back(*options.scenarios.threshold, "scenario file " + options.scenarios.path);
-  if (given.empty()) return std::nullopt;
-  for (const auto& [value, from] : given)
-    if (value != given.front().first)
-      throw UsageError("two thresholds: " + format_value(given.front().first) + " (" + given.front().second + ") and " +
-                       format_value(value) + " (" + from + "); give one of them");
-  if (!std::isfinite(given.front().first)) throw UsageError("the threshold must be a finite number");
-  source = given.front().second;
-  return given.front().first;
-}
-
 struct Worker {
   std::unique_ptr<MemberWindow> members;
   std::vector<ChangeCombiner> combiners;  ///< one per scenario
@@ -112,76 +93,6 @@ struct BlockResult {
   std::vector<ChangeOutputs> changes;
   std::vector<ChangeTally> change_tallies;
 };
-
-/// change.tif and change_class.tif of one scenario.
-struct ChangeRasters {
-  std::unique_ptr<OutputRaster> change;
-  std::unique_ptr<OutputRaster> classes;
-};
-
-std::vector<std::pair<std::string, std::string>> change_metadata(const ModelSpec& spec, const Scenario& s,
-                                                                  const std::string& version) {
-  std::vector<std::pair<std::string, std::string>> m{{"HABCAST_VERSION", version},
-                                                     {"HABCAST_MODEL", spec.path},
-                                                     {"HABCAST_SCENARIO", s.name}};
-  if (!s.description.empty()) m.emplace_back("HABCAST_SCENARIO_DESCRIPTION", s.description);
-  std::string replaced;
-  for (const auto& [c, path] : s.rasters) replaced += (replaced.empty() ? "" : "; ") + c + "=" + path;
-  m.emplace_back("HABCAST_SCENARIO_RASTERS", replaced);
-  m.emplace_back("HABCAST_CAUTION",
-                 "Model output, not ground truth. A change where either side is extrapolated (see change_class.tif "
-                 "and both extrapolation.tif) rests on the model beyond its training data.");
-  return m;
-}
-
-ChangeRasters create_change_rasters(const ScenarioRunOptions& options, const ModelSpec& spec, const Scenario& scenario,
-                                    const std::string& folder, const RasterGrid& grid, std::optional<double> threshold,
-                                    const std::string& version, int threads) {
-  const std::string change_path = (fs::path(folder) / "change.tif").string();
-  const std::string class_path = (fs::path(folder) / "change_class.tif").string();
-  std::vector<std::string> finals{change_path};
-  if (threshold) finals.push_back(class_path);
-  refuse_to_clobber(finals, options.predict.overwrite, ", or choose another output folder with -o");
-  std::vector<std::string> names;
-  for (const std::string& f : finals) names.push_back(fs::path(f).filename().string());
-  remove_stale_partials(folder, names);
-
-  const std::string units = spec.family == Family::binomial ? "probability" : spec.response;
-  char pct[32];
-  std::snprintf(pct, sizeof pct, "%g%%", options.predict.level * 100.0);
-  ChangeRasters r;
-  OutputSpec c;
-  c.final_path = change_path;
-  c.type = OutputType::float32;
-  c.nodata = kFloatNodata;
-  c.bands = {{"change of the prediction, scenario minus baseline (response scale)", units},
-             {"standard error of the change, sqrt((g_s-g_b)' V (g_s-g_b)) with g = d mu / d beta", units},
-             {std::string("lower ") + pct + " confidence limit of the change (normal approximation)", units},
-             {std::string("upper ") + pct + " confidence limit of the change (normal approximation)", units},
-             {"probability that the prediction fell, Phi(-change / se) (normal approximation)", "probability"}};
-  c.creation_options = options.predict.creation_options;
-  c.creation_options.insert(c.creation_options.begin(), "NUM_THREADS=" + std::to_string(threads));
-  c.metadata = change_metadata(spec, scenario, version);
-  c.metadata.emplace_back("HABCAST_CONFIDENCE_LEVEL", format_value(options.predict.level));
-  r.change = std::make_unique<OutputRaster>(c, grid);
-  if (threshold) {
-    OutputSpec k;
-    k.final_path = class_path;
-    k.type = OutputType::uint8;
-    k.nodata = change_class::nodata;
-    k.bands = {{"change class at the threshold; +16 baseline extrapolated, +32 scenario extrapolated", ""}};
-    k.creation_options = c.creation_options;
-    k.metadata = c.metadata;
-    k.metadata.emplace_back("HABCAST_THRESHOLD", format_value(*threshold));
-    k.metadata.emplace_back("HABCAST_CLASS_CODES",
-                            "1=stable unsuitable; 2=stable suitable; 3=gain; 4=loss; 5=crosses the threshold but the "
-                            "change's confidence interval includes zero (not distinguishable); +16 baseline pixel "
-                            "extrapolated; +32 scenario pixel extrapolated; 255=no data");
-    for (const auto& e : change_class::class_colour_table()) k.colours.push_back({e.value, e.r, e.g, e.b, e.a, e.label});
-    r.classes = std::make_unique<OutputRaster>(k, grid);
-  }
-  return r;
-}
 
 }  // namespace
 
@@ -198,7 +109,7 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
     throw UsageError("--max-extrapolated is not available with scenarios: the scenario report gives each "
                      "scenario's extrapolated share (scenarios.json)");
   std::string threshold_source;
-  const std::optional<double> threshold = chosen_threshold(options, threshold_source);
+  const std::optional<double> threshold = choose_threshold(options.threshold, options.threshold_from, options.scenarios, threshold_source);
   const std::string& ql = options.change_quicklook;
   if (!ql.empty() && ql != "png" && ql != "svg" && ql != "pdf")
     throw UsageError("--change-quicklook takes png, svg or pdf, got \"" + ql + "\"");
@@ -278,7 +189,7 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
   std::vector<ChangeRasters> change_outputs;
   for (std::size_t s = 0; s < scenarios.size(); ++s)
     change_outputs.push_back(
-        create_change_rasters(options, spec, scenarios[s], folders[s + 1], grid, threshold, tool_version, threads));
+        create_change_rasters(po, spec, spec.path, scenarios[s], folders[s + 1], grid, threshold, tool_version, threads));
   std::vector<OutputRaster*> all_rasters;
   for (auto& f : outputs)
     for (OutputRaster* r : f->rasters()) all_rasters.push_back(r);
@@ -320,18 +231,7 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
           totals[m].merge(result.tallies[m]);
         }
         for (std::size_t s = 0; s < scenarios.size(); ++s) {
-          const ChangeOutputs& c = result.changes[s];
-          OutputRaster& r = *change_outputs[s].change;
-          r.write(1, w, c.change.data());
-          r.write(2, w, c.se.data());
-          r.write(3, w, c.lower.data());
-          r.write(4, w, c.upper.data());
-          r.write(5, w, c.p_decline.data());
-          r.flush_completed_blocks(w);
-          if (change_outputs[s].classes) {
-            change_outputs[s].classes->write(1, w, c.classes.data());
-            change_outputs[s].classes->flush_completed_blocks(w);
-          }
+          change_outputs[s].write(w, result.changes[s]);
           change_totals[s].merge(result.change_tallies[s]);
         }
         progress.advance(static_cast<std::int64_t>(item + 1));
