@@ -89,12 +89,9 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
 
   StopSignalGuard guard;
   args.options.model_path = args.models.front();
-  if (args.models.size() > 1 && args.scenarios.any())
-    throw UsageError("a model set under scenarios is not available yet: run the set once per stack with -c, or the "
-                     "scenarios once per model");
   if (args.models.size() > 1)
-    return run_predict_model_set(args.options, args.models, args.model_set, *progress, args.log_format == "json",
-                                 args.quiet, out);
+    return run_predict_model_set(args.options, args.models, args.model_set, args.scenarios, *progress,
+                                 args.log_format == "json", args.quiet, out);
   if (!args.model_set.weights.empty()) throw UsageError("--weights weighs the models of a set: give two or more model files");
   if (args.scenarios.any())
     return run_predict_scenarios(args.options, args.scenarios, *progress, args.log_format == "json", args.quiet, out);

@@ -4,6 +4,7 @@
 #include <string>
 #include <vector>
 
+#include "cli/predict_scenarios.hpp"
 #include "pipeline/progress.hpp"
 #include "predict/predict_options.hpp"
 
@@ -14,8 +15,9 @@ struct ModelSetArgs {
   std::string se_form = "revised";  ///< --average-se: revised or 2002
 };
 
+/// `scenarios` may be empty (any() false): the set over one stack.
 int run_predict_model_set(const PredictOptions& options, const std::vector<std::string>& models, const ModelSetArgs& args,
-                          Progress& progress, bool json, bool quiet, std::ostream& out);
+                          const ScenarioArgs& scenarios, Progress& progress, bool json, bool quiet, std::ostream& out);
 
 extern const char* const kModelSetHelp;
 

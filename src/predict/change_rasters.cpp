@@ -13,7 +13,6 @@ namespace {
 
 namespace fs = std::filesystem;
 
-
 std::vector<std::pair<std::string, std::string>> change_metadata(const std::string& models, const Scenario& s,
                                                                   const std::string& version) {
   std::vector<std::pair<std::string, std::string>> m{{"HABCAST_VERSION", version},

@@ -22,7 +22,11 @@
 #include "pipeline/output_guard.hpp"
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
+#include "core/prediction/averaged_change.hpp"
+#include "core/prediction/change_combiner.hpp"
+#include "predict/change_rasters.hpp"
 #include "predict/prediction_folder.hpp"
+#include "predict/recorded_threshold.hpp"
 #include "predict/prediction_members.hpp"
 #include "predict/prediction_report.hpp"
 #include "raster/gdal_session.hpp"
@@ -173,17 +177,24 @@ Outputs create_set_outputs(const ModelSetOptions& options, const ModelSpec& firs
   return out;
 }
 
+/// Members are model i on stack j at index j * models + i (stack 0 the baseline, then one per
+/// scenario); one average per stack, one change per scenario and model, one averaged change per
+/// scenario.
 struct Worker {
   std::unique_ptr<MemberWindow> members;
-  std::unique_ptr<AverageCombiner> combiner;
-  std::vector<const BlockPredictor*> predictors;
+  std::vector<std::unique_ptr<AverageCombiner>> averages;        ///< per stack
+  std::vector<std::vector<const BlockPredictor*>> predictors;    ///< per stack
+  std::vector<std::vector<ChangeCombiner>> changes;              ///< [scenario][model]
 };
 
 struct BlockResult {
   std::vector<BlockOutputs> members;
   std::vector<PredictionTally> tallies;
-  AverageOutputs average;
-  AverageTally tally;
+  std::vector<AverageOutputs> average;                 ///< per stack
+  std::vector<AverageTally> tally;                     ///< per stack
+  std::vector<std::vector<ChangeOutputs>> model_changes;  ///< [scenario][model]
+  std::vector<ChangeOutputs> changes;                  ///< per scenario, averaged
+  std::vector<ChangeTally> change_tallies;             ///< per scenario
 };
 
 double share(std::int64_t part, std::int64_t whole) {
@@ -226,6 +237,9 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
   if (options.model_paths.size() < 2) throw UsageError("a model set needs two or more model files");
   if (po.max_error)
     throw UsageError("--max-error is not available for a model set: the averaged outputs are written losslessly");
+  if (!options.scenarios.scenarios.empty() && (!po.quicklook_path.empty() || po.max_extrapolated_percent))
+    throw UsageError("--quicklook and --max-extrapolated are for one prediction; with scenarios, use --change-quicklook "
+                     "and the extrapolated shares in scenarios.json");
   ensure_gdal();
 
   // Everything that can be wrong with the inputs is found before any output is created.
@@ -268,21 +282,46 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
   if (po.max_extrapolated_percent && !with_flags)
     throw InputError("--max-extrapolated needs training samples in every model of the set: add [training] samples");
   const std::vector<std::vector<CovariateInput>> inputs = resolve_set_inputs(models, po);
+  // Stacks: the baseline, then each scenario's replacements in every model that has the covariate.
+  const std::vector<Scenario>& scenarios = options.scenarios.scenarios;
+  const std::size_t M = models.size(), stacks = 1 + scenarios.size();
+  std::vector<std::vector<std::vector<CovariateInput>>> stack_inputs{inputs};
+  for (const Scenario& sc : scenarios) {
+    std::vector<std::vector<CovariateInput>> mine = inputs;
+    for (const auto& [name, path] : sc.rasters) {
+      bool used = false;
+      for (std::size_t m = 0; m < M; ++m) {
+        const int c = models[m].spec.covariate_index(name);
+        if (c < 0) continue;
+        mine[m][static_cast<std::size_t>(c)].path = path;
+        used = true;
+      }
+      if (!used)
+        throw InputError(sc.source + ": scenario \"" + sc.name + "\" replaces covariate \"" + name +
+                         "\", which no model of the set has");
+    }
+    stack_inputs.push_back(std::move(mine));
+  }
   std::vector<PredictionMember> members;
-  for (std::size_t m = 0; m < models.size(); ++m)
-    members.push_back({&models[m].spec, models[m].plan.get(), models[m].domain ? &*models[m].domain : nullptr,
-                       models[m].novelty ? &*models[m].novelty : nullptr, inputs[m]});
+  for (std::size_t j = 0; j < stacks; ++j)
+    for (std::size_t m = 0; m < M; ++m)
+      members.push_back({&models[m].spec, models[m].plan.get(), models[m].domain ? &*models[m].domain : nullptr,
+                         models[m].novelty ? &*models[m].novelty : nullptr, stack_inputs[j][m]});
   const MemberSources sources(members);
   const RasterGrid grid = sources.check_co_registered();
   if (!po.quicklook_path.empty()) figure_format(po.quicklook_path);  // .png, .pdf or .svg, checked before the run
   if (!po.quicklook_path.empty()) refuse_to_clobber({po.quicklook_path}, po.overwrite, ", or choose another --quicklook path");
+  std::string threshold_source;
+  const std::optional<double> threshold =
+      choose_threshold(options.threshold, options.threshold_from, options.scenarios, threshold_source);
+  if (threshold && scenarios.empty()) throw UsageError("--threshold classifies a change: it needs --scenarios or --scenario");
 
   const int threads = po.threads > 0 ? po.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
   const std::vector<Window> windows = prediction_windows(grid, po.block_size);
   std::int64_t largest_window = 0, terms = 0;
   for (const Window& w : windows) largest_window = std::max(largest_window, w.pixels());
   for (const SetModel& m : models) terms = std::max<std::int64_t>(terms, m.plan->term_count());
-  check_working_memory(largest_window * static_cast<std::int64_t>(models.size() + 1),
+  check_working_memory(largest_window * static_cast<std::int64_t>(members.size() + stacks + 2 * scenarios.size()),
                        static_cast<std::int64_t>(sources.sources.size()), terms, threads, po.max_memory_bytes);
   std::vector<double> used_weights;
   for (const SetModel& m : models) used_weights.push_back(m.weight);
@@ -291,169 +330,299 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
   for (int t = 0; t < threads; ++t) {
     auto w = std::make_unique<Worker>();
     w->members = std::make_unique<MemberWindow>(members, sources, po.level, 0.0);
-    w->combiner = std::make_unique<AverageCombiner>(models.front().spec.family, used_weights, options.form, z, with_flags);
-    for (std::size_t m = 0; m < models.size(); ++m) w->predictors.push_back(&w->members->predictor(m));
+    for (std::size_t j = 0; j < stacks; ++j) {
+      w->averages.push_back(std::make_unique<AverageCombiner>(models.front().spec.family, used_weights, options.form, z, with_flags));
+      w->predictors.emplace_back();
+      for (std::size_t m = 0; m < M; ++m) w->predictors.back().push_back(&w->members->predictor(j * M + m));
+    }
+    w->changes.resize(scenarios.size());
+    for (std::size_t sc = 0; sc < scenarios.size(); ++sc)
+      for (const SetModel& m : models) w->changes[sc].emplace_back(m.spec.link, *m.spec.covariance, z, std::nullopt);
     workers.push_back(std::move(w));
   }
 
-  std::error_code ec;
-  fs::create_directories(po.output_dir, ec);
-  if (ec || !fs::is_directory(po.output_dir))
-    throw IoError(po.output_dir + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
-  const std::string report_path = (fs::path(po.output_dir) / "report.json").string();
-  Outputs out = create_set_outputs(options, models.front().spec, grid, with_flags, tool_version, threads, report_path);
+  const fs::path top(po.output_dir);
+  std::vector<std::string> folders{scenarios.empty() ? top.string() : (top / "baseline").string()};
+  for (const Scenario& sc : scenarios) folders.push_back((top / sc.name).string());
+  for (const std::string& f : folders) {
+    std::error_code ec;
+    fs::create_directories(f, ec);
+    if (ec || !fs::is_directory(f)) throw IoError(f + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
+  }
+  const std::string json_path = (top / "scenarios.json").string();
+  if (!scenarios.empty()) refuse_to_clobber({json_path}, po.overwrite, ", or choose another output folder with -o");
+  std::string model_list;
+  for (const std::string& p : options.model_paths) model_list += (model_list.empty() ? "" : "; ") + p;
+  std::vector<Outputs> outs;
+  std::vector<std::string> report_paths;
+  for (std::size_t j = 0; j < stacks; ++j) {
+    ModelSetOptions fo = options;
+    fo.predict.output_dir = folders[j];
+    report_paths.push_back((fs::path(folders[j]) / "report.json").string());
+    outs.push_back(create_set_outputs(fo, models.front().spec, grid, with_flags, tool_version, threads, report_paths.back()));
+  }
+  std::vector<ChangeRasters> change_outputs;
+  for (std::size_t sc = 0; sc < scenarios.size(); ++sc)
+    change_outputs.push_back(create_change_rasters(po, models.front().spec, model_list, scenarios[sc], folders[sc + 1], grid,
+                                                   threshold, tool_version, threads));
+  std::vector<OutputRaster*> all_rasters;
+  for (const Outputs& o : outs)
+    for (OutputRaster* r : o.all()) all_rasters.push_back(r);
+  for (ChangeRasters& c : change_outputs) {
+    all_rasters.push_back(c.change.get());
+    if (c.classes) all_rasters.push_back(c.classes.get());
+  }
   set_gdal_cache(po.gdal_cache_bytes > 0 ? po.gdal_cache_bytes
-                                         : prediction_cache_bytes(windows, sources.sources.size() + 6,
+                                         : prediction_cache_bytes(windows, sources.sources.size() + 6 * stacks + 6 * scenarios.size(),
                                                                   static_cast<std::size_t>(threads)));
   std::vector<PredictionTally> totals;
-  for (const SetModel& m : models) totals.emplace_back(m.spec.covariates.size());
-  AverageTally total;
+  for (std::size_t j = 0; j < stacks; ++j)
+    for (const SetModel& m : models) totals.emplace_back(m.spec.covariates.size());
+  std::vector<AverageTally> stack_totals(stacks);
+  std::vector<ChangeTally> change_totals(scenarios.size());
   progress.start("model set", static_cast<std::int64_t>(windows.size()));
   run_ordered<BlockResult>(
       windows.size(), threads, 2 * static_cast<std::size_t>(threads),
       [&](std::size_t item, int worker_index) {
         Worker& wk = *workers[static_cast<std::size_t>(worker_index)];
         const Window& w = windows[item];
+        const auto n = static_cast<Eigen::Index>(w.pixels());
         BlockResult result;
-        wk.combiner->begin(static_cast<Eigen::Index>(w.pixels()), result.average);
+        result.average.resize(stacks);
+        result.tally.resize(stacks);
+        for (std::size_t j = 0; j < stacks; ++j) wk.averages[j]->begin(n, result.average[j]);
+        result.model_changes.resize(scenarios.size());
+        result.changes.resize(scenarios.size());
+        result.change_tallies.resize(scenarios.size());
+        for (std::size_t sc = 0; sc < scenarios.size(); ++sc) {
+          result.model_changes[sc].resize(M);
+          for (std::size_t m = 0; m < M; ++m) wk.changes[sc][m].begin(n, result.model_changes[sc][m]);
+          begin_change_outputs(n, threshold.has_value(), result.changes[sc]);
+        }
+        ChangeTally unused;
         wk.members->run(w, result.members, result.tallies, [&](Eigen::Index first, Eigen::Index rows) {
-          wk.combiner->chunk(first, rows, wk.predictors, result.members, result.average, result.tally);
+          for (std::size_t j = 0; j < stacks; ++j)
+            wk.averages[j]->chunk(first, rows, wk.predictors[j], &result.members[j * M], result.average[j], result.tally[j]);
+          for (std::size_t sc = 0; sc < scenarios.size(); ++sc) {
+            std::vector<const ChangeOutputs*> per_model;
+            for (std::size_t m = 0; m < M; ++m) {
+              wk.changes[sc][m].chunk(first, rows, wk.members->predictor(m), wk.members->predictor((sc + 1) * M + m),
+                                      result.members[m], result.members[(sc + 1) * M + m],
+                                      result.model_changes[sc][m], unused);
+              per_model.push_back(&result.model_changes[sc][m]);
+            }
+            average_changes(used_weights, per_model, result.average[0], result.average[sc + 1], z, threshold, options.form,
+                            first, rows, result.changes[sc], result.change_tallies[sc]);
+          }
         });
         return result;
       },
       [&](std::size_t item, BlockResult& result) {
         const Window& w = windows[item];
-        out.suitability->write(1, w, result.average.suitability.data());
-        out.uncertainty->write(1, w, result.average.se.data());
-        out.uncertainty->write(2, w, result.average.lower.data());
-        out.uncertainty->write(3, w, result.average.upper.data());
-        out.model_choice->write(1, w, result.average.between_share.data());
-        if (out.extrapolation) out.extrapolation->write(1, w, result.average.flags.data());
-        for (OutputRaster* r : out.all()) r->flush_completed_blocks(w);
-        for (std::size_t m = 0; m < models.size(); ++m) totals[m].merge(result.tallies[m]);
-        total.merge(result.tally);
+        for (std::size_t j = 0; j < stacks; ++j) {
+          const AverageOutputs& a = result.average[j];
+          Outputs& o = outs[j];
+          o.suitability->write(1, w, a.suitability.data());
+          o.uncertainty->write(1, w, a.se.data());
+          o.uncertainty->write(2, w, a.lower.data());
+          o.uncertainty->write(3, w, a.upper.data());
+          o.model_choice->write(1, w, a.between_share.data());
+          if (o.extrapolation) o.extrapolation->write(1, w, a.flags.data());
+          for (OutputRaster* r : o.all()) r->flush_completed_blocks(w);
+          stack_totals[j].merge(result.tally[j]);
+        }
+        for (std::size_t sc = 0; sc < scenarios.size(); ++sc) {
+          change_outputs[sc].write(w, result.changes[sc]);
+          change_totals[sc].merge(result.change_tallies[sc]);
+        }
+        for (std::size_t m = 0; m < totals.size(); ++m) totals[m].merge(result.tallies[m]);
         progress.advance(static_cast<std::int64_t>(item + 1));
       },
       [] { return stop_signal() != 0; });
   throw_if_stopped();
   progress.finish();
-  for (OutputRaster* r : out.all()) {
+  for (OutputRaster* r : all_rasters) {
     if (po.overviews) r->build_overviews();
     throw_if_stopped();
     r->close();
   }
-  for (OutputRaster* r : out.all()) r->commit();
-  std::vector<std::string> warnings;
+  // Rename only when every raster of every folder is complete: a run leaves all or nothing.
+  for (OutputRaster* r : all_rasters) r->commit();
+  std::vector<std::string> quicklook_problems;
   if (!po.quicklook_path.empty()) {
     try {
-      const Figure quicklook = quicklook_figure(out.suitability->final_path(),
-                                                out.extrapolation ? out.extrapolation->final_path() : "",
+      const Figure quicklook = quicklook_figure(outs[0].suitability->final_path(),
+                                                outs[0].extrapolation ? outs[0].extrapolation->final_path() : "",
                                                 "habcast model set (" + std::to_string(models.size()) + " models)");
       write_file_atomically(po.quicklook_path, encode_figure(quicklook, po.quicklook_path));
     } catch (const Error& e) {
-      warnings.push_back(std::string("no quicklook was written: ") + e.what());
+      quicklook_problems.push_back(std::string("no quicklook was written: ") + e.what());
     }
   }
-
-  // ---- report ----
-  json r;
-  r["habcast_version"] = tool_version;
-  r["kind"] = "model_set";
-  r["started_utc"] = started;
-  r["elapsed_seconds"] = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-  r["weights_from"] = options.weights.empty() ? "Akaike weights exp(-dAIC/2) / sum, from each model file's aic"
-                                              : "--weights, normalised to sum 1";
-  r["unconditional_se"] = form_text(options.form);
-  r["confidence_level"] = po.level;
   const double best_aic = *std::min_element(aic_values.begin(), aic_values.end());
-  json list = json::array();
-  for (std::size_t i = 0; i < all.size(); ++i) {
-    json m;
-    m["path"] = options.model_paths[i];
-    m["aic"] = aic[i] ? json(*aic[i]) : json();
-    m["delta_aic"] = aic[i] && std::isfinite(best_aic) ? json(*aic[i] - best_aic) : json();
-    m["weight"] = weights[i];
-    const auto it = std::find(original.begin(), original.end(), i);
-    m["used"] = it != original.end();
-    if (it != original.end()) {
-      const std::size_t k = static_cast<std::size_t>(it - original.begin());
-      const SetModel& sm = models[k];
-      m["name"] = sm.spec.name;
-      m["terms"] = sm.spec.terms;
-      const DomainTally& d = totals[k].domain;
-      if (sm.domain) {
-        json e;
-        e["flagged_pixels"] = d.flagged;
-        e["flagged_share"] = share(d.flagged, d.checked);
-        json causes = json::object();
-        for (int b = 0; b < flag::cause_count; ++b) causes[flag_name(b)] = {{"pixels", d.cause[b]}, {"share", share(d.cause[b], d.checked)}};
-        e["causes"] = causes;
-        json cov = json::object();
-        for (std::size_t c = 0; c < sm.spec.covariates.size(); ++c)
-          cov[sm.spec.covariates[c].name] = {{"below_pixels", d.below[c]}, {"above_pixels", d.above[c]},
-                                             {"unseen_level_pixels", d.unseen[c]}};
-        e["covariates"] = cov;
-        m["extrapolation"] = e;
+  ModelSetSummary summary;
+
+  // ---- one report per stack (folder) ----
+  auto stack_report = [&](std::size_t j, std::vector<std::string> warnings) {
+    const AverageTally& total = stack_totals[j];
+    const std::string& report_path = report_paths[j];
+    json r;
+    r["habcast_version"] = tool_version;
+    r["kind"] = "model_set";
+    r["started_utc"] = started;
+    r["elapsed_seconds"] = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+    r["weights_from"] = options.weights.empty() ? "Akaike weights exp(-dAIC/2) / sum, from each model file's aic"
+                                                : "--weights, normalised to sum 1";
+    r["unconditional_se"] = form_text(options.form);
+    r["confidence_level"] = po.level;
+    if (!scenarios.empty()) r["scenario"] = j == 0 ? "baseline" : scenarios[j - 1].name;
+    json list = json::array();
+    for (std::size_t i = 0; i < all.size(); ++i) {
+      json m;
+      m["path"] = options.model_paths[i];
+      m["aic"] = aic[i] ? json(*aic[i]) : json();
+      m["delta_aic"] = aic[i] && std::isfinite(best_aic) ? json(*aic[i] - best_aic) : json();
+      m["weight"] = weights[i];
+      const auto it = std::find(original.begin(), original.end(), i);
+      m["used"] = it != original.end();
+      if (it != original.end()) {
+        const std::size_t k = static_cast<std::size_t>(it - original.begin());
+        const SetModel& sm = models[k];
+        m["name"] = sm.spec.name;
+        m["terms"] = sm.spec.terms;
+        const DomainTally& d = totals[j * M + k].domain;
+        if (sm.domain) {
+          json e;
+          e["flagged_pixels"] = d.flagged;
+          e["flagged_share"] = share(d.flagged, d.checked);
+          json causes = json::object();
+          for (int b = 0; b < flag::cause_count; ++b) causes[flag_name(b)] = {{"pixels", d.cause[b]}, {"share", share(d.cause[b], d.checked)}};
+          e["causes"] = causes;
+          json cov = json::object();
+          for (std::size_t c = 0; c < sm.spec.covariates.size(); ++c)
+            cov[sm.spec.covariates[c].name] = {{"below_pixels", d.below[c]}, {"above_pixels", d.above[c]},
+                                               {"unseen_level_pixels", d.unseen[c]}};
+          e["covariates"] = cov;
+          m["extrapolation"] = e;
+        }
+      }
+      list.push_back(m);
+    }
+    r["models"] = list;
+    r["pixels"] = {{"total", total.pixels}, {"predicted", total.predicted}};
+    if (total.predicted > 0)
+      r["response"] = {{"mean", total.sum_response / static_cast<double>(total.predicted)},
+                       {"min", total.min_response},
+                       {"max", total.max_response}};
+    json dis{{"pixels", total.disagree}, {"share", share(total.disagree, total.predicted)},
+             {"meaning", "pixels where more than half of the unconditional variance comes from model choice"}};
+    if (grid.has_geotransform && grid.linear_units_to_metre > 0.0)
+      dis["area_ha"] = static_cast<double>(total.disagree) * grid.pixel_area() * grid.linear_units_to_metre *
+                       grid.linear_units_to_metre / 1e4;
+    r["models_disagree"] = dis;
+    if (with_flags)
+      r["extrapolation"] = {{"checked_pixels", total.checked}, {"flagged_pixels", total.flagged},
+                            {"flagged_share", share(total.flagged, total.checked)},
+                            {"rule", "union: a pixel is flagged when any model of the set flags it; the models list "
+                                     "says which model's covariates caused which flags"}};
+    else
+      warnings.push_back("Not every model names training samples, so the set's pixels are not checked against the "
+                         "training data (no extrapolation.tif). Add [training] samples to every model.");
+    if (total.disagree > 0)
+      warnings.push_back(format_percent(share(total.disagree, total.predicted)) +
+                         " of predicted pixels get more than half of their uncertainty from model choice (model_choice.tif "
+                         "> 0.5): there the models disagree more than their own standard errors.");
+    for (std::size_t i = 0; i < all.size(); ++i)
+      if (weights[i] == 0.0) warnings.push_back(options.model_paths[i] + " has weight 0 and takes no part in the average.");
+    if (with_flags && total.checked > 0 && total.flagged > 0)
+      warnings.push_back(format_percent(share(total.flagged, total.checked)) +
+                         " of valid pixels are extrapolated by at least one model of the set (see report.json, models, "
+                         "for each model's causes).");
+    json files = json::object();
+    for (OutputRaster* x : outs[j].all()) files[fs::path(x->final_path()).stem().string()] = x->final_path();
+    if (j > 0) {
+      files["change"] = change_outputs[j - 1].change->final_path();
+      if (change_outputs[j - 1].classes) files["change_class"] = change_outputs[j - 1].classes->final_path();
+    }
+    if (j == 0 && !po.quicklook_path.empty() && quicklook_problems.empty()) files["quicklook"] = po.quicklook_path;
+    files["report"] = report_path;
+    r["outputs"] = files;
+    r["warnings"] = warnings;
+    if (po.max_extrapolated_percent && with_flags) {
+      const double pct = 100.0 * share(total.flagged, total.checked);
+      r["max_extrapolated_percent"] = *po.max_extrapolated_percent;
+      if (pct > *po.max_extrapolated_percent) {
+        summary.exit_code = ExitCode::extrapolation;
+        warnings.push_back(format_value(pct) + " % of valid pixels are extrapolated by some model, more than "
+                           "--max-extrapolated " + format_value(*po.max_extrapolated_percent) +
+                           " %; outputs were written but the run reports failure (exit code 5).");
+        r["warnings"] = warnings;
       }
     }
-    list.push_back(m);
-  }
-  r["models"] = list;
-  r["pixels"] = {{"total", total.pixels}, {"predicted", total.predicted}};
-  if (total.predicted > 0)
-    r["response"] = {{"mean", total.sum_response / static_cast<double>(total.predicted)},
-                     {"min", total.min_response},
-                     {"max", total.max_response}};
-  json dis{{"pixels", total.disagree}, {"share", share(total.disagree, total.predicted)},
-           {"meaning", "pixels where more than half of the unconditional variance comes from model choice"}};
-  if (grid.has_geotransform && grid.linear_units_to_metre > 0.0)
-    dis["area_ha"] = static_cast<double>(total.disagree) * grid.pixel_area() * grid.linear_units_to_metre *
-                     grid.linear_units_to_metre / 1e4;
-  r["models_disagree"] = dis;
-  if (with_flags)
-    r["extrapolation"] = {{"checked_pixels", total.checked}, {"flagged_pixels", total.flagged},
-                          {"flagged_share", share(total.flagged, total.checked)},
-                          {"rule", "union: a pixel is flagged when any model of the set flags it; the models list "
-                                   "says which model's covariates caused which flags"}};
-  else
-    warnings.push_back("Not every model names training samples, so the set's pixels are not checked against the "
-                       "training data (no extrapolation.tif). Add [training] samples to every model.");
-  if (total.disagree > 0)
-    warnings.push_back(format_percent(share(total.disagree, total.predicted)) +
-                       " of predicted pixels get more than half of their uncertainty from model choice (model_choice.tif "
-                       "> 0.5): there the models disagree more than their own standard errors.");
-  for (std::size_t i = 0; i < all.size(); ++i)
-    if (weights[i] == 0.0) warnings.push_back(options.model_paths[i] + " has weight 0 and takes no part in the average.");
-  if (with_flags && total.checked > 0 && total.flagged > 0)
-    warnings.push_back(format_percent(share(total.flagged, total.checked)) +
-                       " of valid pixels are extrapolated by at least one model of the set (see report.json, models, "
-                       "for each model's causes).");
-  json outs = json::object();
-  for (OutputRaster* x : out.all()) outs[fs::path(x->final_path()).stem().string()] = x->final_path();
-  if (!po.quicklook_path.empty()) outs["quicklook"] = po.quicklook_path;
-  outs["report"] = report_path;
-  r["outputs"] = outs;
-  r["warnings"] = warnings;
-  ModelSetSummary summary;
-  if (po.max_extrapolated_percent && with_flags) {
-    const double pct = 100.0 * share(total.flagged, total.checked);
-    r["max_extrapolated_percent"] = *po.max_extrapolated_percent;
-    if (pct > *po.max_extrapolated_percent) {
-      summary.exit_code = ExitCode::extrapolation;
-      warnings.push_back(format_value(pct) + " % of valid pixels are extrapolated by some model, more than "
-                         "--max-extrapolated " + format_value(*po.max_extrapolated_percent) +
-                         " %; outputs were written but the run reports failure (exit code 5).");
-      r["warnings"] = warnings;
+    r["exit_code"] = static_cast<int>(summary.exit_code);
+    write_file_atomically(report_path, r.dump(2) + "\n");
+    for (const auto& [role, path] : files.items()) {
+      (void)role;
+      summary.outputs.push_back(path.get<std::string>());
+    }
+    return std::make_pair(r, warnings);
+  };
+  for (std::size_t j = 0; j < stacks; ++j) {
+    auto [report, warnings] = stack_report(j, j == 0 ? quicklook_problems : std::vector<std::string>{});
+    if (j == 0) {
+      summary.report = report;
+      summary.warnings = warnings;
     }
   }
-  r["exit_code"] = static_cast<int>(summary.exit_code);
-  write_file_atomically(report_path, r.dump(2) + "\n");
-  summary.report = r;
-  summary.warnings = warnings;
-  for (const auto& [role, path] : outs.items()) {
-    (void)role;
-    summary.outputs.push_back(path.get<std::string>());
+  if (scenarios.empty()) return summary;
+
+  // ---- the change of the averaged prediction under each scenario: scenarios.json ----
+  json r;
+  r["habcast_version"] = tool_version;
+  r["kind"] = "model_set_scenarios";
+  r["models"] = options.model_paths;
+  r["weights"] = weights;
+  r["confidence_level"] = po.level;
+  r["threshold"] = threshold ? json{{"value", *threshold}, {"source", threshold_source}} : json();
+  r["methods"] = {{"change", "sum_i w_i (mu_i,scenario - mu_i,baseline): the change of the model-averaged prediction"},
+                  {"standard_error", std::string("unconditional, from each model's change and its standard error "
+                                                 "sqrt((g_s - g_b)' V_i (g_s - g_b)): ") + form_text(options.form)},
+                  {"interval", "change -/+ z se, normal approximation"},
+                  {"classes", "from the averaged baseline and scenario predictions at the threshold and the averaged "
+                              "change's interval; marked where the union of the models' flags says either side is "
+                              "extrapolated"}};
+  json list = json::array();
+  for (std::size_t sc = 0; sc < scenarios.size(); ++sc) {
+    const ChangeTally& c = change_totals[sc];
+    json e;
+    e["name"] = scenarios[sc].name;
+    e["folder"] = folders[sc + 1];
+    e["compared_pixels"] = c.compared;
+    e["mean_change"] = c.compared > 0 ? json(c.sum_change / static_cast<double>(c.compared)) : json();
+    e["interval_above_zero_pixels"] = c.rose;
+    e["interval_below_zero_pixels"] = c.declined;
+    if (threshold) {
+      json classes;
+      for (std::uint8_t cls = 1; cls <= change_class::class_count; ++cls) {
+        std::int64_t n = 0;
+        for (std::size_t m = 0; m < 4; ++m) n += c.classes[cls][m];
+        const std::int64_t x = c.classes[cls][1] + c.classes[cls][2] + c.classes[cls][3];
+        classes[change_class::class_key(cls)] = {{"pixels", n}, {"share", share(n, c.compared)},
+                                                 {"extrapolated_pixels", x}, {"extrapolated_share", share(x, n)}};
+      }
+      e["classes"] = classes;
+    }
+    if (with_flags)
+      e["extrapolation"] = {{"flagged_share", share(stack_totals[sc + 1].flagged, stack_totals[sc + 1].checked)},
+                            {"baseline_flagged_share", share(stack_totals[0].flagged, stack_totals[0].checked)},
+                            {"rule", "union of the models' flags"}};
+    list.push_back(e);
   }
+  r["scenarios"] = list;
+  r["warnings"] = summary.warnings;
+  write_file_atomically(json_path, r.dump(2) + "\n");
+  summary.outputs.push_back(json_path);
+  summary.report = r;
   return summary;
 }
 

@@ -13,6 +13,7 @@
 #include "core/prediction/model_average.hpp"
 #include "pipeline/progress.hpp"
 #include "predict/predict_options.hpp"
+#include "predict/scenario_set.hpp"
 
 namespace habcast {
 
@@ -21,6 +22,9 @@ struct ModelSetOptions {
   std::vector<std::string> model_paths;  ///< two or more model files
   std::vector<double> weights;           ///< empty: Akaike weights from each file's aic
   UnconditionalForm form = UnconditionalForm::revised;
+  ScenarioSet scenarios;                 ///< empty: the set over one stack
+  std::optional<double> threshold;       ///< --threshold of the change classes
+  std::string threshold_from;            ///< --threshold-from
 };
 
 struct ModelSetSummary {

@@ -219,7 +219,7 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
         wk.members->run(w, result.members, result.tallies, [&](Eigen::Index first, Eigen::Index rows) {
           for (std::size_t s = 0; s < scenarios.size(); ++s)
             wk.combiners[s].chunk(first, rows, wk.members->predictor(0), wk.members->predictor(s + 1),
-                                  result.members[0].flags, result.members[s + 1].flags, result.changes[s],
+                                  result.members[0], result.members[s + 1], result.changes[s],
                                   result.change_tallies[s]);
         });
         return result;

@@ -83,7 +83,7 @@ habcast::AverageOutputs average(const std::vector<habcast::ModelSpec>& specs, co
     predictors[m]->begin(raw, valid, n, outputs[m], tallies[m]);
     predictors[m]->chunk(0, n, outputs[m], tallies[m]);
   }
-  combiner.chunk(0, n, members, outputs, out, tally);
+  combiner.chunk(0, n, members, outputs.data(), out, tally);
   return out;
 }
 

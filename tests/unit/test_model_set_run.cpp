@@ -31,6 +31,9 @@ struct SetScene {
     habcast::test::write_raster(dir.file("t.tif"), grid, "Float32", [](int, int c) { return c / 4.0 - 2.0; });
     habcast::test::write_raster(dir.file("p.tif"), grid, "Float32", [](int r, int) { return r / 5.0 - 1.0; });
     habcast::test::write_text(dir.file("train.csv"), "t,p\n-1,-0.5\n2,2\n0,1\n1,0\n");
+    habcast::test::write_raster(dir.file("t_warm.tif"), grid, "Float32", [](int, int c) { return c / 4.0 - 1.5; });
+    habcast::test::write_text(dir.file("futures.toml"),
+                              "habcast_scenarios = 1\n[[scenario]]\nname = \"warm\"\n[scenario.covariates]\nt = \"t_warm.tif\"\n");
     habcast::test::write_text(dir.file("a.toml"), model("[\"(Intercept)\", \"t\"]", "[0.3, 0.8]",
                                                         "[[0.04, 0.01], [0.01, 0.02]]", "aic = 100.0\n"));
     habcast::test::write_text(dir.file("b.toml"),
@@ -133,4 +136,61 @@ TEST_CASE("a model set refuses missing AIC, wrong weights and models of differen
     CHECK(s.run({s.dir.file("a.toml"), s.dir.file("d.toml"), "-o", s.dir.file("x")}, &err) == 3);
     CHECK_THAT(err, Contains("response"));
   }
+}
+
+TEST_CASE("a model set under scenarios: the averaged change and its SE combine each model's own change",
+          "[modelset][scenarios]") {
+  SetScene s;
+  const std::string futures = s.dir.file("futures.toml");
+  REQUIRE(s.run({s.dir.file("a.toml"), "--scenarios", futures, "--threshold", "0.5", "-o", s.dir.file("a")}) == 0);
+  REQUIRE(s.run({s.dir.file("b.toml"), "--scenarios", futures, "--threshold", "0.5", "-o", s.dir.file("b")}) == 0);
+  REQUIRE(s.run({s.dir.file("a.toml"), s.dir.file("b.toml"), "--scenarios", futures, "--threshold", "0.5", "-o",
+                 s.dir.file("set"), "--threads", "2"}) == 0);
+  const double wa = 1.0 / (1.0 + std::exp(-0.75)), wb = 1.0 - wa;  // AIC 100 and 101.5
+  const auto da = habcast::test::read_band(s.dir.file("a/warm/change.tif"), 1);
+  const auto db = habcast::test::read_band(s.dir.file("b/warm/change.tif"), 1);
+  const auto sa = habcast::test::read_band(s.dir.file("a/warm/change.tif"), 2);
+  const auto sb = habcast::test::read_band(s.dir.file("b/warm/change.tif"), 2);
+  const auto d = habcast::test::read_band(s.dir.file("set/warm/change.tif"), 1);
+  const auto se = habcast::test::read_band(s.dir.file("set/warm/change.tif"), 2);
+  const auto classes = habcast::test::read_band(s.dir.file("set/warm/change_class.tif"), 1);
+  const auto mb = habcast::test::read_band(s.dir.file("set/baseline/suitability.tif"));
+  const auto ms = habcast::test::read_band(s.dir.file("set/warm/suitability.tif"));
+  const auto fb = habcast::test::read_band(s.dir.file("set/baseline/extrapolation.tif"));
+  const auto fs = habcast::test::read_band(s.dir.file("set/warm/extrapolation.tif"));
+  for (std::size_t i = 0; i < d.size(); ++i) {
+    INFO("pixel " << i);
+    // Burnham & Anderson's revised form over the models' changes (written out here).
+    const double m = wa * da[i] + wb * db[i];
+    const double v = wa * (sa[i] * sa[i] + (da[i] - m) * (da[i] - m)) + wb * (sb[i] * sb[i] + (db[i] - m) * (db[i] - m));
+    CHECK_THAT(d[i], Catch::Matchers::WithinAbs(m, 1e-6));
+    CHECK_THAT(se[i], Catch::Matchers::WithinRel(std::sqrt(v), 1e-5));
+    // The averaged change is the change of the averaged prediction.
+    CHECK_THAT(d[i], Catch::Matchers::WithinAbs(ms[i] - mb[i], 1e-6));
+    // Marks follow the union flags of each stack.
+    const int mark = static_cast<int>(classes[i]) & 48;
+    CHECK(((mark & 16) != 0) == (fb[i] != 0.0));
+    CHECK(((mark & 32) != 0) == (fs[i] != 0.0));
+  }
+  const auto report = nlohmann::json::parse(habcast::test::read_text(s.dir.file("set/scenarios.json")));
+  CHECK(report["scenarios"][0]["compared_pixels"] == 24 * 20);
+}
+
+TEST_CASE("a model set of one model twice under a scenario is that model's scenario run", "[modelset][scenarios]") {
+  SetScene s;
+  const std::string futures = s.dir.file("futures.toml");
+  REQUIRE(s.run({s.dir.file("b.toml"), "--scenarios", futures, "--threshold", "0.5", "-o", s.dir.file("one")}) == 0);
+  REQUIRE(s.run({s.dir.file("b.toml"), s.dir.file("b.toml"), "--scenarios", futures, "--threshold", "0.5", "-o",
+                 s.dir.file("twice")}) == 0);
+  const auto c1 = habcast::test::read_band(s.dir.file("one/warm/change.tif"), 1);
+  const auto c2 = habcast::test::read_band(s.dir.file("twice/warm/change.tif"), 1);
+  const auto s1 = habcast::test::read_band(s.dir.file("one/warm/change.tif"), 2);
+  const auto s2 = habcast::test::read_band(s.dir.file("twice/warm/change.tif"), 2);
+  for (std::size_t i = 0; i < c1.size(); ++i) {
+    CHECK_THAT(c2[i], Catch::Matchers::WithinAbs(c1[i], 1e-7));
+    CHECK_THAT(s2[i], Catch::Matchers::WithinRel(s1[i], 1e-6));
+  }
+  // Both classify on the stored suitability maps, which are equal.
+  CHECK(habcast::test::read_band(s.dir.file("twice/warm/change_class.tif")) ==
+        habcast::test::read_band(s.dir.file("one/warm/change_class.tif")));
 }

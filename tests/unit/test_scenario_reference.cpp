@@ -77,7 +77,7 @@ void check_against_r(const std::string& model_file, const std::string& pairs_fil
   combiner.begin(n, change);
   baseline.chunk(0, n, out_b, tally_b);
   scenario.chunk(0, n, out_s, tally_s);
-  combiner.chunk(0, n, baseline, scenario, out_b.flags, out_s.flags, change, change_tally);
+  combiner.chunk(0, n, baseline, scenario, out_b, out_s, change, change_tally);
 
   CHECK(change_tally.compared == n);
   for (Eigen::Index i = 0; i < n; ++i) {

@@ -109,6 +109,9 @@ TEST_CASE("a scenario shifting one covariate by a constant gives the closed-form
   std::vector<std::vector<double>> bands;
   for (int b = 1; b <= 5; ++b) bands.push_back(habcast::test::read_band(change, b));
   const std::vector<double> class_band = habcast::test::read_band(classes, 1);
+  // The side of the threshold is read from the stored maps, as a user reads them.
+  const std::vector<double> stored_b = habcast::test::read_band(scene.out + "/baseline/suitability.tif");
+  const std::vector<double> stored_s = habcast::test::read_band(scene.out + "/warm/suitability.tif");
   auto at = [](const std::vector<double>& band, int row, int col) { return band[static_cast<std::size_t>(row * kWidth + col)]; };
   int checked_gain = 0, checked_loss = 0, checked_stable = 0;
   for (int row = 0; row < kHeight; ++row) {
@@ -126,7 +129,9 @@ TEST_CASE("a scenario shifting one covariate by a constant gives the closed-form
                  Catch::Matchers::WithinAbs(0.5 * std::erfc(dmu / se / std::sqrt(2.0)), 1e-6));
       // The class at 0.3, marked where the baseline (t) or the scenario (t + 0.5) is outside the
       // training ranges.
-      const double b = mu_of(t, p), s = mu_of(t + kShift, p);
+      const double b = at(stored_b, row, col), s = at(stored_s, row, col);
+      CHECK_THAT(b, Catch::Matchers::WithinAbs(mu_of(t, p), 1e-7));
+      CHECK_THAT(s, Catch::Matchers::WithinAbs(mu_of(t + kShift, p), 1e-7));
       int expected = 0;
       if ((b >= 0.3) == (s >= 0.3)) {
         expected = b >= 0.3 ? 2 : 1;

@@ -56,8 +56,10 @@ bool extrapolated(const std::vector<std::uint8_t>& flags, std::size_t o) {
 }  // namespace
 
 void ChangeCombiner::chunk(Eigen::Index first, Eigen::Index rows, const BlockPredictor& baseline,
-                           const BlockPredictor& scenario, const std::vector<std::uint8_t>& flags_b,
-                           const std::vector<std::uint8_t>& flags_s, ChangeOutputs& out, ChangeTally& tally) {
+                           const BlockPredictor& scenario, const BlockOutputs& out_b, const BlockOutputs& out_s,
+                           ChangeOutputs& out, ChangeTally& tally) {
+  const std::vector<std::uint8_t>& flags_b = out_b.flags;
+  const std::vector<std::uint8_t>& flags_s = out_s.flags;
   const Eigen::VectorXd& eta_b = baseline.prediction().eta;
   const Eigen::VectorXd& eta_s = scenario.prediction().eta;
   response_gradient(link_, baseline.design(), eta_b, rows, G_b_);
@@ -92,7 +94,7 @@ void ChangeCombiner::chunk(Eigen::Index first, Eigen::Index rows, const BlockPre
     out.upper[o] = to_float(upper);
     out.p_decline[o] = static_cast<float>(probability_of_decline(change, se));
     if (threshold_) {
-      const std::uint8_t cls = change_class::classify(mu_b, mu_s, *threshold_, lower, upper);
+      const std::uint8_t cls = change_class::classify(out_b.suitability[o], out_s.suitability[o], *threshold_, lower, upper);
       const bool xb = extrapolated(flags_b, o);
       const bool xs = extrapolated(flags_s, o);
       out.classes[o] = static_cast<std::uint8_t>(cls | (xb ? change_class::baseline_extrapolated : 0) |

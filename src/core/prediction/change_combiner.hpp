@@ -47,11 +47,11 @@ class ChangeCombiner {
   void begin(Eigen::Index rows, ChangeOutputs& out) const;
 
   /// After `baseline.chunk(first, rows, ...)` and `scenario.chunk(first, rows, ...)`: fills the
-  /// chunk's change outputs. `flags_b`, `flags_s`: the block's extrapolation flags of each side
-  /// (empty when the model has no training samples: nothing is marked).
+  /// chunk's change outputs. `out_b`, `out_s`: the two sides' block outputs, whose stored
+  /// suitability decides the side of the threshold (so a class always agrees with the maps a user
+  /// reads) and whose flags mark extrapolation (none without training samples).
   void chunk(Eigen::Index first, Eigen::Index rows, const BlockPredictor& baseline, const BlockPredictor& scenario,
-             const std::vector<std::uint8_t>& flags_b, const std::vector<std::uint8_t>& flags_s, ChangeOutputs& out,
-             ChangeTally& tally);
+             const BlockOutputs& out_b, const BlockOutputs& out_s, ChangeOutputs& out, ChangeTally& tally);
 
   [[nodiscard]] bool has_classes() const { return threshold_.has_value(); }
 

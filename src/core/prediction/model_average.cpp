@@ -109,7 +109,7 @@ void AverageCombiner::begin(Eigen::Index rows, AverageOutputs& out) const {
 }
 
 void AverageCombiner::chunk(Eigen::Index first, Eigen::Index rows, const std::vector<const BlockPredictor*>& members,
-                            const std::vector<BlockOutputs>& outputs, AverageOutputs& out, AverageTally& tally) {
+                            const BlockOutputs* outputs, AverageOutputs& out, AverageTally& tally) {
   const std::size_t k = members.size();
   mu_.resize(k);
   se_.resize(k);

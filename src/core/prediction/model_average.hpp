@@ -69,10 +69,10 @@ class AverageCombiner {
   AverageCombiner(Family family, std::vector<double> weights, UnconditionalForm form, double z, bool with_flags);
 
   void begin(Eigen::Index rows, AverageOutputs& out) const;
-  /// After every member's chunk(first, rows): `members[i]` is model i's predictor, `outputs[i]` its
-  /// block outputs (for the flags).
+  /// After every member's chunk(first, rows): `members[i]` is model i's predictor, `outputs[i]`
+  /// (an array of members.size()) its block outputs, for the flags.
   void chunk(Eigen::Index first, Eigen::Index rows, const std::vector<const BlockPredictor*>& members,
-             const std::vector<BlockOutputs>& outputs, AverageOutputs& out, AverageTally& tally);
+             const BlockOutputs* outputs, AverageOutputs& out, AverageTally& tally);
 
  private:
   Family family_;
