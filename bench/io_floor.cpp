@@ -14,13 +14,20 @@
 // With --read-only nothing is written: the time to decode the inputs alone, which no choice of
 // output codec or precision (predict --max-error) can go below.
 //
+// With --mirror DIR the floor stands for a run of several predictions (scenarios, model sets;
+// bench/several.py): it reads any number of inputs (each in its own type) and writes, for every
+// uncompressed .tif under DIR (copies of that run's outputs), the same file under OUT_DIR with the
+// same bands, type and values: the same decoding and encoding work as the run, nothing else.
+//
 // Usage: habcast_io_floor OUT_DIR FLOAT1.tif FLOAT2.tif FLOAT3.tif FLOAT4.tif BYTE.tif
 //                         [--threads N|ALL_CPUS] [--window PIXELS] [--values DIR] [--read-only]
+//        habcast_io_floor OUT_DIR INPUT.tif... --mirror DIR [--threads N] [--window PIXELS]
 #include <cpl_conv.h>
 #include <gdal_priv.h>
 
 #include <cstdio>
 #include <cstdlib>
+#include <filesystem>
 #include <memory>
 #include <stdexcept>
 #include <string>
@@ -43,6 +50,7 @@ struct Args {
   int window = 1024;
   bool read_only = false;
   std::string values_dir;  // uncompressed copies of habcast's outputs, or empty
+  std::string mirror_dir;  // uncompressed copies of a several-prediction run's outputs, or empty
 };
 
 Args parse(int argc, char** argv) {
@@ -53,10 +61,11 @@ Args parse(int argc, char** argv) {
     else if (arg == "--window" && i + 1 < argc) a.window = std::atoi(argv[++i]);
     else if (arg == "--values" && i + 1 < argc) a.values_dir = argv[++i];
     else if (arg == "--read-only") a.read_only = true;
+    else if (arg == "--mirror" && i + 1 < argc) a.mirror_dir = argv[++i];
     else if (a.out_dir.empty()) a.out_dir = arg;
     else a.inputs.push_back(arg);
   }
-  if (a.out_dir.empty() || a.inputs.size() != 5 || a.window < 1)
+  if (a.out_dir.empty() || (a.mirror_dir.empty() ? a.inputs.size() != 5 : a.inputs.empty()) || a.window < 1)
     throw std::runtime_error(
         "usage: habcast_io_floor OUT_DIR F1.tif F2.tif F3.tif F4.tif BYTE.tif [--threads N] [--window PIXELS] "
         "[--values DIR] [--read-only]");
@@ -146,13 +155,54 @@ void run(const Args& a) {
   }
 }
 
+// --mirror: decode every input once per window, and re-encode every output of the run from its
+// uncompressed copy, window by window (the same order of work as the run).
+void run_mirror(const Args& a) {
+  namespace fs = std::filesystem;
+  std::vector<Dataset> in;
+  for (const std::string& p : a.inputs) in.push_back(open_input(p, a.threads));
+  std::vector<Dataset> sources, outputs;
+  for (const auto& entry : fs::recursive_directory_iterator(a.mirror_dir)) {
+    if (entry.path().extension() != ".tif") continue;
+    Dataset src = open_input(entry.path().string(), "1");
+    const fs::path target = fs::path(a.out_dir) / fs::relative(entry.path(), a.mirror_dir);
+    fs::create_directories(target.parent_path());
+    const GDALDataType type = src->GetRasterBand(1)->GetRasterDataType() == GDT_Byte ? GDT_Byte : GDT_Float32;
+    outputs.push_back(create_output(target.string(), *in.front(), src->GetRasterCount(), type, a.threads));
+    sources.push_back(std::move(src));
+  }
+  const int width = in.front()->GetRasterXSize();
+  const int height = in.front()->GetRasterYSize();
+  const auto n = static_cast<std::size_t>(a.window) * static_cast<std::size_t>(a.window);
+  std::vector<float> values(n);
+  for (int y = 0; y < height; y += a.window) {
+    const int h = std::min(a.window, height - y);
+    for (int x = 0; x < width; x += a.window) {
+      const int w = std::min(a.window, width - x);
+      for (Dataset& d : in) {
+        GDALRasterBand& b = *d->GetRasterBand(1);
+        io(b, GF_Read, x, y, w, h, values.data(), b.GetRasterDataType() == GDT_Byte ? GDT_Byte : GDT_Float32);
+      }
+      for (std::size_t o = 0; o < outputs.size(); ++o) {
+        for (int b = 1; b <= outputs[o]->GetRasterCount(); ++b) {
+          const GDALDataType type = outputs[o]->GetRasterBand(b)->GetRasterDataType();
+          io(*sources[o]->GetRasterBand(b), GF_Read, x, y, w, h, values.data(), type);
+          io(*outputs[o]->GetRasterBand(b), GF_Write, x, y, w, h, values.data(), type);
+        }
+      }
+    }
+  }
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
   try {
     GDALAllRegister();
     GDALSetCacheMax64(256LL << 20);
-    run(parse(argc, argv));
+    const Args args = parse(argc, argv);
+    if (args.mirror_dir.empty()) run(args);
+    else run_mirror(args);
     if (CPLGetLastErrorType() == CE_Failure) throw std::runtime_error(CPLGetLastErrorMsg());
     return 0;
   } catch (const std::exception& e) {

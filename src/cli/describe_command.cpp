@@ -3,6 +3,7 @@
 #include <ostream>
 
 #include "cli/commands.hpp"
+#include "cli/describe_model_set.hpp"
 #include "cli/describe_report.hpp"
 #include "core/base/error.hpp"
 #include "core/domain/training_samples.hpp"
@@ -39,6 +40,8 @@ constexpr const char* kDescribeHelp =
 
 struct DescribeArgs {
   std::string model_path;
+  std::vector<std::string> models;  ///< one model, or a model set
+  std::vector<double> weights;      ///< --weights of a model set
   std::string pair;
   std::vector<std::string> at;
   std::vector<std::string> levels;
@@ -100,6 +103,13 @@ void write_plots(const DescribeArgs& args, const ModelSpec& spec, const NicheDes
 
 int run_describe(DescribeArgs& args, std::ostream& out, std::ostream& err) {
   translate(args);
+  args.model_path = args.models.front();
+  if (args.models.size() > 1) {
+    if (!args.plot_svg.empty() || !args.plot_png.empty())
+      throw UsageError("--plot draws one model: describe the models of the set one by one to draw them");
+    return run_describe_model_set(args.models, args.weights, args.settings, args.json, out);
+  }
+  if (!args.weights.empty()) throw UsageError("--weights weighs the models of a set: give two or more model files");
   const ModelSpec spec = read_model_file(args.model_path);
   const TermPlan plan(spec);
   std::optional<TrainingSamples> samples;
@@ -118,7 +128,9 @@ void register_describe(CLI::App& app, CommandRegistry& registry) {
   auto args = std::make_shared<DescribeArgs>();
   CLI::App* cmd = app.add_subcommand("describe", "Describe the fitted niche: optimum, shape, tilt, breadth");
   cmd->footer(kDescribeHelp);
-  cmd->add_option("model", args->model_path, "Model file (TOML; see docs/model-format.md)")->required()->check(CLI::ExistingFile);
+  cmd->add_option("model", args->models, "Model file (TOML; see docs/model-format.md); two or more: a model set side by\n"
+                  "side with the Akaike-weighted optimum (docs/model-sets.md)")->required()->check(CLI::ExistingFile);
+  cmd->add_option("--weights", args->weights, "W1,W2,...: weights of a model set (default: Akaike weights)")->delimiter(',');
   cmd->add_option("--pair", args->pair,
                   "A,B: the two continuous covariates of the pair section and the plot\n"
                   "(default: the first two with squared or product terms)");

@@ -5,6 +5,8 @@
 #include <memory>
 
 #include "cli/commands.hpp"
+#include "cli/predict_model_set.hpp"
+#include "cli/predict_scenarios.hpp"
 #include "core/base/error.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "predict/predict_run.hpp"
@@ -52,6 +54,9 @@ struct PredictArgs {
   long long max_memory_mib = 2048;
   std::vector<std::string> checks{"range", "hull", "pairs", "nt2", "mess"};
   bool no_novelty_rasters = false;
+  ScenarioArgs scenarios;
+  std::vector<std::string> models;  ///< one model, or a model set
+  ModelSetArgs model_set;
 };
 
 void apply_checks(PredictArgs& args) {
@@ -88,6 +93,14 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
   std::unique_ptr<Progress> progress = make_progress(args.options.progress, err, terminal);
 
   StopSignalGuard guard;
+  args.options.model_path = args.models.front();
+  if (args.models.size() > 1)
+    return run_predict_model_set(args.options, args.models, args.model_set, args.scenarios, *progress,
+                                 args.log_format == "json", args.quiet, out);
+  if (!args.model_set.weights.empty()) throw UsageError("--weights weighs the models of a set: give two or more model files");
+  if (args.scenarios.any())
+    return run_predict_scenarios(args.options, args.scenarios, *progress, args.log_format == "json", args.quiet, out);
+  if (args.scenarios.threshold || !args.scenarios.threshold_from.empty()) throw UsageError("--threshold classifies a change: it needs --scenarios or --scenario");
   const PredictSummary summary = run_predict(args.options, *progress, HABCAST_VERSION);
   for (const std::string& w : summary.warnings) progress->message("warning", w);
 
@@ -115,8 +128,8 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
 void register_predict(CLI::App& app, CommandRegistry& registry) {
   auto args = std::make_shared<PredictArgs>();
   CLI::App* cmd = app.add_subcommand("predict", "Map a fitted model over covariate rasters");
-  cmd->footer(kPredictHelp);
-  cmd->add_option("model", args->options.model_path, "Model file (TOML; see docs/model-format.md)")
+  cmd->footer(std::string(kPredictHelp) + kScenarioHelp + kModelSetHelp);
+  cmd->add_option("model", args->models, "Model file (TOML; see docs/model-format.md); two or more: a model set, averaged")
       ->required()
       ->check(CLI::ExistingFile);
   cmd->add_option("-c,--covariate", args->covariates,
@@ -188,6 +201,27 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--log-format", args->log_format,
                   "text (default) or json: JSON lines of progress and warnings on stderr, report on stdout")
       ->check(CLI::IsMember({"text", "json"}));
+  cmd->add_option("--scenarios", args->scenarios.file, "FILE.toml: named scenarios, each replacing some covariates' rasters (docs/scenarios.md)")
+      ->check(CLI::ExistingFile);
+  cmd->add_option("--scenario", args->scenarios.inline_args,
+                  "NAME:COVARIATE=FILE: a scenario on the command line (repeatable; same NAME adds a covariate)");
+  cmd->add_option("--threshold", args->scenarios.threshold,
+                  "T: with scenarios, classify each pixel's change at suitability T (gain, loss, stable, not\n"
+                  "distinguishable) into change_class.tif");
+  cmd->add_option("--threshold-from", args->scenarios.threshold_from,
+                  "FILE: with scenarios, the threshold habcast evaluate recorded (its --json output, or the\n"
+                  "binary map of --write-binary)")
+      ->check(CLI::ExistingFile);
+  cmd->add_option("--change-quicklook", args->scenarios.change_quicklook,
+                  "png, svg or pdf: with scenarios and a threshold, draw change_class.EXT in each scenario's folder")
+      ->check(CLI::IsMember({"png", "svg", "pdf"}));
+  cmd->add_option("--weights", args->model_set.weights,
+                  "W1,W2,...: weights of a model set's models, in order (normalised); default: Akaike weights")
+      ->delimiter(',');
+  cmd->add_option("--average-se", args->model_set.se_form,
+                  "Unconditional SE of a model set: revised (default), sqrt(sum w (se^2 + d^2)), or 2002,\n"
+                  "sum w sqrt(se^2 + d^2), with d the model's departure from the average (Burnham & Anderson 2002)")
+      ->check(CLI::IsMember({"revised", "2002"}));
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_predict_command(*args, out, err); });
 }
 

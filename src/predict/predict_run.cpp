@@ -28,6 +28,7 @@
 #include "pipeline/recycling_pool.hpp"
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
+#include "predict/prediction_folder.hpp"
 #include "predict/prediction_report.hpp"
 #include "predict/unit_pass.hpp"
 #include "raster/covariate_reader.hpp"
@@ -562,6 +563,48 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     summary.outputs.push_back(path);
   }
   return summary;
+}
+
+}  // namespace habcast
+
+// ---- PredictionFolder (prediction_folder.hpp): predict's outputs, for runs of several predictions ----
+
+namespace habcast {
+
+struct PredictionFolder::Impl {
+  Outputs outputs;
+};
+
+PredictionFolder::PredictionFolder(const PredictOptions& options, const ModelSpec& spec, const RasterGrid& grid,
+                                   bool with_se, bool with_flags, const NoveltyModel* novelty, const std::string& version,
+                                   int threads)
+    : impl_(std::make_unique<Impl>(
+          Impl{create_outputs(options, spec, grid, with_se, with_flags, novelty, version, threads)})) {}
+
+PredictionFolder::~PredictionFolder() = default;
+
+void PredictionFolder::write(const Window& window, const BlockOutputs& outputs) { write_block(impl_->outputs, window, outputs); }
+
+std::vector<OutputRaster*> PredictionFolder::rasters() { return impl_->outputs.all(); }
+
+const std::string& PredictionFolder::report_path() const { return impl_->outputs.report_path; }
+
+std::vector<Window> prediction_windows(const RasterGrid& grid, int block_size) { return processing_windows(grid, block_size); }
+
+long long prediction_cache_bytes(const std::vector<Window>& windows, std::size_t bands, std::size_t threads) {
+  return cache_for_windows(windows, bands, threads);
+}
+
+void check_prediction_options(const PredictOptions& options) {
+  // The same checks and words as run_predict's opening lines.
+  if (!(options.level > 0.0 && options.level < 1.0))
+    throw UsageError("--level must lie strictly between 0 and 1 (for example 0.95), got " + format_value(options.level));
+  if (options.block_size < 16 || options.block_size > 16384)
+    throw UsageError("--block-size must be between 16 and 16384 pixels");
+  if (options.max_error && !(*options.max_error > 0.0 && *options.max_error <= 1.0))
+    throw UsageError("--max-error is an absolute error in the outputs' units, above 0 and at most 1 (for example "
+                     "1e-4), got " + format_value(*options.max_error));
+  check_novelty_options(options.novelty);
 }
 
 }  // namespace habcast

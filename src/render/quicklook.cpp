@@ -264,3 +264,13 @@ Figure quicklook_figure(const std::string& suitability_path, const std::string& 
 }
 
 }  // namespace habcast
+
+namespace habcast {
+
+std::vector<std::uint8_t> read_byte_band_decimated(const std::string& path, int w, int h) {
+  ensure_gdal();
+  DatasetPtr ds = open_input_raster(path, {"NUM_THREADS=ALL_CPUS"});
+  return read_decimated<std::uint8_t>(*ds, path, w, h, GDT_Byte);
+}
+
+}  // namespace habcast

@@ -4,7 +4,9 @@
 // sampled. The rasters are read decimated (GDAL RasterIO into a buffer of the picture's size,
 // from overviews when the file has them), so memory and time depend on the picture, not on the
 // raster: a 100 Mpix map draws in about a second.
+#include <cstdint>
 #include <string>
+#include <vector>
 
 #include "render/figure.hpp"
 
@@ -28,5 +30,13 @@ QuicklookLayout quicklook_layout(int raster_width, int raster_height);
 /// the map. Throws InputError naming a raster that cannot be read.
 Figure quicklook_figure(const std::string& suitability_path, const std::string& extrapolation_path, const std::string& title,
                         const std::string& caption = {});
+
+}  // namespace habcast
+
+namespace habcast {
+
+/// Band 1 of `path` (a Byte raster) read at w x h cells the way the quicklook reads its rasters
+/// (nearest cell, row by row, from the best overview), for other map pictures.
+std::vector<std::uint8_t> read_byte_band_decimated(const std::string& path, int w, int h);
 
 }  // namespace habcast

@@ -61,6 +61,13 @@ float to_output_off_nodata(double v, std::int64_t& moved) {
 
 void BlockPredictor::run(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows,
                          BlockOutputs& out, PredictionTally& tally, const UnitPass* units) {
+  begin(raw, valid, rows, out, tally, units);
+  for (Eigen::Index first = 0; first < rows; first += kChunk) chunk(first, std::min(kChunk, rows - first), out, tally);
+  end();
+}
+
+void BlockPredictor::begin(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows,
+                           BlockOutputs& out, PredictionTally& tally, const UnitPass* units) {
   const auto n = static_cast<std::size_t>(rows);
   out.suitability.assign(n, kFloatNodata);
   const bool with_se = evaluator_.has_covariance();
@@ -81,13 +88,9 @@ void BlockPredictor::run(const Eigen::ArrayXXd& raw, const std::vector<std::uint
   raw_ = &raw;
   units_ = units && units->cover && units->cover->size() > 0 ? units : nullptr;
   unit_cursor_ = 0;
-  for (Eigen::Index first = 0; first < rows; first += kChunk)
-    run_chunk(first, std::min(kChunk, rows - first), out, tally);
-  raw_ = nullptr;
-  units_ = nullptr;
 }
 
-void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally) {
+void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally) {
   std::uint8_t* ok = predict_valid_.data() + first;
   ModelValueCounts counts;
   to_model_values(spec_, plan_, *raw_, first, rows, values_, ok, counts);
@@ -105,6 +108,7 @@ void BlockPredictor::run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutpu
     const double mu = prediction_.mu[i];
     if (!representable(mu)) {
       ++tally.not_representable;
+      ok[i] = 0;  // so predicted() tells combiners this pixel has no value
       continue;
     }
     out.suitability[o] = off_nodata(static_cast<float>(mu), tally.moved_off_nodata);

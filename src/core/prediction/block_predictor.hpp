@@ -64,11 +64,28 @@ class BlockPredictor {
   void run(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows, BlockOutputs& out,
            PredictionTally& tally, const UnitPass* units = nullptr);
 
+  /// `run` in steps, so that several predictors can walk one window chunk by chunk in lockstep and
+  /// a combiner (change against a baseline, model average) can read each chunk's design matrix and
+  /// prediction while they are still in cache: `begin`, then `chunk` for first = 0, kChunk, ...,
+  /// then `end`. `raw` must outlive the steps.
+  void begin(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows, BlockOutputs& out,
+             PredictionTally& tally, const UnitPass* units = nullptr);
+  void chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally);
+  void end() {
+    raw_ = nullptr;
+    units_ = nullptr;
+  }
+
+  /// The last chunk's design matrix (first `rows` rows), prediction, and which of its pixels were
+  /// predicted (1) or left nodata (0).
+  [[nodiscard]] const Eigen::MatrixXd& design() const { return X_; }
+  [[nodiscard]] const Prediction& prediction() const { return prediction_; }
+  [[nodiscard]] const std::uint8_t* predicted(Eigen::Index first) const { return predict_valid_.data() + first; }
+
   /// Pixels per evaluation chunk: bounds the design matrix to chunk x terms doubles.
   static constexpr Eigen::Index kChunk = 4096;
 
  private:
-  void run_chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally);
   void add_to_units(Eigen::Index first, Eigen::Index rows, const BlockOutputs& out);
 
   const ModelSpec& spec_;

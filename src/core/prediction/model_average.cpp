@@ -1,0 +1,163 @@
+#include "core/prediction/model_average.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <stdexcept>
+
+#include "core/domain/extrapolation_flags.hpp"
+#include "core/model/float_nodata.hpp"
+#include "core/model/link.hpp"
+
+namespace habcast {
+
+std::vector<double> akaike_weights(const std::vector<double>& aic) {
+  if (aic.empty()) throw std::invalid_argument("akaike_weights: no models");
+  const double best = *std::min_element(aic.begin(), aic.end());
+  std::vector<double> w(aic.size());
+  double sum = 0.0;
+  for (std::size_t i = 0; i < aic.size(); ++i) sum += (w[i] = std::exp(-(aic[i] - best) / 2.0));
+  for (double& v : w) v /= sum;
+  return w;
+}
+
+AveragedValue average_models(const double* weights, const double* mu, const double* se, std::size_t k,
+                             UnconditionalForm form) {
+  AveragedValue a;
+  // Summed as offsets from the first model: identical predictions then average to exactly that
+  // value (weights that sum to 1 only up to rounding cannot move it), with no between-model part.
+  double offset = 0.0;
+  for (std::size_t i = 1; i < k; ++i) offset += weights[i] * (mu[i] - mu[0]);
+  a.mean = mu[0] + offset;
+  double within = 0.0, between = 0.0, form_2002 = 0.0;
+  for (std::size_t i = 0; i < k; ++i) {
+    const double d = mu[i] - a.mean;
+    within += weights[i] * se[i] * se[i];
+    between += weights[i] * d * d;
+    form_2002 += weights[i] * std::sqrt(se[i] * se[i] + d * d);
+  }
+  a.se = form == UnconditionalForm::revised ? std::sqrt(within + between) : form_2002;
+  a.between_share = within + between > 0.0 ? between / (within + between) : 0.0;
+  return a;
+}
+
+namespace {
+
+Link canonical_link(Family family) {
+  switch (family) {
+    case Family::binomial: return Link::logit;
+    case Family::poisson: return Link::log;
+    case Family::gaussian: return Link::identity;
+  }
+  return Link::identity;
+}
+
+float to_float(double v) {
+  if (!std::isfinite(v) || std::fabs(v) > static_cast<double>(std::numeric_limits<float>::max())) return kFloatNodata;
+  const auto f = static_cast<float>(v);
+  return f == kFloatNodata ? std::nextafter(kFloatNodata, 0.0f) : f;
+}
+
+}  // namespace
+
+void averaged_limits(Family family, double mean, double se, double z, double& lower, double& upper) {
+  if (!(se > 0.0)) {
+    lower = upper = mean;
+    return;
+  }
+  const Link link = canonical_link(family);
+  const double eta = link_function(link, mean);
+  const double d = link_inverse_derivative(link, eta);
+  if (!(d > 0.0) || !std::isfinite(eta)) {
+    // The mean sits on the edge of the range (a probability of exactly 0 or 1): no link-scale
+    // width can be formed, so the limits span the whole range.
+    lower = link_inverse(link, -std::numeric_limits<double>::infinity());
+    upper = link_inverse(link, std::numeric_limits<double>::infinity());
+    return;
+  }
+  const double se_eta = se / d;
+  lower = link_inverse(link, eta - z * se_eta);
+  upper = link_inverse(link, eta + z * se_eta);
+}
+
+void AverageTally::merge(const AverageTally& other) {
+  if (other.predicted > 0) {
+    min_response = predicted > 0 ? std::min(min_response, other.min_response) : other.min_response;
+    max_response = predicted > 0 ? std::max(max_response, other.max_response) : other.max_response;
+  }
+  pixels += other.pixels;
+  predicted += other.predicted;
+  disagree += other.disagree;
+  checked += other.checked;
+  flagged += other.flagged;
+  low_certainty += other.low_certainty;
+  sum_response += other.sum_response;
+}
+
+AverageCombiner::AverageCombiner(Family family, std::vector<double> weights, UnconditionalForm form, double z,
+                                 bool with_flags)
+    : family_(family), weights_(std::move(weights)), form_(form), z_(z), with_flags_(with_flags) {}
+
+void AverageCombiner::begin(Eigen::Index rows, AverageOutputs& out) const {
+  const auto n = static_cast<std::size_t>(rows);
+  out.suitability.assign(n, kFloatNodata);
+  out.se.assign(n, kFloatNodata);
+  out.lower.assign(n, kFloatNodata);
+  out.upper.assign(n, kFloatNodata);
+  out.between_share.assign(n, kFloatNodata);
+  out.flags.assign(with_flags_ ? n : 0, flag::nodata);
+}
+
+void AverageCombiner::chunk(Eigen::Index first, Eigen::Index rows, const std::vector<const BlockPredictor*>& members,
+                            const BlockOutputs* outputs, AverageOutputs& out, AverageTally& tally) {
+  const std::size_t k = members.size();
+  mu_.resize(k);
+  se_.resize(k);
+  tally.pixels += rows;
+  for (Eigen::Index i = 0; i < rows; ++i) {
+    const auto o = static_cast<std::size_t>(first + i);
+    if (with_flags_) {
+      // Union of the models' flags; no data if any model has none (each checks its own covariates).
+      std::uint8_t u = 0;
+      bool nodata = false;
+      for (std::size_t m = 0; m < k; ++m) {
+        const std::uint8_t f = outputs[m].flags[o];
+        if (f == flag::nodata) nodata = true;
+        else u = static_cast<std::uint8_t>(u | f);
+      }
+      out.flags[o] = nodata ? flag::nodata : u;
+      if (!nodata) {
+        ++tally.checked;
+        tally.flagged += u != 0 ? 1 : 0;
+      }
+    }
+    bool all = true;
+    for (std::size_t m = 0; m < k && all; ++m) {
+      if (!members[m]->predicted(first)[i]) {
+        all = false;
+        break;
+      }
+      const Prediction& p = members[m]->prediction();
+      mu_[m] = p.mu[i];
+      se_[m] = p.se_mu[i];
+    }
+    if (!all) continue;
+    const AveragedValue a = average_models(weights_.data(), mu_.data(), se_.data(), k, form_);
+    double lower = 0.0, upper = 0.0;
+    averaged_limits(family_, a.mean, a.se, z_, lower, upper);
+    out.suitability[o] = to_float(a.mean);
+    out.se[o] = to_float(a.se);
+    out.lower[o] = to_float(lower);
+    out.upper[o] = to_float(upper);
+    out.between_share[o] = static_cast<float>(a.between_share);
+    if (tally.predicted == 0) tally.min_response = tally.max_response = a.mean;
+    tally.min_response = std::min(tally.min_response, a.mean);
+    tally.max_response = std::max(tally.max_response, a.mean);
+    ++tally.predicted;
+    tally.sum_response += a.mean;
+    tally.disagree += a.between_share > 0.5 ? 1 : 0;
+    tally.low_certainty += certainty_.applies(lower, upper) ? 1 : 0;
+  }
+}
+
+}  // namespace habcast

@@ -1,0 +1,33 @@
+#pragma once
+// change.tif and change_class.tif of one scenario (docs/scenarios.md), shared by scenario runs of
+// one model and of a model set.
+#include <memory>
+#include <optional>
+#include <string>
+
+#include "core/model/model_spec.hpp"
+#include "core/prediction/change_combiner.hpp"
+#include "predict/predict_options.hpp"
+#include "predict/scenario_set.hpp"
+#include "raster/output_raster.hpp"
+#include "raster/raster_grid.hpp"
+#include "raster/window.hpp"
+
+namespace habcast {
+
+/// change.tif and change_class.tif of one scenario.
+struct ChangeRasters {
+  std::unique_ptr<OutputRaster> change;
+  std::unique_ptr<OutputRaster> classes;
+  /// Writes one window's change outputs and flushes the blocks it completes (window order).
+  void write(const Window& window, const ChangeOutputs& outputs);
+};
+
+/// Creates them under temporary names in `folder` (refusing to replace finished files unless
+/// options.overwrite); `models` names the model file(s) in the metadata; change_class.tif only
+/// with a threshold.
+ChangeRasters create_change_rasters(const PredictOptions& options, const ModelSpec& spec, const std::string& models,
+                                    const Scenario& scenario, const std::string& folder, const RasterGrid& grid,
+                                    std::optional<double> threshold, const std::string& version, int threads);
+
+}  // namespace habcast
