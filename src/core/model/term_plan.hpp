@@ -29,6 +29,13 @@ class TermPlan {
   [[nodiscard]] const std::optional<Term>& offset_term() const { return offset_; }
   /// True for covariates that appear in at least one term or in the offset.
   [[nodiscard]] bool uses_covariate(int covariate) const;
+  /// The spline bases the terms use, one per (covariate, ns or bs), built once from the spec.
+  struct SplineUse {
+    int covariate = -1;
+    TermFunction function = TermFunction::natural_spline;
+    SplineBasis basis;
+  };
+  [[nodiscard]] const std::vector<SplineUse>& splines() const { return splines_; }
 
   /// Fills X (rows x term_count) for the first `rows` rows of `values`. Sets valid[i] = 0 where a
   /// term is undefined or not finite (log of a non-positive value, ...) or a categorical value is
@@ -42,7 +49,11 @@ class TermPlan {
                    std::uint8_t* valid) const;
 
  private:
-  void fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column) const;
+  void fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column,
+                 const std::vector<Eigen::MatrixXd>& spline_values) const;
+  void add_splines(const Term& term, const ModelSpec& spec);
+
+  std::vector<SplineUse> splines_;
 
   std::vector<Term> terms_;
   std::optional<Term> offset_;
