@@ -14,8 +14,9 @@ Rules the model must follow (a ValueError says which one is broken):
 - each covariate is a column of `training_data` holding RAW values, named as on predict's command
   line; if it was standardised before fitting, give (center, scale) in `standardisation`;
 - terms are plain variables, powers I(x ** k) or I(x^k), products a:b, np.log/np.sqrt/np.exp or
-  log/sqrt/exp of a variable, and treatment-coded factors C(x) (or string columns), whose first
-  level is the reference;
+  log/sqrt/exp of a variable, treatment-coded factors C(x) (or string columns), whose first
+  level is the reference, and patsy's B-splines bs(x, ...) of a plain variable (patsy's bs
+  follows R's splines::bs; patsy has no orthogonal poly() or ns() for numbers);
 - factor levels map to the raster's integer codes via `categorical` (default: 1, 2, ... in the
   order of the levels);
 - models without a formula need `term_names` (habcast labels, one per column of exog).
@@ -47,6 +48,9 @@ def _arr(items):
 
 
 def _part_label(part, factors):
+    m = re.fullmatch(r"bs\((%s)(?:,[^)]*)?\)\[([0-9]+)\]" % _NAME, part)
+    if m:  # patsy's bs(): column k (0-based) -> habcast's bs(x)[k + 1]
+        return "bs(%s)[%d]" % (m.group(1), int(m.group(2)) + 1), m.group(1)
     m = re.fullmatch(r"(?:C\((%s)(?:,[^)]*)?\)|(%s))\[T\.(.+)\]" % (_NAME, _NAME), part)
     if m:
         var = m.group(1) or m.group(2)
@@ -62,6 +66,39 @@ def _part_label(part, factors):
         return part, part
     raise ValueError('term part "%s" has no habcast equivalent; use x, I(x ** k), a:b, log(x), '
                      "sqrt(x), exp(x) or C(x)" % part)
+
+
+def _spline_lines(model, var):
+    """TOML line declaring the B-spline basis of `var` from patsy's stored bs() state (knots in the
+    units the model saw), or [] when `var` has no bs() term."""
+    design_info = getattr(getattr(model, "data", None), "design_info", None)
+    if design_info is None:
+        return []
+    found = []
+    for factor, info in design_info.factor_infos.items():
+        code = factor.name()
+        if not re.fullmatch(r"bs\(%s(?:,.*)?\)" % re.escape(var), code):
+            continue
+        for obj in (getattr(info, "state", None) or {}).get("transforms", {}).values():
+            if type(obj).__name__ != "BS":
+                continue
+            degree = int(obj._degree)
+            knots = np.sort(np.asarray(obj._all_knots, dtype=float))
+            lower, upper = knots[0], knots[-1]
+            inner = knots[degree + 1:len(knots) - degree - 1]
+            columns = sum(1 for n in design_info.column_names if n.startswith(code + "["))
+            intercept = columns == len(knots) - degree - 1
+            found.append((tuple(inner), lower, upper, degree, intercept))
+    if not found:
+        return []
+    if len(set(found)) > 1:
+        raise ValueError("covariate %s enters through two different bs() bases; habcast holds one per covariate" % var)
+    inner, lower, upper, degree, intercept = found[0]
+    items = ["knots = " + _arr(_fmt17(k) for k in inner), "boundary = " + _arr([_fmt17(lower), _fmt17(upper)]),
+             "degree = %d" % degree]
+    if intercept:
+        items.append("intercept = true")
+    return ["bs = { " + ", ".join(items) + " }"]
 
 
 def habcast_terms(exog_names):
@@ -159,6 +196,7 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
         else:
             center, scale = standardisation.get(var, (0.0, 1.0))
             lines += ['type = "continuous"', "center = " + _fmt17(center), "scale = " + _fmt17(scale)]
+            lines += _spline_lines(model, var)
         if var in units:
             lines.append("units = " + _q(units[var]))
         if var in rasters:
