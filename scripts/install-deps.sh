@@ -13,7 +13,8 @@ packages=(
   build-essential cmake ninja-build pkg-config
   libgdal-dev gdal-bin libproj-dev proj-data libeigen3-dev
   libcli11-dev catch2 libtomlplusplus-dev nlohmann-json3-dev
-  libqhull-dev libtbb-dev
+  libqhull-dev
+  libcairo2-dev libpango1.0-dev fonts-dejavu-core  # figures: Cairo surfaces, Pango text, DejaVu Sans
   python3 python3-gdal python3-numpy
   time  # /usr/bin/time: the benchmark's per-run peak memory
 )

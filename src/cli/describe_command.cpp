@@ -10,8 +10,8 @@
 #include "core/model/term_plan.hpp"
 #include "core/niche/niche_description.hpp"
 #include "pipeline/atomic_file.hpp"
+#include "render/figure_file.hpp"
 #include "render/niche_plot.hpp"
-#include "render/niche_plot_png.hpp"
 
 namespace habcast::cli {
 
@@ -34,7 +34,7 @@ constexpr const char* kDescribeHelp =
     "Formulas and references: docs/describe.md.\n\n"
     "Examples:\n"
     "  habcast describe sample-rasters/demo-model.toml\n"
-    "  habcast describe model.toml --pair tmin,precip --plot niche.svg\n"
+    "  habcast describe model.toml --pair tmin,precip --plot niche.pdf\n"
     "  habcast describe model.toml --at slope=10 --level landcover=bog --fraction 0.25 --json";
 
 struct DescribeArgs {
@@ -74,6 +74,10 @@ void translate(DescribeArgs& args) {
     const auto [name, level] = split_assignment("--level", item, "landcover=bog");
     if (!args.settings.levels.emplace(name, level).second) throw UsageError("--level " + name + "=... is given twice");
   }
+  // The picture's format follows its extension; an unknown one is refused before any work.
+  if (!args.plot_svg.empty()) figure_format(args.plot_svg);
+  if (!args.plot_png.empty() && figure_format(args.plot_png) != FigureFormat::png)
+    throw UsageError("--plot-png " + args.plot_png + ": the name must end in .png (or use --plot, which takes .svg, .png or .pdf)");
   if (!args.pair.empty()) {
     const auto comma = args.pair.find(',');
     if (comma == std::string::npos || comma == 0 || comma + 1 == args.pair.size())
@@ -86,14 +90,11 @@ void write_plots(const DescribeArgs& args, const ModelSpec& spec, const NicheDes
   if (args.plot_svg.empty() && args.plot_png.empty()) return;
   if (!d.pair)
     throw UsageError("--plot needs two continuous covariates to draw; this model has fewer that are not held by --at");
-  const NichePlot plot = layout_niche_plot(spec, d, args.settings.canonical.fraction);
-  if (!args.plot_svg.empty()) {
-    write_file_atomically(args.plot_svg, niche_plot_svg(plot));
-    err << "habcast: wrote " << args.plot_svg << "\n";
-  }
-  if (!args.plot_png.empty()) {
-    write_niche_plot_png(plot, args.plot_png);
-    err << "habcast: wrote " << args.plot_png << "\n";
+  const Figure figure = niche_plot_figure(layout_niche_plot(spec, d, args.settings.canonical.fraction));
+  for (const std::string& path : {args.plot_svg, args.plot_png}) {
+    if (path.empty()) continue;
+    write_file_atomically(path, encode_figure(figure, path));
+    err << "habcast: wrote " << path << "\n";
   }
 }
 
@@ -133,8 +134,10 @@ void register_describe(CLI::App& app, CommandRegistry& registry) {
       ->default_val(0.95)
       ->check(CLI::Range(0.5, 0.9999));
   cmd->add_flag("--json", args->json, "Print JSON for pipelines instead of text (fields: docs/describe.md)");
-  cmd->add_option("--plot", args->plot_svg, "FILE.svg: draw the pair: contours, training sites and hull, optimum, axes");
-  cmd->add_option("--plot-png", args->plot_png, "FILE.png: the same picture as a PNG");
+  cmd->add_option("--plot", args->plot_svg,
+                  "FILE.pdf, FILE.svg or FILE.png (format by extension): draw the pair: response bands and\n"
+                  "contours, training sites and hull, optimum, axes (docs/figures.md)");
+  cmd->add_option("--plot-png", args->plot_png, "FILE.png: the same picture as a PNG as well (300 dpi)");
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_describe(*args, out, err); });
 }
 

@@ -133,8 +133,8 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
       ->check(CLI::Range(16LL, 1LL << 30));
   cmd->add_flag("--overviews", args->options.overviews, "Build internal overviews for fast display");
   cmd->add_option("--quicklook", args->options.quicklook_path,
-                  "FILE.png: also draw a small picture of suitability.tif (longer side 512 pixels) with\n"
-                  "extrapolated pixels hatched, a legend and a scale bar");
+                  "FILE.png, FILE.pdf or FILE.svg (format by extension): also draw a one-page picture of\n"
+                  "suitability.tif with extrapolated pixels hatched, a legend and a scale bar");
   cmd->add_flag("--overwrite", args->options.overwrite, "Replace existing outputs in the output folder");
   cmd->add_option("--max-extrapolated", args->max_extrapolated,
                   "PERCENT: exit with code 5 when more than this share of valid pixels is extrapolated\n"

@@ -34,6 +34,7 @@
 #include "raster/output_raster.hpp"
 #include "raster/raster_grid.hpp"
 #include "raster/window.hpp"
+#include "render/figure_file.hpp"
 #include "render/quicklook.hpp"
 
 namespace habcast {
@@ -380,7 +381,10 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     domain.emplace(spec, *samples);
     if (options.novelty.any()) novelty.emplace(spec, plan, *samples, options.novelty);
   }
-  if (!options.quicklook_path.empty()) refuse_to_clobber({options.quicklook_path}, options.overwrite, ", or choose another --quicklook path");
+  if (!options.quicklook_path.empty()) {
+    figure_format(options.quicklook_path);  // .png, .pdf or .svg; anything else is refused before the run
+    refuse_to_clobber({options.quicklook_path}, options.overwrite, ", or choose another --quicklook path");
+  }
   if (options.max_extrapolated_percent && !domain)
     throw InputError(located(spec.path, 0, "--max-extrapolated needs training samples: add [training] samples = \"FILE.csv\""));
 
@@ -446,8 +450,9 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   std::string quicklook_problem;
   if (!options.quicklook_path.empty()) {
     try {
-      write_quicklook(out.suitability->final_path(), out.extrapolation ? out.extrapolation->final_path() : "",
-                      options.quicklook_path, spec.name.empty() ? "habcast prediction" : spec.name);
+      const Figure quicklook = quicklook_figure(out.suitability->final_path(), out.extrapolation ? out.extrapolation->final_path() : "",
+                                                spec.name.empty() ? "habcast prediction" : spec.name, spec.description);
+      write_file_atomically(options.quicklook_path, encode_figure(quicklook, options.quicklook_path));
     } catch (const Error& e) {
       quicklook_problem = std::string("no quicklook was written: ") + e.what();
     }

@@ -9,13 +9,14 @@
 #include "core/base/number_text.hpp"
 #include "core/model/link.hpp"
 #include "core/model/model_values.hpp"
+#include "render/unit_text.hpp"
 
 namespace habcast {
 
 namespace {
 
 std::string axis_label(const Covariate& c) {
-  std::string units = c.units;
+  std::string units = typeset_units(c.units);
   if (c.transform != Transform::none) units += std::string(units.empty() ? "" : ", ") + to_string(c.transform) + " scale";
   return units.empty() ? c.name : c.name + " (" + units + ")";
 }
@@ -84,7 +85,7 @@ std::vector<PlotTick> ticks(const Covariate& c, double lo, double hi) {
   std::vector<PlotTick> out;
   for (double raw : raw_ticks(c, raw_value(c, lo), raw_value(c, hi))) {
     const double m = model_value(c, raw);
-    if (std::isfinite(m)) out.push_back({m, significant(raw, 4)});
+    if (std::isfinite(m)) out.push_back({m, typeset_number(raw, 4)});
   }
   return out;
 }
@@ -144,7 +145,7 @@ void stationary_and_axes(NichePlot& plot, const PairDescription& pair, double fr
     // simply cross the window.
     const double half = axis.half_width ? *axis.half_width : 0.4 * diagonal;
     std::string label = "axis " + std::to_string(k + 1);
-    if (axis.half_width) label += " (to " + significant(100.0 * fraction, 4) + " % of peak)";
+    if (axis.half_width) label += " (to " + significant(100.0 * fraction, 4) + " % of the peak)";
     plot.principal_axes.push_back(through(s, axis.direction, half, label));
   }
 }
@@ -172,11 +173,12 @@ std::string held_summary(const ModelSpec& spec, const NicheDescription& d, int f
     if (static_cast<int>(c) == first || static_cast<int>(c) == second) continue;
     const Covariate& cov = spec.covariates[c];
     const double v = d.reference.values[static_cast<Eigen::Index>(c)];
-    std::string value = cov.categorical ? cov.levels[static_cast<std::size_t>(v)].name : significant(raw_value(cov, v), 4);
-    if (!cov.categorical && !cov.units.empty()) value += " " + cov.units;
+    std::string value = cov.categorical ? cov.levels[static_cast<std::size_t>(v)].name : typeset_number(raw_value(cov, v), 4);
+    const std::string units = typeset_units(cov.units);
+    if (!cov.categorical && !units.empty()) value += (units == "°" ? "" : " ") + units;  // an angle takes no space: 4.3°
     s += (s.empty() ? "" : ", ") + cov.name + " = " + value;
   }
-  return s.empty() ? "" : "others held at " + s;
+  return s.empty() ? "" : "Others held at " + s;
 }
 
 }  // namespace
@@ -195,6 +197,7 @@ NichePlot layout_niche_plot(const ModelSpec& spec, const NicheDescription& descr
   plot.x_label = axis_label(cx);
   plot.y_label = axis_label(cy);
   plot.response_label = response_description(spec);
+  plot.caption = spec.description;
   choose_window(plot, pair);
   plot.x_ticks = ticks(cx, plot.x0, plot.x1);
   plot.y_ticks = ticks(cy, plot.y0, plot.y1);

@@ -2,7 +2,8 @@
 // describe's picture of a pair of covariates: contour lines of the predicted response over the
 // plane of the two covariates (every other covariate at its reference), the training points and
 // their convex hull, the stationary point, the principal axes and the lines of conditional optima.
-// The layout is computed once (NichePlot) and drawn by the SVG writer or the PNG rasteriser.
+// The content is computed once (NichePlot) and drawn as one Figure (render/drawing.hpp), written
+// as SVG, PNG or PDF.
 #include <Eigen/Core>
 #include <optional>
 #include <string>
@@ -13,6 +14,7 @@
 #include "core/niche/niche_description.hpp"
 #include "core/numeric/convex_hull_2d.hpp"
 #include "render/contours.hpp"
+#include "render/figure.hpp"
 
 namespace habcast {
 
@@ -48,6 +50,7 @@ struct NichePlot {
   std::vector<PlotLine> principal_axes;
   std::vector<PlotLine> conditional_optima;
   std::vector<std::string> notes;        ///< e.g. "optimum outside the plotted window"
+  std::string caption;                   ///< the model's description (the demo's says it is invented)
   double breadth_percent = 50.0;         ///< the breadth level as a percentage of the peak
 };
 
@@ -55,7 +58,7 @@ struct NichePlot {
 /// (as in the analysis); `grid` the number of response samples per side (>= 3).
 NichePlot layout_niche_plot(const ModelSpec& spec, const NicheDescription& description, double fraction, int grid = 121);
 
-/// The plot as an SVG document (760 x 560 user units).
-std::string niche_plot_svg(const NichePlot& plot);
+/// The plot as a figure at A4 text width (170 mm), the plot square with its legend beside it.
+Figure niche_plot_figure(const NichePlot& plot);
 
 }  // namespace habcast

@@ -5,33 +5,33 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdint>
-#include <cstdio>
 #include <limits>
 #include <vector>
 
 #include "core/base/error.hpp"
-#include "core/base/number_text.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/raster_grid.hpp"
-#include "render/canvas.hpp"
-#include "render/png_writer.hpp"
+#include "render/drawing.hpp"
 
 namespace habcast {
 
 namespace {
 
-constexpr int kMargin = 16, kTitle = 40, kLegend = 220, kFooter = 60, kMinMapHeight = 240;
-const Rgb kNoData{228, 228, 228};
+namespace fs = figure_style;
 
-/// One band read at the picture's size: GDAL picks the source pixels (nearest neighbour, from an
-/// overview when the file has one), so only map_width x map_height values are ever held.
+constexpr double kMargin = 8.0, kMapBoxWidth = 330.0, kMapBoxHeight = 360.0, kLegendGap = 18.0;
+constexpr double kTop = kMargin + fs::kTitleSize + 14.0;
+const Rgb kNoData{228, 228, 228};
+constexpr int kRampSteps = 255;  // palette 0..254: the ramp; 255: no data
+
+/// One band read at the picture's size: GDAL picks the source cells (nearest neighbour, from an
+/// overview when the file has one), so only pixels_x x pixels_y values are ever held.
 template <typename T>
-std::vector<T> read_decimated(GDALDataset& ds, const std::string& path, int map_w, int map_h, GDALDataType type) {
+std::vector<T> read_decimated(GDALDataset& ds, const std::string& path, int w, int h, GDALDataType type) {
   GDALRasterBand& band = input_band(ds, path, 1);
-  std::vector<T> values(static_cast<std::size_t>(map_w) * static_cast<std::size_t>(map_h));
-  if (band.RasterIO(GF_Read, 0, 0, ds.GetRasterXSize(), ds.GetRasterYSize(), values.data(), map_w, map_h, type, 0, 0,
-                    nullptr) != CE_None)
+  std::vector<T> values(static_cast<std::size_t>(w) * static_cast<std::size_t>(h));
+  if (band.RasterIO(GF_Read, 0, 0, ds.GetRasterXSize(), ds.GetRasterYSize(), values.data(), w, h, type, 0, 0, nullptr) != CE_None)
     throw InputError(path + ": cannot read the raster for the quicklook (" + gdal_reason() + ")");
   return values;
 }
@@ -43,9 +43,8 @@ struct Field {
   bool has_nodata = false;
   double lo = 0.0, hi = 1.0;
   std::string units;
-  [[nodiscard]] bool valid(std::size_t i) const {
-    return std::isfinite(values[i]) && !(has_nodata && values[i] == nodata);
-  }
+  [[nodiscard]] bool valid(std::size_t i) const { return std::isfinite(values[i]) && !(has_nodata && values[i] == nodata); }
+  [[nodiscard]] bool flagged(std::size_t i) const { return !flags.empty() && flags[i] != 0 && flags[i] != 255; }
 };
 
 void value_range(Field& f) {
@@ -65,114 +64,152 @@ void value_range(Field& f) {
   }
 }
 
-/// Extrapolated pixels: diagonal stripes in whichever of black or white contrasts with the colour
-/// underneath, so the hatching stays visible in greyscale too.
-void draw_map(Canvas& canvas, const Field& f, int x0, int y0, int w, int h) {
-  for (int y = 0; y < h; ++y)
-    for (int x = 0; x < w; ++x) {
-      const std::size_t i = static_cast<std::size_t>(y) * static_cast<std::size_t>(w) + static_cast<std::size_t>(x);
-      if (!f.valid(i)) {
-        canvas.set(x0 + x, y0 + y, kNoData);
-        continue;
-      }
-      const Rgb c = ramp_colour((f.values[i] - f.lo) / (f.hi - f.lo));
-      const bool extrapolated = !f.flags.empty() && f.flags[i] != 0 && f.flags[i] != 255;
-      const bool stripe = extrapolated && (x + y) % 6 < 2;
-      canvas.set(x0 + x, y0 + y, stripe ? (lightness(c) > 55.0 ? kInk : Rgb{255, 255, 255}) : c);
+/// The palette index of a value: its position on the ramp in 255 steps.
+std::uint8_t ramp_index(const Field& f, double v) {
+  const double t = std::clamp((v - f.lo) / (f.hi - f.lo), 0.0, 1.0);
+  return static_cast<std::uint8_t>(std::lround(t * (kRampSteps - 1)));
+}
+
+/// The map image, and the extrapolated pixels split by the lightness beneath them: hatched in ink
+/// over light colours and in white over dark ones, so the hatching shows everywhere, in greyscale too.
+struct MapLayers {
+  IndexedImage image;
+  PixelMask dark_hatch, light_hatch;
+  bool any_flagged = false;
+};
+
+MapLayers map_layers(const Field& f, int w, int h) {
+  MapLayers m;
+  m.image.width = w;
+  m.image.height = h;
+  for (int k = 0; k < kRampSteps; ++k) m.image.palette.push_back(ramp_colour(static_cast<double>(k) / (kRampSteps - 1)));
+  m.image.palette.push_back(kNoData);
+  const std::size_t n = static_cast<std::size_t>(w) * static_cast<std::size_t>(h);
+  m.image.index.resize(n);
+  m.dark_hatch = {w, h, std::vector<std::uint8_t>(n, 0)};
+  m.light_hatch = {w, h, std::vector<std::uint8_t>(n, 0)};
+  for (std::size_t i = 0; i < n; ++i) {
+    if (!f.valid(i)) {
+      m.image.index[i] = kRampSteps;
+      continue;
     }
-  canvas.rect_outline(x0 - 1, y0 - 1, w + 2, h + 2, kInk);
-}
-
-void draw_legend(Canvas& canvas, const Field& f, int x0, int y0, bool has_flags) {
-  canvas.text(x0, y0, f.units.empty() ? "SUITABILITY" : "SUITABILITY (" + f.units + ")", kInk);
-  const int bar_top = y0 + 16, bar_h = 120;
-  for (int y = 0; y < bar_h; ++y) canvas.line(x0, bar_top + y, x0 + 18, bar_top + y, ramp_colour(1.0 - static_cast<double>(y) / (bar_h - 1)));
-  canvas.rect_outline(x0, bar_top, 19, bar_h, kInk);
-  canvas.text(x0 + 26, bar_top, significant(f.hi, 3), kInk);
-  canvas.text(x0 + 26, bar_top + bar_h / 2 - 3, significant((f.lo + f.hi) / 2, 3), kInk);
-  canvas.text(x0 + 26, bar_top + bar_h - 7, significant(f.lo, 3), kInk);
-  int y = bar_top + bar_h + 14;
-  if (has_flags) {
-    for (int yy = 0; yy < 12; ++yy)
-      for (int xx = 0; xx < 19; ++xx) canvas.set(x0 + xx, y + yy, (xx + yy) % 6 < 2 ? kInk : ramp_colour(0.8));
-    canvas.rect_outline(x0, y, 19, 12, kInk);
-    canvas.text(x0 + 26, y + 3, "OUTSIDE TRAINING DATA", kInk);
-    y += 18;
+    m.image.index[i] = ramp_index(f, f.values[i]);
+    if (f.flagged(i)) {
+      m.any_flagged = true;
+      (lightness(m.image.palette[m.image.index[i]]) > 55.0 ? m.dark_hatch : m.light_hatch).on[i] = 1;
+    }
   }
-  canvas.fill_rect(x0, y, 19, 12, kNoData);
-  canvas.rect_outline(x0, y, 19, 12, kInk);
-  canvas.text(x0 + 26, y + 3, "NO DATA", kInk);
+  return m;
 }
 
-/// A bar of a round length (1, 2 or 5 times a power of ten metres) close to a quarter of the map.
-void draw_scale(Canvas& canvas, const RasterGrid& grid, int raster_w, int map_w, int x0, int y0) {
-  const double map_pixel = std::fabs(grid.geotransform[1]) * raster_w / map_w;  // CRS units per map pixel
-  std::string note;
+Hatch map_hatch(Rgb colour) { return {colour, 3.2, 0.7}; }
+
+Legend map_legend(const Field& f, bool flagged, double width) {
+  Legend legend(width);
+  legend.heading(f.units.empty() ? "Suitability" : "Suitability (" + typeset_units(f.units) + ")");
+  std::vector<std::pair<double, std::string>> labels;
+  for (const Tick& t : round_ticks(f.lo, f.hi, 4)) labels.emplace_back((t.value - f.lo) / (f.hi - f.lo), t.label);
+  legend.colour_ramp(labels, 110.0);
+  legend.gap(6.0);
+  if (flagged) legend.swatch("outside the training data (extrapolated)", Fill{ramp_colour(0.8)}, Stroke{kInk, 0.4}, map_hatch(kInk));
+  legend.swatch("no data", Fill{kNoData}, Stroke{kInk, 0.4});
+  return legend;
+}
+
+std::string cells_text(long long n) {
+  std::string s = std::to_string(n), out;
+  for (std::size_t i = 0; i < s.size(); ++i) {
+    if (i > 0 && (s.size() - i) % 3 == 0) out += "\u2009";  // thin space between thousands
+    out += s[i];
+  }
+  return out;
+}
+
+/// The scale bar (projected CRS in known units only) and a line on how the map was sampled.
+double draw_scale(Figure& fig, const RasterGrid& grid, const QuicklookLayout& l, double y) {
+  const double raster_units_per_point = std::fabs(grid.geotransform[1]) * grid.width / l.map.width;
+  std::string sampling = cells_text(grid.width) + " × " + cells_text(grid.height) + " cells";
+  if (l.pixels_x < grid.width || l.pixels_y < grid.height)
+    sampling += ", drawn from " + cells_text(l.pixels_x) + " × " + cells_text(l.pixels_y) + " of them (nearest cell)";
   if (grid.has_geotransform && grid.linear_units_to_metre > 0.0) {
-    const double metres_per_pixel = map_pixel * grid.linear_units_to_metre;
-    const double target = metres_per_pixel * map_w / 4.0;
-    const double power = std::pow(10.0, std::floor(std::log10(target)));
-    double length = power;
-    for (double m : {2.0, 5.0})
-      if (m * power <= target) length = m * power;
-    const int bar = static_cast<int>(std::lround(length / metres_per_pixel));
-    canvas.fill_rect(x0, y0, bar, 4, kInk);
-    canvas.line(x0, y0 - 3, x0, y0 + 6, kInk);
-    canvas.line(x0 + bar, y0 - 3, x0 + bar, y0 + 6, kInk);
-    canvas.text(x0 + bar + 8, y0 - 1, length >= 1000 ? significant(length / 1000, 3) + " KM" : significant(length, 3) + " M", kInk);
-    note = "1 PIXEL HERE = " + significant(metres_per_pixel, 3) + " M ON THE GROUND (" + grid.crs_name + ")";
+    scale_bar(fig, {l.map.x, y + 22.0}, raster_units_per_point * grid.linear_units_to_metre, l.map.width / 3.0);
+    sampling += "; " + grid.crs_name;
+    y += 26.0;
   } else if (grid.has_geotransform) {
-    note = "1 PIXEL HERE = " + significant(map_pixel, 3) + " CRS UNITS (NOT A PROJECTED CRS: NO SCALE BAR)";
+    sampling += "; not a projected CRS, so no scale bar" + (grid.crs_name.empty() ? std::string() : " (" + grid.crs_name + ")");
   } else {
-    note = "NO GEOREFERENCING: NO SCALE";
+    sampling += "; no georeferencing, so no scale";
   }
-  canvas.text(x0, y0 + 16, note, kInk);
+  y += 4.0 + fs::kNoteSize;
+  for (const std::string& line : wrap_text(sampling, fs::note(), fig.width() - 2 * kMargin)) {
+    fig.text({kMargin, y}, line, fs::note(), "sampling-note");
+    y += 1.3 * fs::kNoteSize;
+  }
+  return y;
 }
 
 }  // namespace
 
-QuicklookLayout quicklook_layout(int raster_width, int raster_height, int max_edge) {
+QuicklookLayout quicklook_layout(int raster_width, int raster_height) {
   QuicklookLayout l;
-  const double s = static_cast<double>(max_edge) / std::max(raster_width, raster_height);
-  l.map_width = std::max(1, static_cast<int>(std::lround(raster_width * s)));
-  l.map_height = std::max(1, static_cast<int>(std::lround(raster_height * s)));
-  l.width = l.map_width + 2 * kMargin + kLegend;
-  l.height = std::max(l.map_height, kMinMapHeight) + kTitle + kFooter;
+  const double scale = std::min(kMapBoxWidth / raster_width, kMapBoxHeight / raster_height);
+  l.map = {kMargin, kTop, raster_width * scale, raster_height * scale};
+  const double per_point = kPngDpi / 72.0;
+  l.pixels_x = std::clamp(static_cast<int>(std::lround(l.map.width * per_point)), 1, raster_width);
+  l.pixels_y = std::clamp(static_cast<int>(std::lround(l.map.height * per_point)), 1, raster_height);
+  l.width = kA4FigureWidth;
   return l;
 }
 
-QuicklookLayout write_quicklook(const std::string& suitability_path, const std::string& extrapolation_path,
-                                const std::string& png_path, const std::string& title, int max_edge) {
-  if (max_edge < 16) throw UsageError("the quicklook needs at least 16 pixels on its longer side");
+Figure quicklook_figure(const std::string& suitability_path, const std::string& extrapolation_path, const std::string& title,
+                        const std::string& caption) {
   ensure_gdal();
   DatasetPtr suitability = open_input_raster(suitability_path);
   const int W = suitability->GetRasterXSize(), H = suitability->GetRasterYSize();
-  const QuicklookLayout layout = quicklook_layout(W, H, max_edge);
+  const QuicklookLayout layout = quicklook_layout(W, H);
 
   Field field;
-  field.values = read_decimated<float>(*suitability, suitability_path, layout.map_width, layout.map_height, GDT_Float32);
+  field.values = read_decimated<float>(*suitability, suitability_path, layout.pixels_x, layout.pixels_y, GDT_Float32);
+  GDALRasterBand& band = input_band(*suitability, suitability_path, 1);
   int has = 0;
-  const double nd = input_band(*suitability, suitability_path, 1).GetNoDataValue(&has);
+  const double nd = band.GetNoDataValue(&has);
   field.has_nodata = has != 0;
   field.nodata = static_cast<float>(nd);
-  field.units = input_band(*suitability, suitability_path, 1).GetUnitType();
+  field.units = band.GetUnitType();
   if (!extrapolation_path.empty()) {
     DatasetPtr flags = open_input_raster(extrapolation_path);
     if (flags->GetRasterXSize() != W || flags->GetRasterYSize() != H)
       throw InputError(extrapolation_path + ": not the size of " + suitability_path + "; the quicklook needs both from one run");
-    field.flags = read_decimated<std::uint8_t>(*flags, extrapolation_path, layout.map_width, layout.map_height, GDT_Byte);
+    field.flags = read_decimated<std::uint8_t>(*flags, extrapolation_path, layout.pixels_x, layout.pixels_y, GDT_Byte);
   }
   value_range(field);
-
-  Canvas canvas(layout.width, layout.height);
-  const int title_scale = Canvas::text_width(title, 2) <= layout.width - 2 * kMargin ? 2 : 1;
-  canvas.text(kMargin, 14, title, kInk, title_scale);
-  draw_map(canvas, field, kMargin, kTitle, layout.map_width, layout.map_height);
-  draw_legend(canvas, field, kMargin + layout.map_width + 20, kTitle, !field.flags.empty());
+  MapLayers layers = map_layers(field, layout.pixels_x, layout.pixels_y);
+  field.values = {};  // the float buffer is no longer needed
   const RasterGrid grid = read_grid(suitability_path);
-  draw_scale(canvas, grid, W, layout.map_width, kMargin, kTitle + std::max(layout.map_height, kMinMapHeight) + 16);
-  write_png(canvas, png_path, {{"Title", title}, {"Software", "habcast predict --quicklook"}});
-  return layout;
+
+  const double legend_x = layout.map.right() + kLegendGap;
+  const Legend legend = map_legend(field, layers.any_flagged, layout.width - legend_x - kMargin);
+  // Lay out the foot (scale bar, sampling note, caption) on a scratch page to learn its height.
+  Figure scratch(layout.width, 1.0);
+  const double body = kTop + std::max(layout.map.height, legend.height());
+  double bottom = draw_scale(scratch, grid, layout, body);
+  const std::vector<std::string> caption_lines = wrap_text(caption, fs::note(), layout.width - 2 * kMargin);
+  bottom += 1.3 * fs::kNoteSize * static_cast<double>(caption_lines.size());
+
+  Figure fig(layout.width, bottom + kMargin);
+  fig.title = title;
+  fig.subject = "suitability map quicklook";
+  fig.text({kMargin, kMargin + fs::kTitleSize}, title, fs::title(), "title");
+  fig.image(layout.map, std::move(layers.image), "map");
+  if (layers.any_flagged) {
+    fig.hatch_mask(layout.map, std::move(layers.dark_hatch), map_hatch(kInk), "extrapolated");
+    fig.hatch_mask(layout.map, std::move(layers.light_hatch), map_hatch(fs::kWhite), "extrapolated");
+  }
+  fig.rect(layout.map, std::nullopt, Stroke{kInk, 0.5}, "frame");
+  legend.draw(fig, {legend_x, kTop});
+  const double y = draw_scale(fig, grid, layout, body);
+  fig.text_lines({kMargin, y}, caption_lines, fs::note(), 1.3, "caption");
+  return fig;
 }
 
 }  // namespace habcast

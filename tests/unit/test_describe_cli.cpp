@@ -4,11 +4,14 @@
 #include <catch2/catch.hpp>
 #include <nlohmann/json.hpp>
 
+#include <filesystem>
+
 #include "describe_test_support.hpp"
+#include "figure_file_check.hpp"
 #include "raster/gdal_session.hpp"
+#include "render/figure_file.hpp"
 #include "render/quicklook.hpp"
 #include "test_support.hpp"
-#include "xml_check.hpp"
 
 namespace habcast {
 namespace {
@@ -56,27 +59,24 @@ TEST_CASE("describe --json has the documented fields and R's optimum", "[describ
   CHECK(j["warnings"].empty());
 }
 
-TEST_CASE("describe writes the plot as SVG and PNG", "[describe]") {
+TEST_CASE("describe writes the plot as SVG, PNG and PDF, by extension", "[describe]") {
   test::TempDir dir("describe-plot");
-  const std::string svg = dir.file("niche.svg"), png = dir.file("niche.png");
+  const std::string svg = dir.file("niche.svg"), png = dir.file("niche.png"), pdf = dir.file("niche.PDF");
   std::string out, err;
   REQUIRE(run_cli({"describe", source_path(kDemo), "--pair", "precip,tmin", "--plot", svg, "--plot-png", png}, &out, &err) == 0);
-  const auto root = test::XmlReader(test::read_text(svg)).parse();
-  CHECK(root->all("polyline").size() >= 5);
-  // The pair order is the user's: precip on the horizontal axis.
-  std::vector<std::string> labels;
-  for (const auto* t : root->all("text"))
-    if (t->attribute("class") == "axis-label") labels.push_back(t->text);
-  CHECK(labels == std::vector<std::string>{"precip (mm)", "tmin (degC)"});
+  REQUIRE(run_cli({"describe", source_path(kDemo), "--plot", pdf}, &out, &err) == 0);
+  CHECK(test::parses_as_svg(test::read_text(svg)));
+  CHECK(test::looks_like_pdf(test::read_text(pdf)));
+  const std::string png_bytes = test::read_text(png);
+  REQUIRE(test::has_png_signature(png_bytes));
+  CHECK(test::png_size(png_bytes)[0] == 2008);  // A4 text width, 170 mm, at 300 dpi
 
-  ensure_gdal();
-  GDALDataset* ds = static_cast<GDALDataset*>(GDALOpen(png.c_str(), GA_ReadOnly));
-  REQUIRE(ds != nullptr);
-  CHECK(std::string(ds->GetDriver()->GetDescription()) == "PNG");
-  CHECK(ds->GetRasterXSize() == 760);
-  CHECK(ds->GetRasterYSize() == 560);
-  CHECK(ds->GetRasterCount() == 3);
-  GDALClose(ds);
+
+  // An extension that names no picture format is refused before anything is written.
+  CHECK(run_cli({"describe", source_path(kDemo), "--plot", dir.file("niche.jpg")}, &out, &err) == 2);
+  CHECK_THAT(err, Catch::Contains("niche.jpg") && Catch::Contains(".svg, .png or .pdf"));
+  CHECK(run_cli({"describe", source_path(kDemo), "--plot-png", dir.file("niche2.pdf")}, &out, &err) == 2);
+  CHECK(test::list_dir(dir.path().string()) == std::vector<std::string>{"niche.PDF", "niche.png", "niche.svg"});
 }
 
 TEST_CASE("describe warns when the optimum lies outside the training data", "[describe]") {
@@ -121,35 +121,40 @@ TEST_CASE("describe refuses options it cannot honour, naming them", "[describe]"
   }
 }
 
-TEST_CASE("predict --quicklook draws a PNG of the stated size next to the rasters", "[describe]") {
+TEST_CASE("predict --quicklook draws the map as PNG or PDF next to the rasters", "[describe]") {
   test::TempDir dir("quicklook");
-  const std::string png = dir.file("map.png");
+  const std::string png = dir.file("map.png"), pdf = dir.file("map.pdf");
   std::string out, err;
   REQUIRE(run_cli({"predict", source_path(kDemo), "-o", dir.file("out"), "--quicklook", png, "-q"}, &out, &err) == 0);
-  // Demo rasters are 320 x 240: the map becomes 512 x 384, the PNG 512 + 252 by 384 + 100.
-  const QuicklookLayout layout = quicklook_layout(320, 240, 512);
-  CHECK(layout.map_width == 512);
-  CHECK(layout.map_height == 384);
-  ensure_gdal();
-  GDALDataset* ds = static_cast<GDALDataset*>(GDALOpen(png.c_str(), GA_ReadOnly));
-  REQUIRE(ds != nullptr);
-  CHECK(std::string(ds->GetDriver()->GetDescription()) == "PNG");
-  CHECK(ds->GetRasterXSize() == 764);
-  CHECK(ds->GetRasterYSize() == 484);
+  REQUIRE(run_cli({"predict", source_path(kDemo), "-o", dir.file("out-pdf"), "--quicklook", pdf, "-q"}, &out, &err) == 0);
+  CHECK(test::looks_like_pdf(test::read_text(pdf)));
+  const std::string bytes = test::read_text(png);
+  REQUIRE(test::has_png_signature(bytes));
+  CHECK(test::png_size(bytes)[0] == 2008);
+  // Demo rasters are 320 x 240 cells: the map is 330 x 247.5 pt, read at the raster's own size
+  // (300 dpi would want 1375 x 1031 pixels, more than there are).
+  const QuicklookLayout layout = quicklook_layout(320, 240);
+  CHECK(layout.map.width == Approx(330.0));
+  CHECK(layout.map.height == Approx(247.5));
+  CHECK(layout.pixels_x == 320);
+  CHECK(layout.pixels_y == 240);
   // The demo's lake is nodata: some map pixels carry the no-data grey (228, 228, 228).
-  std::vector<std::uint8_t> rgb(static_cast<std::size_t>(764 * 484 * 3));
-  REQUIRE(ds->RasterIO(GF_Read, 0, 0, 764, 484, rgb.data(), 764, 484, GDT_Byte, 3, nullptr, 0, 0, 0, nullptr) == CE_None);
-  GDALClose(ds);
+  const test::DecodedPng image = test::decode_png(bytes);
   std::size_t grey = 0;
-  const std::size_t plane = 764 * 484;
-  for (std::size_t i = 0; i < plane; ++i)
-    if (rgb[i] == 228 && rgb[plane + i] == 228 && rgb[2 * plane + i] == 228) ++grey;
-  CHECK(grey > 100);
+  const double s = kPngDpi / 72.0;
+  for (int y = static_cast<int>(layout.map.y * s); y < static_cast<int>(layout.map.bottom() * s); ++y)
+    for (int x = static_cast<int>(layout.map.x * s); x < static_cast<int>(layout.map.right() * s); ++x)
+      if (test::same_colour(image.at(x, y), Rgb{228, 228, 228}, 0)) ++grey;
+  CHECK(grey > 1000);
   CHECK_THAT(test::read_text(dir.file("out/report.json")), Catch::Contains("map.png"));
 
   // A second run without --overwrite refuses before computing anything.
   CHECK(run_cli({"predict", source_path(kDemo), "-o", dir.file("out2"), "--quicklook", png, "-q"}, &out, &err) == 2);
   CHECK_THAT(err, Catch::Contains("map.png already exists"));
+  // So does a quicklook whose extension names no picture format.
+  CHECK(run_cli({"predict", source_path(kDemo), "-o", dir.file("out3"), "--quicklook", dir.file("map.tif"), "-q"}, &out, &err) == 2);
+  CHECK_THAT(err, Catch::Contains("map.tif") && Catch::Contains(".svg, .png or .pdf"));
+  CHECK_FALSE(std::filesystem::exists(dir.file("out3")));
 }
 
 }  // namespace
