@@ -4,6 +4,7 @@
 #include <sstream>
 
 #include "cli/describe_values.hpp"
+#include "core/model/model_values.hpp"
 
 namespace habcast::cli {
 

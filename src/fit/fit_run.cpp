@@ -305,11 +305,11 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   }
   if (std::count(use.begin(), use.end(), 1) > 0) {
     // Spline factors (ns(x, df = 4), ...) get their knots from the model values of the rows in use.
-    declare_formula_splines(options.formula, spec, [&](int c) {
+    declare_formula_splines(options.formula, spec, [&](int column) {
       std::vector<double> values;
-      const Covariate& cov = spec.covariates[static_cast<std::size_t>(c)];
+      const Covariate& cov = spec.covariates[static_cast<std::size_t>(column)];
       for (std::size_t i = 0; i < n; ++i)
-        if (use[i]) values.push_back(model_value(cov, sampled.raw(static_cast<Eigen::Index>(i), c)));
+        if (use[i]) values.push_back(model_value(cov, sampled.raw(static_cast<Eigen::Index>(i), column)));
       return values;
     });
     spec.terms = parse_formula(options.formula, spec).terms;

@@ -69,3 +69,32 @@ fit3 <- glm(y ~ bs(WatrCont, knots = c(300, 450), degree = 2) + ns(SubsDens, df 
             family = binomial, data = raw3, control = control)
 stopifnot(fit3$converged)
 write_case("binomial_bs_raw", fit3, points, FALSE)
+
+# ---- Response curves: predict() on a newdata grid, one covariate varied, the others held where
+# `habcast describe` holds them (continuous: training mean; Topo: its reference level Blanket) ----
+curve_lines <- c(header,
+                 "# Response curves: each row varies `covariate`; the others at their training means, Topo = Blanket",
+                 "# (for `curve = Topo`, every level). eta, se_eta: predict(type = \"link\", se.fit = TRUE);",
+                 "# mu = linkinv(eta); lower, upper = linkinv(eta -+ qnorm(0.975) * se_eta). Topo: 1 = Blanket, 2 = Hummock.",
+                 "case,covariate,WatrCont,SubsDens,Topo,eta,se_eta,mu,lower,upper")
+curve_case <- function(name, fit, to_model) {
+  held <- data.frame(WatrCont = mean(raw$WatrCont), SubsDens = mean(raw$SubsDens),
+                     Topo = factor("Blanket", levels = levels(raw$Topo)))
+  grids <- list(
+    WatrCont = transform(held[rep(1, 9), ], WatrCont = seq(wr[1] - 100, wr[2] + 100, length.out = 9)),
+    SubsDens = transform(held[rep(1, 9), ], SubsDens = seq(sr[1] - 6, sr[2] + 6, length.out = 9)),
+    Topo = transform(held[rep(1, 2), ], Topo = factor(levels(raw$Topo), levels = levels(raw$Topo))))
+  z <- qnorm(0.975)
+  inv <- family(fit)$linkinv
+  for (cv in names(grids)) {
+    g <- grids[[cv]]
+    p <- suppressWarnings(predict(fit, to_model(g), type = "link", se.fit = TRUE))
+    curve_lines <<- c(curve_lines, paste(name, cv, fmt17(g$WatrCont), fmt17(g$SubsDens), as.integer(g$Topo),
+                                         fmt17(p$fit), fmt17(p$se.fit), fmt17(inv(p$fit)),
+                                         fmt17(inv(p$fit - z * p$se.fit)), fmt17(inv(p$fit + z * p$se.fit)), sep = ","))
+  }
+}
+curve_case("binomial_poly_ns", fit1, standardise)
+curve_case("poisson_poly2d", fit2, identity)
+curve_case("binomial_bs_raw", fit3, identity)
+writeLines(curve_lines, file.path(out_dir, "curves.csv"))

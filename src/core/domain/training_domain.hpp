@@ -5,6 +5,7 @@
 #include <Eigen/Core>
 #include <cstdint>
 #include <map>
+#include <utility>
 #include <vector>
 
 #include "core/domain/training_samples.hpp"
@@ -58,6 +59,9 @@ class TrainingDomain {
  private:
   const ModelSpec& spec_;
   std::vector<CovariateRange> ranges_;
+  /// Per covariate: the values flagged outside_range lie beyond these (the training range,
+  /// narrowed to any spline's boundary knots).
+  std::vector<std::pair<double, double>> flag_limits_;
   std::vector<std::vector<std::int64_t>> seen_;
   std::int64_t samples_ = 0;
 };
