@@ -22,8 +22,8 @@ void beyond_second_order_warnings(const ModelSpec& spec, const NicheDescription&
     for (const auto* def : {&c.natural_spline, &c.bspline}) {
       if (!*def) continue;
       const bool natural = (*def)->kind == SplineKind::natural;
-      out.push_back(std::string("\"") + c.name + "\" enters through a " + (natural ? "natural" : "B-") +
-                    "spline: beyond its boundary knots the basis is its own extension (" +
+      out.push_back(std::string("\"") + c.name + "\" enters through a " + (natural ? "natural spline" : "B-spline") +
+                    ": beyond its boundary knots the basis is its own extension (" +
                     (natural ? "a straight line, as R's ns() continues it"
                              : "the polynomial of the last piece, as R's bs() continues it") +
                     "), which no data shaped. Predictions there are extrapolation by construction; predict flags "

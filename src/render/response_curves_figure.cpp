@@ -12,9 +12,10 @@ namespace habcast {
 
 namespace {
 
-constexpr double kPanelWidth = 215.0;   // points; two panels across the A4 text width
-constexpr double kPanelHeight = 140.0;
-constexpr double kLeft = 52.0, kTop = 48.0, kColumnGap = 25.0, kRowGap = 62.0;
+constexpr double kPanelWidth = 190.0;   // points; two panels across the A4 text width (482 pt)
+constexpr double kPanelHeight = 130.0;
+constexpr double kLeft = 52.0, kColumnGap = 42.0, kRowGap = 56.0;
+constexpr double kMargin = 12.0;        // left edge of the title and the notes
 
 const Fill kBand{ramp_colour(0.72), 0.55};
 const Fill kTrainingShade{figure_style::kLightGrey, 0.6};
@@ -22,6 +23,15 @@ const Stroke kCurve{kInk, 1.0};
 const Stroke kExtrapolated{kInk, 1.0, {3.0, 2.0}};
 const Stroke kRug{figure_style::kGrey, 0.5};
 const Stroke kKnot{ramp_colour(0.25), 0.7, {1.0, 1.5}};
+
+std::string response_word(const ModelSpec& spec) {
+  switch (spec.family) {
+    case Family::binomial: return "probability";
+    case Family::poisson: return "expected count";
+    case Family::gaussian: return "mean";
+  }
+  return "response";
+}
 
 std::string axis_label(const Covariate& c) { return c.units.empty() ? c.name : c.name + " (" + c.units + ")"; }
 
@@ -90,7 +100,7 @@ void continuous_panel(Figure& fig, const Rect& area, const ModelSpec& spec, cons
   for (double r : curve.rug)
     if (r >= x0 && r <= x1) ax.segment({r, y0}, {r, y0 + rug_height}, kRug, "rug");
   ax.x_axis(xt, axis_label(cov));
-  ax.y_axis(yt, "");
+  ax.y_axis(yt, response_word(spec));
   ax.frame();
 }
 
@@ -114,20 +124,22 @@ void categorical_panel(Figure& fig, const Rect& area, const ModelSpec& spec, con
   ax.points(seen, Marker{MarkerShape::circle, 5.0, Fill{kInk}}, "level");
   ax.points(unseen, Marker{MarkerShape::circle, 5.0, Fill{figure_style::kWhite}, Stroke{kInk, 0.8}}, "level-unseen");
   ax.x_axis(xt, axis_label(cov));
-  ax.y_axis(yt, "");
+  ax.y_axis(yt, response_word(spec));
   ax.frame();
+}
+
+/// Lines of `text` wrapped to the page's width, drawn from `y` down; returns the next free y.
+double paragraph(Figure& fig, const std::string& text, const TextStyle& style, double y) {
+  for (const std::string& line : wrap_text(text, style, fig.width() - 2.0 * kMargin)) {
+    fig.text({kMargin, y}, line, style);
+    y += style.size * 1.35;
+  }
+  return y;
 }
 
 }  // namespace
 
 Figure response_curves_figure(const ModelSpec& spec, const NicheDescription& d, double confidence) {
-  const std::size_t n = d.curves.size();
-  const std::size_t rows = std::max<std::size_t>(1, (n + 1) / 2);
-  const double height = kTop + static_cast<double>(rows) * (kPanelHeight + kRowGap) + 40.0;
-  Figure fig(kA4FigureWidth, height);
-  fig.title = "Response curves" + (spec.name.empty() ? std::string() : ": " + spec.name);
-  fig.subject = response_description(spec);
-  fig.text({kLeft - 40.0, 18.0}, fig.title, figure_style::title());
   std::string held;
   for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
     const Covariate& cov = spec.covariates[c];
@@ -135,25 +147,33 @@ Figure response_curves_figure(const ModelSpec& spec, const NicheDescription& d, 
     held += (held.empty() ? "" : ", ") + cov.name + " " +
             (cov.categorical ? cov.levels[static_cast<std::size_t>(v)].name : significant(raw_value(cov, v), 4));
   }
-  fig.text({kLeft - 40.0, 32.0},
-           "Vertical axes: " + response_description(spec) + ". Each panel varies one covariate; the others are held at " + held +
-               " (describe's reference).",
-           figure_style::subtitle());
+  const std::string subtitle = "Vertical axes: " + response_description(spec) +
+                               ". Each panel varies one covariate; the others are held at " + held +
+                               " (describe's reference).";
+  const std::string notes =
+      "Band: " + significant(100.0 * confidence, 3) +
+      " % delta-method interval. Shaded: the training range; dashed: the curve beyond it (extrapolation). "
+      "Ticks along the bottom: training values; dotted lines: spline boundary knots. Categorical covariates: a "
+      "point per level with its interval; hollow: a level absent from the training data.";
+  const std::size_t n = d.curves.size();
+  const std::size_t rows = std::max<std::size_t>(1, (n + 1) / 2);
+  // Measure the wrapped text first so the page is exactly as tall as its content.
+  Figure probe(kA4FigureWidth, 100.0);
+  const double top = paragraph(probe, subtitle, figure_style::subtitle(), 32.0) + 8.0;
+  const double notes_height = paragraph(probe, notes, figure_style::note(), 0.0);
+  const double panels_bottom = top + static_cast<double>(rows) * (kPanelHeight + kRowGap);
+  Figure fig(kA4FigureWidth, panels_bottom + notes_height + 8.0);
+  fig.title = "Response curves" + (spec.name.empty() ? std::string() : ": " + spec.name);
+  fig.subject = response_description(spec);
+  fig.text({kMargin, 18.0}, fig.title, figure_style::title());
+  paragraph(fig, subtitle, figure_style::subtitle(), 32.0);
   for (std::size_t i = 0; i < n; ++i) {
     const Rect area{kLeft + static_cast<double>(i % 2) * (kPanelWidth + kColumnGap),
-                    kTop + static_cast<double>(i / 2) * (kPanelHeight + kRowGap) + 8.0, kPanelWidth, kPanelHeight};
+                    top + static_cast<double>(i / 2) * (kPanelHeight + kRowGap), kPanelWidth, kPanelHeight};
     if (d.curves[i].categorical) categorical_panel(fig, area, spec, d.curves[i]);
     else continuous_panel(fig, area, spec, d.curves[i]);
   }
-  const double note_y = height - 24.0;
-  fig.text({kLeft - 40.0, note_y},
-           "Band: " + significant(100.0 * confidence, 3) +
-               " % delta-method interval. Shaded: training range; dashed: the curve beyond it (extrapolation). "
-               "Ticks at the bottom: training values; dotted: spline boundary knots.",
-           figure_style::note());
-  fig.text({kLeft - 40.0, note_y + 11.0},
-           "Categorical covariates: a point per level with its interval; hollow: a level absent from the training data.",
-           figure_style::note());
+  paragraph(fig, notes, figure_style::note(), panels_bottom + 4.0);
   return fig;
 }
 
