@@ -1,0 +1,98 @@
+// Spline terms in the model file: how they are declared, refused, written back, evaluated by the
+// TermPlan and flagged beyond their boundary knots.
+#include <catch2/catch.hpp>
+
+#include <cmath>
+
+#include "core/base/error.hpp"
+#include "core/domain/extrapolation_flags.hpp"
+#include "core/domain/training_domain.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/model/model_file.hpp"
+#include "core/model/model_writer.hpp"
+#include "core/model/spline_basis.hpp"
+#include "core/model/term_plan.hpp"
+
+namespace habcast {
+namespace {
+
+std::string model(const std::string& covariate_extra, const std::string& terms, const std::string& estimates) {
+  return "habcast_model = 1\n[model]\nfamily = \"binomial\"\n[covariates.t]\ncenter = 10.0\nscale = 2.0\n" +
+         covariate_extra + "\n[covariates.p]\n[coefficients]\nterms = [" + terms + "]\nestimates = [" + estimates + "]\n";
+}
+
+const std::string kNs = "ns = { knots = [-0.5, 0.5], boundary = [-1.5, 1.5] }";
+
+TEST_CASE("A spline term is one column of the basis declared on its covariate", "[spline]") {
+  const ModelSpec spec = parse_model_text(
+      model(kNs + "\nbs = { knots = [0.0], boundary = [-2.0, 2.0], degree = 2 }",
+            "\"(Intercept)\", \"ns(t)[1]\", \"ns(t)[3]\", \"bs(t)[2]\", \"ns(t)[2]:p\"", "0.5, 1.0, -2.0, 0.3, 0.7"),
+      "m.toml");
+  const TermPlan plan(spec);
+  REQUIRE(plan.splines().size() == 2);
+  // Model value (12 - 10) / 2 = 1 for t = 12; p = 3.
+  ModelValues v(1, 2);
+  v << 1.0, 3.0;
+  Eigen::MatrixXd X;
+  std::uint8_t valid = 1;
+  plan.fill(v, 1, X, &valid);
+  double ns[3], bs[3];
+  SplineBasis(*spec.covariates[0].natural_spline).evaluate(1.0, ns);
+  SplineBasis(*spec.covariates[0].bspline).evaluate(1.0, bs);
+  CHECK(X(0, 1) == ns[0]);
+  CHECK(X(0, 2) == ns[2]);
+  CHECK(X(0, 3) == bs[1]);
+  CHECK(X(0, 4) == ns[1] * 3.0);
+  CHECK(plan.terms()[4].canonical == "ns(t)[2]:p");
+  // Written back, the file parses to the same bases.
+  const ModelSpec again = parse_model_text(write_model_text(spec, "m.toml"), "m.toml");
+  CHECK(again.covariates[0].natural_spline->knots == spec.covariates[0].natural_spline->knots);
+  CHECK(again.covariates[0].bspline->degree == 2);
+  CHECK(again.terms == spec.terms);
+}
+
+TEST_CASE("Spline terms and declarations that cannot mean anything are refused with the line", "[spline]") {
+  auto refused = [](const std::string& text, const std::string& why) {
+    CHECK_THROWS_WITH(parse_model_text(text, "m.toml"), Catch::Contains("m.toml:") && Catch::Contains(why));
+  };
+  refused(model("", "\"ns(t)[1]\"", "1.0"), "needs the basis declared");
+  refused(model(kNs, "\"ns(t)[4]\"", "1.0"), "from 1 to 3");
+  refused(model(kNs, "\"ns(t)\"", "1.0"), "names one column");
+  refused(model(kNs, "\"ns(t)[1]^2\"", "1.0"), "carries no power");
+  refused(model(kNs, "\"ns(t)[1]:ns(t)[2]\"", "1.0"), "two columns of one spline basis");
+  refused(model("ns = { knots = [2.0], boundary = [-1.5, 1.5] }", "\"ns(t)[1]\"", "1.0"), "strictly between");
+  refused(model("ns = { knots = [0.0], boundary = [1.5] }", "\"ns(t)[1]\"", "1.0"), "boundary = [LOWER, UPPER]");
+  refused(model("ns = { knots = [0.0], boundary = [-1.0, 1.0], degree = 2 }", "\"ns(t)[1]\"", "1.0"), "unknown key");
+  refused(model("bs = { knots = [0.0], boundary = [-1.0, 1.0], degree = 9 }", "\"bs(t)[1]\"", "1.0"), "degree");
+  refused("habcast_model = 1\n[model]\nfamily = \"binomial\"\n[covariates.s]\ntype = \"categorical\"\n"
+          "levels = [ { code = 1, name = \"a\" } ]\nns = { knots = [], boundary = [0.0, 1.0] }\n"
+          "[coefficients]\nterms = [\"(Intercept)\"]\nestimates = [0.0]\n",
+          "continuous covariates only");
+}
+
+TEST_CASE("Values beyond a spline's boundary knots are flagged outside the range even inside the training range",
+          "[spline]") {
+  // Boundary knots at model values -1.5, 1.5: raw 7 and 13. Training t spans 6 to 14.
+  const ModelSpec spec = parse_model_text(model(kNs, "\"ns(t)[1]\", \"p\"", "1.0, 1.0"), "m.toml");
+  const TrainingSamples samples = parse_training_samples("t,p\n6,0\n14,1\n10,0.5\n", "train.csv", spec);
+  const TrainingDomain domain(spec, samples);
+  CHECK(domain.range(0).min == 6.0);  // the reported training range is unchanged
+  Eigen::ArrayXXd raw(4, 2);
+  raw << 6.5, 0.5,  // beyond the lower boundary knot, inside the training range
+      10.0, 0.5,    // inside both
+      13.0, 0.5,    // exactly at the upper boundary knot: inside
+      13.5, 0.5;    // beyond the upper knot
+  const std::uint8_t valid[4] = {1, 1, 1, 1};
+  std::uint8_t flags[4];
+  DomainTally tally(2);
+  domain.flag(raw, 4, valid, flags, tally);
+  CHECK(flags[0] == flag::outside_range);
+  CHECK(flags[1] == 0);
+  CHECK(flags[2] == 0);
+  CHECK(flags[3] == flag::outside_range);
+  CHECK(tally.below[0] == 1);
+  CHECK(tally.above[0] == 1);
+}
+
+}  // namespace
+}  // namespace habcast
