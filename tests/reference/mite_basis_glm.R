@@ -98,3 +98,23 @@ curve_case("binomial_poly_ns", fit1, standardise)
 curve_case("poisson_poly2d", fit2, identity)
 curve_case("binomial_bs_raw", fit3, identity)
 writeLines(curve_lines, file.path(out_dir, "curves.csv"))
+
+# ---- The poly() conversion checked against R itself: the same model refitted with raw powers of
+# the re-centred covariates (centre alpha[1], scale sqrt(norm2[3] / n), as docs/model-format.md
+# states), whose estimates and vcov() the converted file must reproduce (b' = M'b, V' = M'VM). ----
+pc <- attr(poly(raw$WatrCont, raw$SubsDens, degree = 2), "coefs")
+centre_of <- function(k) c(pc[[k]]$alpha[1], sqrt(pc[[k]]$norm2[3] / pc[[k]]$norm2[2]))
+cw <- centre_of(1); cs <- centre_of(2)
+raw2$u <- (raw2$WatrCont - cw[1]) / cw[2]
+raw2$v <- (raw2$SubsDens - cs[1]) / cs[2]
+fit2raw <- glm(count ~ u + I(u^2) + v + I(u * v) + I(v^2) + Topo, family = poisson, data = raw2, control = control)
+stopifnot(fit2raw$converged)
+labels <- c("(Intercept)", "WatrCont", "WatrCont^2", "SubsDens", "SubsDens:WatrCont", "SubsDens^2", "Topo[Hummock]")
+vc <- vcov(fit2raw)
+writeLines(c(header, "# glm(count ~ u + I(u^2) + v + I(u * v) + I(v^2) + Topo, poisson) with u, v the covariates re-centred",
+             paste0("# as the exporter re-centres them: WatrCont center ", fmt17(cw[1]), " scale ", fmt17(cw[2]),
+                    "; SubsDens center ", fmt17(cs[1]), " scale ", fmt17(cs[2]), "."),
+             "# estimate and the row of vcov() for each term, in this order.",
+             paste0("term,estimate,", paste0("v", seq_along(labels), collapse = ",")),
+             paste(labels, fmt17(coef(fit2raw)), apply(vc, 1, function(r) paste(fmt17(r), collapse = ",")), sep = ",")),
+           file.path(out_dir, "poisson_poly2d_raw_refit.csv"))

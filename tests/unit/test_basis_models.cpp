@@ -3,6 +3,7 @@
 // predictor and its delta-method standard error equal R's predict(..., se.fit = TRUE), inside and
 // beyond the training range and the boundary knots.
 #include <catch2/catch.hpp>
+#include <algorithm>
 #include <cmath>
 #include <string>
 
@@ -11,6 +12,8 @@
 #include "core/model/model_file.hpp"
 #include "core/model/model_values.hpp"
 #include "core/model/term_plan.hpp"
+#include "core/domain/training_samples.hpp"
+#include "core/niche/niche_description.hpp"
 #include "test_support.hpp"
 
 using namespace habcast;
@@ -95,4 +98,45 @@ TEST_CASE("A statsmodels GLM with patsy's bs() and a spline-by-covariate product
   CHECK(c.rows == 9);
   CHECK(c.eta <= 1e-9);
   CHECK(c.se <= 1e-6);
+}
+
+TEST_CASE("poly() converted to powers gives the estimates and covariance of R's own raw-power fit",
+          "[spline][reference]") {
+  // Source: R 4.2.2 glm(count ~ u + I(u^2) + v + I(u * v) + I(v^2) + Topo, poisson) on vegan's mite
+  // data, u and v re-centred as the exporter re-centres them (tests/reference/mite_basis_glm.R): the
+  // same model as poly(WatrCont, SubsDens, degree = 2), so b' = M'b and V' = M'VM must equal its
+  // estimates and vcov() up to R's convergence tolerance.
+  const ModelSpec spec = read_model_file(test::source_path("tests/reference/mite_basis/poisson_poly2d.toml"));
+  const CsvTable ref = read_csv_table(test::source_path("tests/reference/mite_basis/poisson_poly2d_raw_refit.csv"));
+  REQUIRE(ref.rows.size() == spec.terms.size());
+  std::vector<Eigen::Index> at;
+  for (std::size_t r = 0; r < ref.rows.size(); ++r) {
+    const auto it = std::find(spec.terms.begin(), spec.terms.end(), ref.rows[r][0]);
+    REQUIRE(it != spec.terms.end());
+    at.push_back(it - spec.terms.begin());
+  }
+  double worst_b = 0.0, worst_v = 0.0;
+  const double vmax = spec.covariance->cwiseAbs().maxCoeff();
+  for (std::size_t r = 0; r < ref.rows.size(); ++r) {
+    const double b = ref.number(r, 1);
+    worst_b = std::max(worst_b, std::fabs(spec.estimates[static_cast<std::size_t>(at[r])] - b) / std::fabs(b));
+    for (std::size_t c = 0; c < ref.rows.size(); ++c)
+      worst_v = std::max(worst_v, std::fabs((*spec.covariance)(at[r], at[c]) - ref.number(r, 2 + c)) / vmax);
+  }
+  CHECK(worst_b <= 1e-7);
+  CHECK(worst_v <= 1e-7);
+  WARN("poly() conversion vs R's raw refit: estimates " << worst_b << ", covariance " << worst_v);
+}
+
+TEST_CASE("describe sees the quadratic niche of a poly() model", "[spline][describe]") {
+  const ModelSpec spec = read_model_file(test::source_path("tests/reference/mite_basis/poisson_poly2d.toml"));
+  const TermPlan plan(spec);
+  const TrainingSamples samples = read_training_samples(spec);
+  const NicheDescription d = describe_niche(spec, plan, &samples, {});
+  CHECK_FALSE(d.beyond_second_order);
+  REQUIRE(d.form.has_value());
+  CHECK(d.form->covariates == std::vector<int>{0, 1});
+  REQUIRE(d.analysis.has_value());
+  CHECK(d.pair.has_value());
+  CHECK_FALSE(d.numerical.has_value());
 }

@@ -110,3 +110,25 @@ TEST_CASE("A spline definition with knots outside its boundary or a zero-width b
   d.degree = 2;
   CHECK_THAT(d.problem(), Catch::Contains("cubic"));
 }
+
+TEST_CASE("A block of values gives the same basis, bit for bit, as one value at a time", "[spline]") {
+  for (const auto& [name, d] : reference_cases()) {
+    const SplineBasis b(d);
+    std::vector<double> x;
+    for (int i = 0; i <= 200; ++i) x.push_back(d.lower - 0.2 * (d.upper - d.lower) + 1.4 * (d.upper - d.lower) * i / 200.0);
+    x.push_back(d.lower);
+    x.push_back(d.upper);
+    x.push_back(std::nan(""));
+    Eigen::MatrixXd block;
+    b.evaluate(x.data(), static_cast<Eigen::Index>(x.size()), block);
+    std::vector<double> one(static_cast<std::size_t>(b.columns()));
+    for (std::size_t i = 0; i < x.size(); ++i) {
+      b.evaluate(x[i], one.data());
+      for (int j = 0; j < b.columns(); ++j) {
+        INFO(name << " x = " << x[i] << " column " << j + 1);
+        const double a = block(static_cast<Eigen::Index>(i), j), e = one[static_cast<std::size_t>(j)];
+        CHECK((a == e || (std::isnan(a) && std::isnan(e))));
+      }
+    }
+  }
+}

@@ -252,10 +252,32 @@ void SplineBasis::evaluate(double x, double* out) const {
 
 void SplineBasis::evaluate(const double* x, Eigen::Index n, Eigen::MatrixXd& out) const {
   if (out.rows() < n || out.cols() != columns_) out.resize(n, columns_);
+  const Eigen::Index ld = out.rows();
+  double* o = out.data();
   std::array<double, kMaxCount> row{};
+  std::array<double, kMaxOrder> nz{};
   for (Eigen::Index r = 0; r < n; ++r) {
-    evaluate(x[r], row.data());
-    for (int j = 0; j < columns_; ++j) out(r, j) = row[static_cast<std::size_t>(j)];
+    const double v = x[r];
+    if (!(v >= def_.lower && v <= def_.upper)) {  // beyond the knots, or NaN: the general path
+      evaluate(v, row.data());
+      for (int j = 0; j < columns_; ++j) o[j * ld + r] = row[static_cast<std::size_t>(j)];
+      continue;
+    }
+    // Inside, only `order` B-splines are nonzero: the same sums as evaluate(double), without the
+    // zero terms (which add nothing), so both paths give identical values.
+    const int first = bspline_nonzero(t_, order_, v, 0, nz.data()) - first_;
+    if (def_.kind == SplineKind::bspline) {
+      for (int j = 0; j < columns_; ++j) o[j * ld + r] = 0.0;
+      for (int k = 0; k < order_; ++k)
+        if (first + k >= 0) o[(first + k) * ld + r] = nz[static_cast<std::size_t>(k)];
+      continue;
+    }
+    for (int j = 0; j < columns_; ++j) {
+      double sum = 0.0;
+      for (int k = 0; k < order_; ++k)
+        if (first + k >= 0) sum += projection_(first + k, j) * nz[static_cast<std::size_t>(k)];
+      o[j * ld + r] = sum;
+    }
   }
 }
 
