@@ -1,4 +1,5 @@
 // `habcast describe`: options -> DescribeSettings -> describe_niche -> text or JSON, and the plot.
+#include <cctype>
 #include <memory>
 #include <ostream>
 
@@ -55,6 +56,14 @@ struct DescribeArgs {
   std::vector<std::string> curves;  ///< --curves FILE: .json, or a picture (.svg, .png, .pdf)
 };
 
+/// --curves FILE.json (any case) writes JSON; other extensions name a picture format.
+bool is_json_path(const std::string& path) {
+  if (path.size() <= 5) return false;
+  std::string ext = path.substr(path.size() - 5);
+  for (char& ch : ext) ch = static_cast<char>(std::tolower(static_cast<unsigned char>(ch)));
+  return ext == ".json";
+}
+
 std::pair<std::string, std::string> split_assignment(const std::string& option, const std::string& item, const char* example) {
   const auto eq = item.find('=');
   if (eq == std::string::npos || eq == 0 || eq + 1 == item.size())
@@ -86,7 +95,7 @@ void translate(DescribeArgs& args) {
   if (!args.plot_png.empty() && figure_format(args.plot_png) != FigureFormat::png)
     throw UsageError("--plot-png " + args.plot_png + ": the name must end in .png (or use --plot, which takes .svg, .png or .pdf)");
   for (const std::string& path : args.curves) {
-    const bool json = path.size() > 5 && path.compare(path.size() - 5, 5, ".json") == 0;
+    const bool json = is_json_path(path);
     if (!json) figure_format(path);  // refuses an unknown extension, naming the choices
     args.settings.curves = true;
   }
@@ -113,7 +122,7 @@ void write_plots(const DescribeArgs& args, const ModelSpec& spec, const NicheDes
 /// --curves: the response curves as JSON or as a picture, by each file's extension.
 void write_curves(const DescribeArgs& args, const ModelSpec& spec, const NicheDescription& d, std::ostream& err) {
   for (const std::string& path : args.curves) {
-    if (path.size() > 5 && path.compare(path.size() - 5, 5, ".json") == 0)
+    if (is_json_path(path))
       write_file_atomically(path, cli::curves_json(spec, d, args.settings).dump(2) + "\n");
     else
       write_file_atomically(path, encode_figure(response_curves_figure(spec, d, args.settings.canonical.confidence), path));
