@@ -12,6 +12,7 @@
 #include "core/model/model_writer.hpp"
 #include "core/model/spline_basis.hpp"
 #include "core/model/term_plan.hpp"
+#include "test_support.hpp"
 
 namespace habcast {
 namespace {
@@ -92,6 +93,46 @@ TEST_CASE("Values beyond a spline's boundary knots are flagged outside the range
   CHECK(flags[3] == flag::outside_range);
   CHECK(tally.below[0] == 1);
   CHECK(tally.above[0] == 1);
+}
+
+}  // namespace
+}  // namespace habcast
+
+namespace habcast {
+namespace {
+
+TEST_CASE("predict maps a spline model pixel by pixel and flags the pixels beyond the boundary knots", "[spline][predict]") {
+  test::TempDir dir("spline-predict");
+  // t = col / 2 - 2 (raw), model value (t - 10) / 2 after center 10, scale 2: cols 0..63 give
+  // t from -2 to 29.5. Boundary knots at model values -1.5, 1.5 are raw 7 and 13; training 6..14.
+  const test::GridSpec grid{64, 4};
+  test::write_raster(dir.file("t.tif"), grid, "Float32", [](int, int col) { return col / 2.0 - 2.0; });
+  test::write_raster(dir.file("p.tif"), grid, "Float32", [](int row, int) { return row * 0.5; });
+  test::write_text(dir.file("train.csv"), "t,p\n6,0\n14,1.5\n10,0.5\n8,1\n");
+  test::write_text(dir.file("m.toml"),
+                   "habcast_model = 1\n[model]\nfamily = \"poisson\"\n[training]\nsamples = \"train.csv\"\n"
+                   "[covariates.t]\ncenter = 10.0\nscale = 2.0\nraster = \"t.tif\"\n" + kNs +
+                   "\n[covariates.p]\nraster = \"p.tif\"\n[coefficients]\n"
+                   "terms = [\"(Intercept)\", \"ns(t)[1]\", \"ns(t)[2]\", \"ns(t)[3]\", \"ns(t)[2]:p\"]\n"
+                   "estimates = [0.2, 0.5, -0.4, 0.3, 0.25]\n");
+  std::string out, err;
+  REQUIRE(test::run_cli({"predict", dir.file("m.toml"), "-o", dir.file("out"), "-q", "--checks", "range"}, &out, &err) == 0);
+  const SplineBasis basis(*parse_model_text(test::read_text(dir.file("m.toml")), dir.file("m.toml")).covariates[0].natural_spline);
+  const std::vector<double> mu = test::read_band(dir.file("out/suitability.tif"));
+  const std::vector<double> flags = test::read_band(dir.file("out/extrapolation.tif"));
+  for (int row = 0; row < 4; ++row)
+    for (int col = 0; col < 64; ++col) {
+      const double t = col / 2.0 - 2.0, p = row * 0.5;
+      double b[3];
+      basis.evaluate((t - 10.0) / 2.0, b);
+      const double eta = 0.2 + 0.5 * b[0] - 0.4 * b[1] + 0.3 * b[2] + 0.25 * b[1] * p;
+      INFO("row " << row << " col " << col << " t " << t);
+      CHECK_THAT(mu[static_cast<std::size_t>(row * 64 + col)], Catch::Matchers::WithinRel(std::exp(eta), 1e-6));
+      const bool beyond = t < 7.0 || t > 13.0 || p > 1.5;
+      CHECK((flags[static_cast<std::size_t>(row * 64 + col)] != 0.0) == beyond);
+    }
+  const std::string report = test::read_text(dir.file("out/report.json"));
+  CHECK_THAT(report, Catch::Contains("beyond its spline's boundary knots"));
 }
 
 }  // namespace

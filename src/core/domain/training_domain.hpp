@@ -43,6 +43,9 @@ class TrainingDomain {
   TrainingDomain(const ModelSpec& spec, const TrainingSamples& samples);
 
   [[nodiscard]] const CovariateRange& range(std::size_t covariate) const { return ranges_[covariate]; }
+  /// The limits beyond which a value is flagged outside_range: the training range, narrowed to
+  /// the boundary knots of any spline basis the covariate enters through (raw units).
+  [[nodiscard]] const std::pair<double, double>& flag_range(std::size_t covariate) const { return flag_limits_[covariate]; }
   /// Level codes seen in training for categorical covariate `covariate`, sorted.
   [[nodiscard]] const std::vector<std::int64_t>& levels_seen(std::size_t covariate) const { return seen_[covariate]; }
   [[nodiscard]] std::int64_t sample_count() const { return samples_; }
