@@ -118,3 +118,30 @@ writeLines(c(header, "# glm(count ~ u + I(u^2) + v + I(u * v) + I(v^2) + Topo, p
              paste0("term,estimate,", paste0("v", seq_along(labels), collapse = ",")),
              paste(labels, fmt17(coef(fit2raw)), apply(vc, 1, function(r) paste(fmt17(r), collapse = ",")), sep = ",")),
            file.path(out_dir, "poisson_poly2d_raw_refit.csv"))
+
+# ---- The numerical optimum of `describe`, checked from outside: the largest linear predictor R's
+# predict() gives on a 301 x 301 grid of (WatrCont, SubsDens) clipped to the convex hull of the
+# training sites (grDevices::chull), Topo at its reference level. describe's optimum must reach it.
+hull <- raw[chull(raw$WatrCont, raw$SubsDens), c("WatrCont", "SubsDens")]
+inside_hull <- function(x, y) {
+  # Counter-clockwise or clockwise, a point is inside a convex polygon when every edge sees it on
+  # the same side (or on the edge).
+  n <- nrow(hull)
+  s <- sapply(seq_len(n), function(i) {
+    j <- if (i == n) 1 else i + 1
+    (hull$WatrCont[j] - hull$WatrCont[i]) * (y - hull$SubsDens[i]) - (hull$SubsDens[j] - hull$SubsDens[i]) * (x - hull$WatrCont[i])
+  })
+  s <- matrix(s, ncol = n)
+  apply(s, 1, function(r) all(r >= -1e-9) || all(r <= 1e-9))
+}
+grid <- expand.grid(WatrCont = seq(wr[1], wr[2], length.out = 301), SubsDens = seq(sr[1], sr[2], length.out = 301))
+grid <- grid[inside_hull(grid$WatrCont, grid$SubsDens), ]
+grid$Topo <- factor("Blanket", levels = levels(raw$Topo))
+opt_lines <- c(header, "# Largest predict(type = \"link\") on a 301 x 301 grid inside the training hull of (WatrCont, SubsDens),",
+               "# Topo = Blanket; the grid point where it is reached.", "case,eta_max,WatrCont,SubsDens")
+for (cs in list(list("binomial_poly_ns", fit1, standardise), list("binomial_bs_raw", fit3, identity))) {
+  e <- suppressWarnings(predict(cs[[2]], cs[[3]](grid), type = "link"))
+  k <- which.max(e)
+  opt_lines <- c(opt_lines, paste(cs[[1]], fmt17(e[k]), fmt17(grid$WatrCont[k]), fmt17(grid$SubsDens[k]), sep = ","))
+}
+writeLines(opt_lines, file.path(out_dir, "optimum_grid.csv"))

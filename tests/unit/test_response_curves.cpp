@@ -142,3 +142,30 @@ TEST_CASE("describe --curves writes the curves as JSON and as a picture", "[curv
 
 }  // namespace
 }  // namespace habcast
+
+namespace habcast {
+namespace {
+
+TEST_CASE("The numerical optimum reaches the best of R's predictions on a grid inside the training hull",
+          "[curves][reference]") {
+  // Source: R 4.2.2 predict(type = "link") on a 301 x 301 grid of (WatrCont, SubsDens) clipped to the
+  // convex hull of the 70 mite cores (grDevices::chull), Topo = Blanket (tests/reference/mite_basis_glm.R).
+  const CsvTable ref = read_csv_table(test::source_path("tests/reference/mite_basis/optimum_grid.csv"));
+  REQUIRE(ref.rows.size() == 2);
+  for (std::size_t r = 0; r < ref.rows.size(); ++r) {
+    const ModelSpec spec = read_model_file(model_path(ref.rows[r][0]));
+    const TermPlan plan(spec);
+    const TrainingSamples samples = read_training_samples(spec);
+    const NicheDescription d = describe_niche(spec, plan, &samples, {});
+    REQUIRE(d.numerical.has_value());
+    INFO(ref.rows[r][0]);
+    CHECK(d.numerical->eta >= ref.number(r, 1) - 1e-12);  // at least as high as the best grid point
+    // ... and next to it: within two grid steps in each covariate (range / 300).
+    CHECK(std::fabs(d.numerical->raw[0] - ref.number(r, 2)) <= 2.0 * (826.96 - 134.13) / 300.0);
+    CHECK(std::fabs(d.numerical->raw[1] - ref.number(r, 3)) <= 2.0 * (80.59 - 21.17) / 300.0);
+    CHECK_FALSE(d.numerical->at_hull_edge);
+  }
+}
+
+}  // namespace
+}  // namespace habcast
