@@ -66,6 +66,7 @@ def spline_ratio(habcast, stack, args):
     quadratic model on the same stack: median wall times, alternating, and their ratio."""
     out_root = Path(args.work) / stack.name
     walls = {"model.toml": [], "model-splines.toml": []}
+    cpus = {"model.toml": [], "model-splines.toml": []}
     for rnd in range(args.warmup + args.reps):
         for name in (list(walls) if rnd % 2 == 0 else list(walls)[::-1]):
             out = out_root / ("spline-row-" + name.split(".")[0])
@@ -73,11 +74,13 @@ def spline_ratio(habcast, stack, args):
                          "--checks", "range"], out)
             if rnd >= args.warmup:
                 walls[name].append(m["wall_s"])
-            print(f"  {stack.name} round {rnd + 1} {name:20s} {m['wall_s']:7.2f} s", flush=True)
+                cpus[name].append(m["cpu_s"])
+            print(f"  {stack.name} round {rnd + 1} {name:20s} {m['wall_s']:7.2f} s  cpu {m['cpu_s']:7.2f} s", flush=True)
     quadratic = statistics.median(walls["model.toml"])
     splines = statistics.median(walls["model-splines.toml"])
+    cpu_ratio = statistics.median(cpus["model-splines.toml"]) / statistics.median(cpus["model.toml"])
     return {"stack": stack.name, "quadratic_wall_s": quadratic, "splines_wall_s": splines,
-            "splines_over_quadratic": splines / quadratic}
+            "splines_over_quadratic": splines / quadratic, "splines_over_quadratic_cpu": cpu_ratio}
 
 
 def measure(cmd, out_dir):
@@ -284,7 +287,8 @@ def print_table(results):
     if "splines" in results:
         s = results["splines"]
         print(f"splines ({s['stack']}): quadratic {s['quadratic_wall_s']:.2f} s, two ns(df=4) + products "
-              f"{s['splines_wall_s']:.2f} s, ratio {s['splines_over_quadratic']:.2f} (target <= 1.25)")
+              f"{s['splines_wall_s']:.2f} s, ratio {s['splines_over_quadratic']:.2f} (target <= 1.25), "
+              f"cpu ratio {s['splines_over_quadratic_cpu']:.2f}")
     if "rss_growth" in results:
         print(f"habcast peak RSS, largest vs smallest stack: {results['rss_growth']:.3f}x")
     print(f"load average before/after: {results['load_before']} / {results['load_after']}")
@@ -320,7 +324,8 @@ def main():
         results["splines"] = spline_ratio(habcast, stacks[0], args)
         s = results["splines"]
         print(f"splines ({s['stack']}): quadratic {s['quadratic_wall_s']:.2f} s, two ns(df=4) + products "
-              f"{s['splines_wall_s']:.2f} s, ratio {s['splines_over_quadratic']:.2f} (target <= 1.25)")
+              f"{s['splines_wall_s']:.2f} s, ratio {s['splines_over_quadratic']:.2f} (target <= 1.25), "
+              f"cpu ratio {s['splines_over_quadratic_cpu']:.2f}")
         return 0
     for stack in stacks:
         results["stacks"][stack.name] = race(habcast, floor, stack, args)
