@@ -9,10 +9,11 @@ cmake -S . -B build -G Ninja -DCMAKE_BUILD_TYPE=Release -DHABCAST_BUILD_TESTS=OF
 cmake --build build --parallel
 
 out=out/demo
+pictures=out/demo-pictures
 echo
 echo "== habcast predict on the invented Fenmarrow Uplands demo =="
 set +e
-build/habcast predict sample-rasters/demo-model.toml -o "$out" --overwrite
+build/habcast predict sample-rasters/demo-model.toml -o "$out" --overwrite --quicklook "$out/quicklook.png"
 code=$?
 set -e
 echo
@@ -20,5 +21,16 @@ if [[ $code -ne 0 ]]; then
   echo "habcast predict failed with exit code $code" >&2
   exit $code
 fi
+
+# The same pictures as PDF, for a report: the niche plot from the model, and the quicklook from a
+# second, quiet run (--quicklook draws one file per run; the demo takes a moment).
+mkdir -p "$pictures"
+build/habcast describe sample-rasters/demo-model.toml --plot "$pictures/niche.pdf" --plot-png "$pictures/niche.png" >/dev/null
+build/habcast predict sample-rasters/demo-model.toml -o "$pictures/run" --overwrite -q --quicklook "$pictures/quicklook.pdf"
+cp "$out/quicklook.png" "$pictures/quicklook.png"
+
 echo "Open $out/suitability.tif, $out/uncertainty.tif and $out/extrapolation.tif in a GIS;"
 echo "$out/report.json holds the numbers. The demo data are invented: do not use them for decisions."
+echo
+echo "Pictures (PNG at 300 dpi and PDF, A4 width):"
+for f in niche.png niche.pdf quicklook.png quicklook.pdf; do echo "  $pictures/$f"; done

@@ -14,7 +14,7 @@ packages=(
   libgdal-dev gdal-bin libproj-dev proj-data libeigen3-dev
   libcli11-dev catch2 libtomlplusplus-dev nlohmann-json3-dev
   libqhull-dev
-  libcairo2-dev libpango1.0-dev fonts-dejavu-core  # figures: Cairo surfaces, Pango text, DejaVu Sans
+  libcairo2-dev libpango1.0-dev fonts-dejavu-core zlib1g-dev  # figures: Cairo, Pango, DejaVu Sans; PNG text CRCs
   python3 python3-gdal python3-numpy
   time  # /usr/bin/time: the benchmark's per-run peak memory
 )

@@ -29,13 +29,14 @@ constexpr const char* kEvaluateHelp =
     "  uniformly from the grid's valid pixels with --seed (same seed, same points). AUC then compares\n"
     "  presences with background, and the continuous Boyce index (Hirzel et al. 2006) says whether\n"
     "  presences fall more often than expected where predictions are high (-1 to 1).\n\n"
-    "Outputs: a text summary (or --json), --svg FILE.svg with the ROC curve and the calibration or\n"
-    "Boyce curve, --write-binary FILE.tif with 1 where the prediction reaches the threshold\n"
-    "(--threshold, else the TSS-maximising one; the rule is stored in the file's metadata).\n\n"
+    "Outputs: a text summary (or --json), --plot FILE.pdf (or .svg, .png; --svg is the same option)\n"
+    "with the ROC curve and the calibration or Boyce curve, --write-binary FILE.tif with 1 where\n"
+    "the prediction reaches the threshold (--threshold, else the TSS-maximising one; the rule is\n"
+    "stored in the file's metadata).\n\n"
     "Examples:\n"
     "  habcast evaluate --prediction out/suitability.tif survey2027.csv --crs EPSG:32630 --response presence\n"
     "  habcast evaluate --model model.toml sightings.gpkg --presence-only --background 20000 --seed 7 \\\n"
-    "      --svg eval.svg --write-binary range.tif --json";
+    "      --plot eval.pdf --write-binary range.tif --json";
 
 struct EvaluateArgs {
   EvaluateOptions options;
@@ -88,10 +89,12 @@ void register_evaluate(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--x", o.points.x_column, "CSV column of the x coordinate")->default_val("x");
   cmd->add_option("--y", o.points.y_column, "CSV column of the y coordinate")->default_val("y");
   cmd->add_option("--layer", o.points.layer, "Layer of a multi-layer vector source");
-  cmd->add_option("--svg", o.svg_path, "Write the ROC curve and the calibration (or Boyce) plot as SVG");
+  cmd->add_option("--plot,--svg", o.svg_path,
+                  "FILE.pdf, FILE.svg or FILE.png (format by extension): the ROC curve beside the\n"
+                  "calibration (or Boyce) plot");
   cmd->add_option("--write-binary", o.binary_path, "Write a 0/1 GeoTIFF thresholded at --threshold or the max-TSS threshold");
   cmd->add_flag("--json", args->json, "Print every number as JSON instead of text");
-  cmd->add_flag("--overwrite", o.overwrite, "Replace existing --svg and --write-binary files");
+  cmd->add_flag("--overwrite", o.overwrite, "Replace existing --plot and --write-binary files");
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_evaluate_command(*args, out, err); });
 }
 

@@ -20,7 +20,8 @@
 #include "raster/point_sampler.hpp"
 #include "raster/point_source.hpp"
 #include "raster/point_transform.hpp"
-#include "render/evaluation_svg.hpp"
+#include "render/evaluation_figure.hpp"
+#include "render/figure_file.hpp"
 
 namespace habcast {
 
@@ -140,6 +141,7 @@ EvaluateSummary run_evaluate(const EvaluateOptions& o, const std::string& tool_v
                      "background points drawn from the grid");
   if (o.threshold && !(std::isfinite(*o.threshold))) throw UsageError("--threshold must be a number");
   if (o.background < 10 && o.presence_only) throw UsageError("--background needs at least 10 points");
+  if (!o.svg_path.empty()) figure_format(o.svg_path);  // .svg, .png or .pdf; refused before any work
   refuse_to_clobber({o.svg_path, o.binary_path}, o.overwrite);
   ensure_gdal();
 
@@ -235,8 +237,9 @@ EvaluateSummary run_evaluate(const EvaluateOptions& o, const std::string& tool_v
   }
 
   if (!o.svg_path.empty()) {
-    write_file_atomically(o.svg_path, evaluation_svg(d, calibration ? &*calibration : nullptr, boyce ? &*boyce : nullptr,
-                                                     "habcast evaluate: " + source->describe() + " with " + o.points.path));
+    const Figure figure = evaluation_figure(d, calibration ? &*calibration : nullptr, boyce ? &*boyce : nullptr,
+                                            "habcast evaluate: " + source->describe() + " with " + o.points.path);
+    write_file_atomically(o.svg_path, encode_figure(figure, o.svg_path));
     r["svg"] = o.svg_path;
     t << "\nWrote " << o.svg_path << "\n";
   }

@@ -31,8 +31,9 @@ void Legend::swatch(const std::string& label, const Fill& fill, std::optional<St
 void Legend::colour_steps(const std::vector<Rgb>& colours, const std::vector<std::string>& edges) {
   entries_.emplace_back(Steps{colours, edges});
 }
-void Legend::colour_ramp(const std::vector<std::pair<double, std::string>>& labels, double bar_height) {
-  entries_.emplace_back(Ramp{labels, bar_height});
+void Legend::colour_ramp(const std::vector<std::pair<double, std::string>>& labels, double bar_height,
+                         std::function<Rgb(double)> colours) {
+  entries_.emplace_back(Ramp{labels, bar_height, std::move(colours)});
 }
 void Legend::gap(double points) { entries_.emplace_back(Gap{points}); }
 
@@ -118,7 +119,7 @@ double Legend::draw(Figure& figure, Point2 top_left, const std::string& role) co
             bar.height = 256;
             for (int i = 0; i < 256; ++i) {
               bar.index.push_back(static_cast<std::uint8_t>(255 - i));
-              bar.palette.push_back(ramp_colour(i / 255.0));
+              bar.palette.push_back(k.colours(i / 255.0));
             }
             figure.image({x, y, kBarWidth, k.height}, std::move(bar), role + "-ramp");
             figure.rect({x, y, kBarWidth, k.height}, std::nullopt, Stroke{kInk, 0.5}, role + "-key");

@@ -1,7 +1,10 @@
 #pragma once
 // A legend: a column of entries (a mark beside its label), laid out beside the plot, never over
 // the data. Build it entry by entry, ask its height to place it, then draw it on the figure.
+#include <functional>
+#include <optional>
 #include <string>
+#include <utility>
 #include <variant>
 #include <vector>
 
@@ -22,9 +25,10 @@ class Legend {
   /// A stepped colour bar, highest step on top: `colours` low to high, `edges` the labels of the
   /// boundaries between steps (colours.size() - 1 of them).
   void colour_steps(const std::vector<Rgb>& colours, const std::vector<std::string>& edges);
-  /// A continuous colour bar of habcast's ramp from 0 (bottom) to 1 (top), with labels at
-  /// positions in 0..1.
-  void colour_ramp(const std::vector<std::pair<double, std::string>>& labels, double bar_height = 90.0);
+  /// A continuous colour bar from 0 (bottom) to 1 (top), with labels at positions in 0..1; the
+  /// colours are habcast's ramp unless another function of 0..1 is given (e.g. a diverging one).
+  void colour_ramp(const std::vector<std::pair<double, std::string>>& labels, double bar_height = 90.0,
+                   std::function<Rgb(double)> colours = ramp_colour);
   void gap(double points = 6.0);
 
   [[nodiscard]] double width() const { return width_; }
@@ -38,7 +42,7 @@ class Legend {
   struct MarkerKey { std::string label; Marker marker; };
   struct SwatchKey { std::string label; Fill fill; std::optional<Stroke> outline; std::optional<Hatch> hatch; };
   struct Steps { std::vector<Rgb> colours; std::vector<std::string> edges; };
-  struct Ramp { std::vector<std::pair<double, std::string>> labels; double height; };
+  struct Ramp { std::vector<std::pair<double, std::string>> labels; double height; std::function<Rgb(double)> colours; };
   struct Gap { double height; };
   using Entry = std::variant<Heading, LineKey, MarkerKey, SwatchKey, Steps, Ramp, Gap>;
 

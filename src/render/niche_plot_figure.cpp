@@ -15,13 +15,13 @@ namespace {
 
 namespace fs = figure_style;
 
-constexpr double kLeft = 54.0;      // plot area's left edge: room for tick labels and the y title
-constexpr double kSide = 282.0;     // the plot is square
-constexpr double kLegendGap = 26.0; // between the plot and the legend column
-constexpr double kMargin = 8.0;     // page edge
+constexpr double kPlotLeft = 54.0;      // plot area's left edge: room for tick labels and the y title
+constexpr double kPlotSide = 282.0;     // the plot is square
+constexpr double kNicheLegendGap = 26.0; // between the plot and the legend column
+constexpr double kNicheMargin = 8.0;     // page edge
 constexpr double kPixelsPerPoint = 2.0;  // resolution of the band image (144 per inch; edges are smooth)
 
-const Stroke kUnderlay{fs::kWhite, 2.6, {}, 0.8};
+const Stroke kUnderlay{fs::kWhite, 2.6, {}, 0.7};
 
 std::vector<double> band_edges(const NichePlot& plot) {
   std::vector<double> edges;
@@ -49,7 +49,7 @@ double response_at(const NichePlot& p, double column, double row) {
 
 IndexedImage band_image(const NichePlot& p, const std::vector<double>& edges) {
   IndexedImage img;
-  img.width = img.height = static_cast<int>(kSide * kPixelsPerPoint);
+  img.width = img.height = static_cast<int>(kPlotSide * kPixelsPerPoint);
   img.palette = band_colours(edges.size());
   img.index.resize(static_cast<std::size_t>(img.width) * static_cast<std::size_t>(img.height));
   for (int y = 0; y < img.height; ++y)
@@ -81,7 +81,7 @@ Marker optimum_marker() { return {MarkerShape::circle, 6.5, Fill{fs::kWhite}, St
 /// A line drawn over a white underlay, so it stays visible on the darkest band.
 void underlaid(Axes& ax, const std::vector<Point2>& pts, const Stroke& stroke, const std::string& role) {
   Stroke under = kUnderlay;
-  under.width = stroke.width + 1.2;
+  under.width = stroke.width + 0.9;
   ax.line(pts, under, role + "-underlay");
   ax.line(pts, stroke, role);
 }
@@ -158,17 +158,17 @@ Legend build_legend(const NichePlot& p, const std::vector<double>& edges, double
 
 Figure niche_plot_figure(const NichePlot& p) {
   const double width = kA4FigureWidth;
-  const double legend_x = kLeft + kSide + kLegendGap;
-  const double text_width = width - 2 * kMargin;
+  const double legend_x = kPlotLeft + kPlotSide + kNicheLegendGap;
+  const double text_width = width - 2 * kNicheMargin;
 
   // Header: the title, then what the other covariates are held at.
   std::vector<std::string> subtitle = p.subtitle.empty() ? std::vector<std::string>{} : wrap_text(p.subtitle, fs::subtitle(), text_width);
-  const double title_y = kMargin + fs::kTitleSize;
+  const double title_y = kNicheMargin + fs::kTitleSize;
   const double subtitle_y = title_y + 1.5 * fs::kSubtitleSize;
   const double top = (subtitle.empty() ? title_y : subtitle_y + 1.3 * fs::kSubtitleSize * static_cast<double>(subtitle.size() - 1)) + 14.0;
 
   const std::vector<double> edges = band_edges(p);
-  const Legend legend = build_legend(p, edges, width - legend_x - kMargin);
+  const Legend legend = build_legend(p, edges, width - legend_x - kNicheMargin);
   std::vector<std::string> notes;
   for (const std::string& n : p.notes) notes.push_back("Note: " + n + ".");
   std::vector<std::string> foot;
@@ -176,17 +176,17 @@ Figure niche_plot_figure(const NichePlot& p) {
     for (const std::string& line : wrap_text(n, fs::note(), text_width)) foot.push_back(line);
   if (!p.caption.empty())
     for (const std::string& line : wrap_text(p.caption, fs::note(), text_width)) foot.push_back(line);
-  const double axis_bottom = top + kSide + 34.0;
+  const double axis_bottom = top + kPlotSide + 34.0;
   const double body_bottom = std::max(axis_bottom, top + legend.height());
-  const double height = body_bottom + (foot.empty() ? 0.0 : 6.0 + 1.3 * fs::kNoteSize * static_cast<double>(foot.size())) + kMargin;
+  const double height = body_bottom + (foot.empty() ? 0.0 : 6.0 + 1.3 * fs::kNoteSize * static_cast<double>(foot.size())) + kNicheMargin;
 
   Figure fig(width, height);
   fig.title = p.title;
   fig.subject = p.subtitle;
-  fig.text({kMargin, title_y}, p.title, fs::title(), "title");
-  fig.text_lines({kMargin, subtitle_y}, subtitle, fs::subtitle(), 1.3, "subtitle");
+  fig.text({kNicheMargin, title_y}, p.title, fs::title(), "title");
+  fig.text_lines({kNicheMargin, subtitle_y}, subtitle, fs::subtitle(), 1.3, "subtitle");
 
-  Axes ax(fig, Rect{kLeft, top, kSide, kSide}, p.x0, p.x1, p.y0, p.y1);
+  Axes ax(fig, Rect{kPlotLeft, top, kPlotSide, kPlotSide}, p.x0, p.x1, p.y0, p.y1);
   ax.image(band_image(p, edges), "response-bands");
   draw_contours(ax, p);
   if (p.hull.size() >= 3) {
@@ -205,7 +205,7 @@ Figure niche_plot_figure(const NichePlot& p) {
   ax.y_axis(yt, p.y_label);
   ax.frame();
   legend.draw(fig, {legend_x, top});
-  fig.text_lines({kMargin, body_bottom + 6.0 + fs::kNoteSize}, foot, fs::note(), 1.3, "note");
+  fig.text_lines({kNicheMargin, body_bottom + 6.0 + fs::kNoteSize}, foot, fs::note(), 1.3, "note");
   return fig;
 }
 

@@ -32,7 +32,10 @@ void set_text(PangoLayout* layout, const std::string& text, const TextStyle& sty
   pango_font_description_set_weight(font.get(), style.bold ? PANGO_WEIGHT_BOLD : PANGO_WEIGHT_NORMAL);
   pango_font_description_set_style(font.get(), style.italic ? PANGO_STYLE_ITALIC : PANGO_STYLE_NORMAL);
   pango_layout_set_font_description(layout, font.get());
-  pango_layout_set_text(layout, text.c_str(), static_cast<int>(text.size()));
+  // Raster metadata (a band's unit) need not be UTF-8; Pango would warn and cut the text at the
+  // first bad byte, so bad bytes become U+FFFD instead.
+  std::unique_ptr<gchar, decltype(&g_free)> valid(g_utf8_make_valid(text.c_str(), static_cast<gssize>(text.size())), g_free);
+  pango_layout_set_text(layout, valid.get(), -1);
 }
 
 LayoutPtr measuring_layout(const std::string& text, const TextStyle& style) {

@@ -13,6 +13,8 @@ namespace habcast {
 struct QuicklookLayout {
   Rect map;                        ///< the map on the page, points
   int pixels_x = 0, pixels_y = 0;  ///< cells read across and down (never more than the raster has)
+  int repeat = 1;                  ///< each cell drawn as repeat x repeat image pixels, so a small raster
+                                   ///< stays crisp cells when a PDF viewer smooths the image
   double width = 0;                ///< the page, points (its height follows the legend and notes)
 };
 

@@ -12,17 +12,17 @@ namespace habcast {
 
 namespace {
 
-constexpr double kPanelWidth = 190.0;   // points; two panels across the A4 text width (482 pt)
-constexpr double kPanelHeight = 130.0;
-constexpr double kLeft = 52.0, kColumnGap = 42.0, kRowGap = 56.0;
-constexpr double kMargin = 12.0;        // left edge of the title and the notes
+constexpr double kCurvePanelWidth = 190.0;   // points; two panels across the A4 text width (482 pt)
+constexpr double kCurvePanelHeight = 130.0;
+constexpr double kCurvePlotLeft = 52.0, kCurveColumnGap = 42.0, kCurveRowGap = 56.0;
+constexpr double kCurvePageMargin = 12.0;        // left edge of the title and the notes
 
-const Fill kBand{ramp_colour(0.72), 0.55};
-const Fill kTrainingShade{figure_style::kLightGrey, 0.6};
-const Stroke kCurve{kInk, 1.0};
-const Stroke kExtrapolated{kInk, 1.0, {3.0, 2.0}};
-const Stroke kRug{figure_style::kGrey, 0.5};
-const Stroke kKnot{ramp_colour(0.25), 0.7, {1.0, 1.5}};
+const Fill kCurveBand{ramp_colour(0.72), 0.55};
+const Fill kCurveTrainingShade{figure_style::kLightGrey, 0.6};
+const Stroke kCurveLine{kInk, 1.0};
+const Stroke kCurveExtrapolated{kInk, 1.0, {3.0, 2.0}};
+const Stroke kCurveRug{figure_style::kGrey, 0.5};
+const Stroke kCurveKnot{ramp_colour(0.25), 0.7, {1.0, 1.5}};
 
 std::string response_word(const ModelSpec& spec) {
   switch (spec.family) {
@@ -63,7 +63,7 @@ void continuous_panel(Figure& fig, const Rect& area, const ModelSpec& spec, cons
   ax.grid(xt, yt);
   if (curve.training_min)
     ax.polygon({{*curve.training_min, y0}, {*curve.training_max, y0}, {*curve.training_max, y1}, {*curve.training_min, y1}},
-               kTrainingShade, std::nullopt, "training-range");
+               kCurveTrainingShade, std::nullopt, "training-range");
   std::vector<double> x, lower, upper;
   for (const CurvePoint& p : curve.points)
     if (p.valid && std::isfinite(p.lower)) {
@@ -71,12 +71,12 @@ void continuous_panel(Figure& fig, const Rect& area, const ModelSpec& spec, cons
       lower.push_back(std::max(p.lower, y0));
       upper.push_back(std::min(p.upper, y1));
     }
-  if (x.size() >= 2) ax.band(x, lower, upper, kBand, "confidence-band");
+  if (x.size() >= 2) ax.band(x, lower, upper, kCurveBand, "confidence-band");
   // The curve in runs: solid inside the training range, dashed beyond it.
   std::vector<Point2> run;
   bool run_inside = true;
   auto flush = [&]() {
-    if (run.size() >= 2) ax.line(run, run_inside ? kCurve : kExtrapolated, run_inside ? "response" : "response-extrapolated");
+    if (run.size() >= 2) ax.line(run, run_inside ? kCurveLine : kCurveExtrapolated, run_inside ? "response" : "response-extrapolated");
     run.clear();
   };
   for (const CurvePoint& p : curve.points) {
@@ -95,10 +95,10 @@ void continuous_panel(Figure& fig, const Rect& area, const ModelSpec& spec, cons
   flush();
   for (const auto& [lo, hi] : curve.spline_boundaries)
     for (double k : {lo, hi})
-      if (k >= x0 && k <= x1) ax.segment({k, y0}, {k, y1}, kKnot, "spline-boundary-knot");
+      if (k >= x0 && k <= x1) ax.segment({k, y0}, {k, y1}, kCurveKnot, "spline-boundary-knot");
   const double rug_height = 0.05 * (y1 - y0);
   for (double r : curve.rug)
-    if (r >= x0 && r <= x1) ax.segment({r, y0}, {r, y0 + rug_height}, kRug, "rug");
+    if (r >= x0 && r <= x1) ax.segment({r, y0}, {r, y0 + rug_height}, kCurveRug, "rug");
   ax.x_axis(xt, axis_label(cov));
   ax.y_axis(yt, response_word(spec));
   ax.frame();
@@ -118,7 +118,7 @@ void categorical_panel(Figure& fig, const Rect& area, const ModelSpec& spec, con
     const CurvePoint& p = curve.points[i];
     if (!p.valid) continue;
     const double xi = static_cast<double>(i);
-    if (std::isfinite(p.lower)) ax.segment({xi, std::max(p.lower, y0)}, {xi, std::min(p.upper, y1)}, kCurve, "level-interval");
+    if (std::isfinite(p.lower)) ax.segment({xi, std::max(p.lower, y0)}, {xi, std::min(p.upper, y1)}, kCurveLine, "level-interval");
     (curve.level_seen[i] ? seen : unseen).push_back({xi, p.mu});
   }
   ax.points(seen, Marker{MarkerShape::circle, 5.0, Fill{kInk}}, "level");
@@ -130,8 +130,8 @@ void categorical_panel(Figure& fig, const Rect& area, const ModelSpec& spec, con
 
 /// Lines of `text` wrapped to the page's width, drawn from `y` down; returns the next free y.
 double paragraph(Figure& fig, const std::string& text, const TextStyle& style, double y) {
-  for (const std::string& line : wrap_text(text, style, fig.width() - 2.0 * kMargin)) {
-    fig.text({kMargin, y}, line, style);
+  for (const std::string& line : wrap_text(text, style, fig.width() - 2.0 * kCurvePageMargin)) {
+    fig.text({kCurvePageMargin, y}, line, style);
     y += style.size * 1.35;
   }
   return y;
@@ -161,15 +161,15 @@ Figure response_curves_figure(const ModelSpec& spec, const NicheDescription& d, 
   Figure probe(kA4FigureWidth, 100.0);
   const double top = paragraph(probe, subtitle, figure_style::subtitle(), 32.0) + 8.0;
   const double notes_height = paragraph(probe, notes, figure_style::note(), 0.0);
-  const double panels_bottom = top + static_cast<double>(rows) * (kPanelHeight + kRowGap);
+  const double panels_bottom = top + static_cast<double>(rows) * (kCurvePanelHeight + kCurveRowGap);
   Figure fig(kA4FigureWidth, panels_bottom + notes_height + 8.0);
   fig.title = "Response curves" + (spec.name.empty() ? std::string() : ": " + spec.name);
   fig.subject = response_description(spec);
-  fig.text({kMargin, 18.0}, fig.title, figure_style::title());
+  fig.text({kCurvePageMargin, 18.0}, fig.title, figure_style::title());
   paragraph(fig, subtitle, figure_style::subtitle(), 32.0);
   for (std::size_t i = 0; i < n; ++i) {
-    const Rect area{kLeft + static_cast<double>(i % 2) * (kPanelWidth + kColumnGap),
-                    top + static_cast<double>(i / 2) * (kPanelHeight + kRowGap), kPanelWidth, kPanelHeight};
+    const Rect area{kCurvePlotLeft + static_cast<double>(i % 2) * (kCurvePanelWidth + kCurveColumnGap),
+                    top + static_cast<double>(i / 2) * (kCurvePanelHeight + kCurveRowGap), kCurvePanelWidth, kCurvePanelHeight};
     if (d.curves[i].categorical) categorical_panel(fig, area, spec, d.curves[i]);
     else continuous_panel(fig, area, spec, d.curves[i]);
   }

@@ -55,6 +55,7 @@ inline bool looks_like_pdf(const std::string& bytes) {
 struct DecodedPng {
   int width = 0, height = 0;
   std::vector<std::uint8_t> rgb;
+  std::string metadata_title, metadata_software;  ///< the PNG's text chunks, as GDAL reports them
   [[nodiscard]] Rgb at(int x, int y) const {
     const std::size_t i = 3 * (static_cast<std::size_t>(y) * static_cast<std::size_t>(width) + static_cast<std::size_t>(x));
     return {rgb[i], rgb[i + 1], rgb[i + 2]};
@@ -70,6 +71,12 @@ inline DecodedPng decode_png(const std::string& bytes) {
   DecodedPng out;
   GDALDataset* ds = static_cast<GDALDataset*>(GDALOpen(name.c_str(), GA_ReadOnly));
   if (ds) {
+    auto item = [&](const char* key) {
+      const char* v = ds->GetMetadataItem(key);
+      return std::string(v ? v : "");
+    };
+    out.metadata_title = item("Title");
+    out.metadata_software = item("Software");
     out.width = ds->GetRasterXSize();
     out.height = ds->GetRasterYSize();
     out.rgb.resize(3 * static_cast<std::size_t>(out.width) * static_cast<std::size_t>(out.height));

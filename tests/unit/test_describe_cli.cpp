@@ -138,6 +138,7 @@ TEST_CASE("predict --quicklook draws the map as PNG or PDF next to the rasters",
   CHECK(layout.map.height == Approx(247.5));
   CHECK(layout.pixels_x == 320);
   CHECK(layout.pixels_y == 240);
+  CHECK(layout.repeat == 4);  // 1280 x 960 image pixels: cells stay square in a smoothing PDF viewer
   // The demo's lake is nodata: some map pixels carry the no-data grey (228, 228, 228).
   const test::DecodedPng image = test::decode_png(bytes);
   std::size_t grey = 0;

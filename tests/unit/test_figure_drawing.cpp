@@ -5,6 +5,7 @@
 #include "figure_file_check.hpp"
 #include "core/base/error.hpp"
 #include "render/drawing.hpp"
+#include "render/evaluation_figure.hpp"
 
 namespace habcast {
 namespace {
@@ -59,6 +60,12 @@ TEST_CASE("One figure is written as a valid SVG, PNG and PDF", "[figure]") {
   CHECK_FALSE(test::parses_as_svg(svg.substr(0, svg.size() / 2)));
   CHECK_FALSE(test::looks_like_pdf(pdf.substr(0, pdf.size() - 20)));
   CHECK_FALSE(test::has_png_signature(pdf));
+  // The PNG names what it shows and what drew it. libpng (through GDAL's PNG driver, which reports
+  // text chunks as metadata) drops a text chunk whose CRC is wrong, so this checks the CRCs too.
+  const test::DecodedPng decoded = test::decode_png(png);
+  CHECK(decoded.width == 2008);
+  CHECK(decoded.metadata_title == "Drawing check");
+  CHECK(decoded.metadata_software == "habcast");
 }
 
 TEST_CASE("PNG pixels have the colours the figure drew, hatching included", "[figure]") {
@@ -110,6 +117,26 @@ TEST_CASE("A scale bar has a round length no longer than allowed", "[figure]") {
   CHECK(scale_bar_metres(100.0, 80.0) == 5000.0);   // 8 km allowed -> 5 km
   CHECK(scale_bar_metres(25.0, 80.0) == 2000.0);    // 2 km allowed -> 2 km
   CHECK(scale_bar_metres(1.0, 99.0) == 50.0);
+}
+
+TEST_CASE("The evaluation figure draws the ROC curve beside calibration or the Boyce curve", "[figure]") {
+  const std::vector<double> scores{0.1, 0.2, 0.3, 0.35, 0.4, 0.6, 0.7, 0.8, 0.9, 0.95};
+  const std::vector<std::uint8_t> seen{0, 0, 1, 0, 0, 1, 0, 1, 1, 1};
+  const Discrimination d = discriminate(scores, seen);
+  const std::vector<CalibrationBin> bins = calibration_table(scores, seen, 5);
+  const Figure with_bins = evaluation_figure(d, &bins, nullptr, "Check");
+  CHECK(with_bins.marks_with_role("roc").size() == 1);
+  CHECK(with_bins.marks_with_role("best-threshold").size() == 1);
+  std::size_t drawn_bins = 0;
+  for (const CalibrationBin& b : bins) drawn_bins += b.count > 0 ? 1 : 0;
+  CHECK(with_bins.marks_with_role("calibration-bin").size() == drawn_bins);
+  CHECK(test::looks_like_pdf(encode_figure(with_bins, FigureFormat::pdf)));
+
+  const BoyceResult boyce = boyce_index({0.6, 0.7, 0.8, 0.9}, scores, 0.2, 20);
+  const Figure with_boyce = evaluation_figure(d, nullptr, &boyce, "Check");
+  CHECK(with_boyce.marks_with_role("boyce").size() == 1);
+  CHECK(with_boyce.marks_with_role("calibration-bin").empty());
+  CHECK(test::parses_as_svg(encode_figure(with_boyce, FigureFormat::svg)));
 }
 
 }  // namespace

@@ -1,10 +1,13 @@
 // The map quicklook: a raster of known blocks drawn as PNG and PDF; the PNG's map pixels have the
 // ramp colours its legend promises, no-data is grey, extrapolated pixels are hatched, and the
 // raster is read at the picture's size, never at its own.
+#include <gdal_priv.h>
+
 #include <catch2/catch.hpp>
 #include <cmath>
 
 #include "figure_file_check.hpp"
+#include "raster/gdal_session.hpp"
 #include "render/drawing.hpp"
 #include "render/quicklook.hpp"
 #include "test_support.hpp"
@@ -85,12 +88,47 @@ TEST_CASE("Quicklook pixels have the colours of the legend's ramp; no-data is gr
   CHECK(!fig.marks_with_role("caption").empty());
 }
 
+TEST_CASE("The quicklook reads a raster's overview when it has one of the picture's size", "[quicklook]") {
+  // 3000 x 2000 cells of 0.1; an overview at half size whose cells we set to 0.9. The map is
+  // 1375 x 917 pixels at 300 dpi, so the 1500 x 1000 overview is the one to read, and the map
+  // must show 0.9. (GDAL builds overviews as reductions of the data; writing them by hand only
+  // makes it visible which level was read.)
+  test::TempDir dir("quicklook-overview");
+  const std::string path = dir.file("suitability.tif");
+  test::GridSpec grid;
+  grid.width = 3000;
+  grid.height = 2000;
+  grid.block = 256;
+  test::write_raster(path, grid, "Float32", [](int, int) { return 0.1; });
+  {
+    ensure_gdal();
+    GDALDataset* ds = static_cast<GDALDataset*>(GDALOpen(path.c_str(), GA_Update));
+    REQUIRE(ds != nullptr);
+    int level = 2;
+    REQUIRE(ds->BuildOverviews("NEAREST", 1, &level, 0, nullptr, nullptr, nullptr) == CE_None);
+    GDALRasterBand* overview = ds->GetRasterBand(1)->GetOverview(0);
+    REQUIRE(overview->GetXSize() == 1500);
+    std::vector<float> high(1500, 0.9f);
+    for (int r = 0; r < 1000; ++r)
+      REQUIRE(overview->RasterIO(GF_Write, 0, r, 1500, 1, high.data(), 1500, 1, GDT_Float32, 0, 0, nullptr) == CE_None);
+    GDALClose(ds);
+  }
+  const QuicklookLayout l = quicklook_layout(3000, 2000);
+  REQUIRE(l.pixels_x == 1375);
+  const Figure fig = quicklook_figure(path, "", "Overview");
+  const ImageMark& map = std::get<ImageMark>(fig.marks_with_role("map").front()->shape);
+  CHECK(map.image.width == 1375);
+  CHECK(map.image.palette[map.image.index[0]].r == ramp_colour(std::round(0.9 * 254.0) / 254.0).r);
+  CHECK(map.image.palette[map.image.index[0]].g == ramp_colour(std::round(0.9 * 254.0) / 254.0).g);
+}
+
 TEST_CASE("The quicklook reads a big raster at the picture's size, so memory does not grow with the raster", "[quicklook]") {
   // 100 Mpix (10 000 x 10 000 cells): the map is 330 x 330 pt, read as 1375 x 1375 values at
   // 300 dpi, whatever the raster's size.
   const QuicklookLayout big = quicklook_layout(10000, 10000);
   CHECK(big.pixels_x == 1375);
   CHECK(big.pixels_y == 1375);
+  CHECK(big.repeat == 1);
   CHECK(quicklook_layout(40000, 40000).pixels_x == 1375);
   // A long thin raster fits the 360 pt height.
   const QuicklookLayout tall = quicklook_layout(1000, 4000);
