@@ -33,7 +33,7 @@ std::string response_word(const ModelSpec& spec) {
   return "response";
 }
 
-std::string axis_label(const Covariate& c) { return c.units.empty() ? c.name : c.name + " (" + c.units + ")"; }
+std::string curve_axis_label(const Covariate& c) { return c.units.empty() ? c.name : c.name + " (" + c.units + ")"; }
 
 /// y range of a panel: the band and the curve, with a little room; probabilities stay in [0, 1].
 std::pair<double, double> y_range(const ModelSpec& spec, const ResponseCurve& curve) {
@@ -99,7 +99,7 @@ void continuous_panel(Figure& fig, const Rect& area, const ModelSpec& spec, cons
   const double rug_height = 0.05 * (y1 - y0);
   for (double r : curve.rug)
     if (r >= x0 && r <= x1) ax.segment({r, y0}, {r, y0 + rug_height}, kCurveRug, "rug");
-  ax.x_axis(xt, axis_label(cov));
+  ax.x_axis(xt, curve_axis_label(cov));
   ax.y_axis(yt, response_word(spec));
   ax.frame();
 }
@@ -123,7 +123,7 @@ void categorical_panel(Figure& fig, const Rect& area, const ModelSpec& spec, con
   }
   ax.points(seen, Marker{MarkerShape::circle, 5.0, Fill{kInk}}, "level");
   ax.points(unseen, Marker{MarkerShape::circle, 5.0, Fill{figure_style::kWhite}, Stroke{kInk, 0.8}}, "level-unseen");
-  ax.x_axis(xt, axis_label(cov));
+  ax.x_axis(xt, curve_axis_label(cov));
   ax.y_axis(yt, response_word(spec));
   ax.frame();
 }

@@ -23,11 +23,11 @@
 namespace habcast {
 namespace {
 
-std::string model_path(const std::string& name) { return test::source_path("tests/reference/mite_basis/" + name + ".toml"); }
+std::string basis_model_path(const std::string& name) { return test::source_path("tests/reference/mite_basis/" + name + ".toml"); }
 
-double relative(double a, double b) { return std::fabs(a - b) / std::max(std::fabs(b), 1e-300); }
+double relative_difference(double a, double b) { return std::fabs(a - b) / std::max(std::fabs(b), 1e-300); }
 
-std::string read_all(const std::string& path) {
+std::string file_bytes(const std::string& path) {
   std::ifstream in(path, std::ios::binary);
   std::ostringstream s;
   s << in.rdbuf();
@@ -41,7 +41,7 @@ TEST_CASE("Response curves and their bands equal R's predict() on a newdata grid
   std::size_t checked = 0;
   double worst = 0.0;
   for (const std::string name : {"binomial_poly_ns", "poisson_poly2d", "binomial_bs_raw"}) {
-    const ModelSpec spec = read_model_file(model_path(name));
+    const ModelSpec spec = read_model_file(basis_model_path(name));
     const TermPlan plan(spec);
     const TrainingSamples samples = read_training_samples(spec);
     const ReferencePoint reference = default_reference(spec, &samples);  // as describe holds them
@@ -59,9 +59,9 @@ TEST_CASE("Response curves and their bands equal R's predict() on a newdata grid
       }
       REQUIRE(p.valid);
       INFO(name << " " << covariate << " row " << r);
-      const double errs[] = {relative(p.eta, ref.number(r, 5)), relative(p.se_eta, ref.number(r, 6)),
-                             relative(p.mu, ref.number(r, 7)), relative(p.lower, ref.number(r, 8)),
-                             relative(p.upper, ref.number(r, 9))};
+      const double errs[] = {relative_difference(p.eta, ref.number(r, 5)), relative_difference(p.se_eta, ref.number(r, 6)),
+                             relative_difference(p.mu, ref.number(r, 7)), relative_difference(p.lower, ref.number(r, 8)),
+                             relative_difference(p.upper, ref.number(r, 9))};
       for (double e : errs) {
         CHECK(e <= 1e-6);
         worst = std::max(worst, e);
@@ -74,7 +74,7 @@ TEST_CASE("Response curves and their bands equal R's predict() on a newdata grid
 }
 
 TEST_CASE("describe finds the optimum of a spline model numerically inside the training hull", "[curves]") {
-  const ModelSpec spec = read_model_file(model_path("binomial_poly_ns"));
+  const ModelSpec spec = read_model_file(basis_model_path("binomial_poly_ns"));
   const TermPlan plan(spec);
   const TrainingSamples samples = read_training_samples(spec);
   DescribeSettings settings;
@@ -109,22 +109,22 @@ TEST_CASE("describe --curves writes the curves as JSON and as a picture", "[curv
   test::TempDir dir("curves");
   const std::string json = dir.file("curves.json"), svg = dir.file("curves.svg"), pdf = dir.file("curves.pdf");
   std::string out, err;
-  REQUIRE(test::run_cli({"describe", model_path("binomial_poly_ns"), "--curves", json, "--curves", svg, "--curves", pdf,
+  REQUIRE(test::run_cli({"describe", basis_model_path("binomial_poly_ns"), "--curves", json, "--curves", svg, "--curves", pdf,
                          "--curve-points", "41"},
                         &out, &err) == 0);
   CHECK_THAT(out, Catch::Contains("numerical optimum inside the training hull"));
   CHECK_THAT(out, Catch::Contains("extrapolation by construction"));
-  const auto j = nlohmann::json::parse(read_all(json));
+  const auto j = nlohmann::json::parse(file_bytes(json));
   REQUIRE(j["curves"].size() == 3);
   CHECK(j["curves"][0]["covariate"] == "WatrCont");
   CHECK(j["curves"][0]["points"].size() == 41);
   CHECK(j["curves"][0]["points"][0]["inside_training"] == false);  // the grid reaches 15 % beyond the data
   CHECK(j["curves"][1]["spline_boundary_knots"].size() == 1);
   CHECK(j["curves"][2]["points"][1]["level"] == "Hummock");
-  CHECK(test::parses_as_svg(read_all(svg)));
-  CHECK(test::looks_like_pdf(read_all(pdf)));
+  CHECK(test::parses_as_svg(file_bytes(svg)));
+  CHECK(test::looks_like_pdf(file_bytes(pdf)));
 
-  const ModelSpec spec = read_model_file(model_path("binomial_poly_ns"));
+  const ModelSpec spec = read_model_file(basis_model_path("binomial_poly_ns"));
   const TermPlan plan(spec);
   const TrainingSamples samples = read_training_samples(spec);
   DescribeSettings settings;
@@ -137,7 +137,7 @@ TEST_CASE("describe --curves writes the curves as JSON and as a picture", "[curv
   CHECK(fig.marks_with_role("level").size() == 1);
   CHECK(fig.marks_with_role("level-interval").size() == 2);
 
-  CHECK(test::run_cli({"describe", model_path("binomial_poly_ns"), "--curves", dir.file("curves.txt")}, &out, &err) == 2);
+  CHECK(test::run_cli({"describe", basis_model_path("binomial_poly_ns"), "--curves", dir.file("curves.txt")}, &out, &err) == 2);
 }
 
 }  // namespace
@@ -153,7 +153,7 @@ TEST_CASE("The numerical optimum reaches the best of R's predictions on a grid i
   const CsvTable ref = read_csv_table(test::source_path("tests/reference/mite_basis/optimum_grid.csv"));
   REQUIRE(ref.rows.size() == 2);
   for (std::size_t r = 0; r < ref.rows.size(); ++r) {
-    const ModelSpec spec = read_model_file(model_path(ref.rows[r][0]));
+    const ModelSpec spec = read_model_file(basis_model_path(ref.rows[r][0]));
     const TermPlan plan(spec);
     const TrainingSamples samples = read_training_samples(spec);
     const NicheDescription d = describe_niche(spec, plan, &samples, {});

@@ -13,12 +13,12 @@ using namespace habcast;
 
 namespace {
 
-std::string reference(const std::string& name) {
+std::string spline_reference_file(const std::string& name) {
   return std::string(HABCAST_SOURCE_DIR) + "/tests/reference/splines/" + name;
 }
 
 std::map<std::string, SplineDefinition> reference_cases() {
-  const CsvTable t = read_csv_table(reference("basis_cases.csv"));
+  const CsvTable t = read_csv_table(spline_reference_file("basis_cases.csv"));
   std::map<std::string, SplineDefinition> cases;
   for (std::size_t r = 0; r < t.rows.size(); ++r) {
     SplineDefinition d;
@@ -39,7 +39,7 @@ std::map<std::string, SplineDefinition> reference_cases() {
 TEST_CASE("Spline bases equal R's ns() and bs() inside, at and beyond the boundary knots", "[spline]") {
   const auto cases = reference_cases();
   REQUIRE(cases.size() == 9);
-  const CsvTable v = read_csv_table(reference("basis_values.csv"));
+  const CsvTable v = read_csv_table(spline_reference_file("basis_values.csv"));
   std::map<std::string, SplineBasis> bases;
   for (const auto& [name, d] : cases) bases.emplace(name, SplineBasis(d));
   std::size_t checked = 0, beyond = 0;

@@ -17,16 +17,16 @@
 namespace habcast {
 namespace {
 
-std::string model(const std::string& covariate_extra, const std::string& terms, const std::string& estimates) {
+std::string spline_model_text(const std::string& covariate_extra, const std::string& terms, const std::string& estimates) {
   return "habcast_model = 1\n[model]\nfamily = \"binomial\"\n[covariates.t]\ncenter = 10.0\nscale = 2.0\n" +
          covariate_extra + "\n[covariates.p]\n[coefficients]\nterms = [" + terms + "]\nestimates = [" + estimates + "]\n";
 }
 
-const std::string kNs = "ns = { knots = [-0.5, 0.5], boundary = [-1.5, 1.5] }";
+const std::string kSplineNs = "ns = { knots = [-0.5, 0.5], boundary = [-1.5, 1.5] }";
 
 TEST_CASE("A spline term is one column of the basis declared on its covariate", "[spline]") {
   const ModelSpec spec = parse_model_text(
-      model(kNs + "\nbs = { knots = [0.0], boundary = [-2.0, 2.0], degree = 2 }",
+      spline_model_text(kSplineNs + "\nbs = { knots = [0.0], boundary = [-2.0, 2.0], degree = 2 }",
             "\"(Intercept)\", \"ns(t)[1]\", \"ns(t)[3]\", \"bs(t)[2]\", \"ns(t)[2]:p\"", "0.5, 1.0, -2.0, 0.3, 0.7"),
       "m.toml");
   const TermPlan plan(spec);
@@ -56,15 +56,15 @@ TEST_CASE("Spline terms and declarations that cannot mean anything are refused w
   auto refused = [](const std::string& text, const std::string& why) {
     CHECK_THROWS_WITH(parse_model_text(text, "m.toml"), Catch::Contains("m.toml:") && Catch::Contains(why));
   };
-  refused(model("", "\"ns(t)[1]\"", "1.0"), "needs the basis declared");
-  refused(model(kNs, "\"ns(t)[4]\"", "1.0"), "from 1 to 3");
-  refused(model(kNs, "\"ns(t)\"", "1.0"), "names one column");
-  refused(model(kNs, "\"ns(t)[1]^2\"", "1.0"), "carries no power");
-  refused(model(kNs, "\"ns(t)[1]:ns(t)[2]\"", "1.0"), "two columns of one spline basis");
-  refused(model("ns = { knots = [2.0], boundary = [-1.5, 1.5] }", "\"ns(t)[1]\"", "1.0"), "strictly between");
-  refused(model("ns = { knots = [0.0], boundary = [1.5] }", "\"ns(t)[1]\"", "1.0"), "boundary = [LOWER, UPPER]");
-  refused(model("ns = { knots = [0.0], boundary = [-1.0, 1.0], degree = 2 }", "\"ns(t)[1]\"", "1.0"), "unknown key");
-  refused(model("bs = { knots = [0.0], boundary = [-1.0, 1.0], degree = 9 }", "\"bs(t)[1]\"", "1.0"), "degree");
+  refused(spline_model_text("", "\"ns(t)[1]\"", "1.0"), "needs the basis declared");
+  refused(spline_model_text(kSplineNs, "\"ns(t)[4]\"", "1.0"), "from 1 to 3");
+  refused(spline_model_text(kSplineNs, "\"ns(t)\"", "1.0"), "names one column");
+  refused(spline_model_text(kSplineNs, "\"ns(t)[1]^2\"", "1.0"), "carries no power");
+  refused(spline_model_text(kSplineNs, "\"ns(t)[1]:ns(t)[2]\"", "1.0"), "two columns of one spline basis");
+  refused(spline_model_text("ns = { knots = [2.0], boundary = [-1.5, 1.5] }", "\"ns(t)[1]\"", "1.0"), "strictly between");
+  refused(spline_model_text("ns = { knots = [0.0], boundary = [1.5] }", "\"ns(t)[1]\"", "1.0"), "boundary = [LOWER, UPPER]");
+  refused(spline_model_text("ns = { knots = [0.0], boundary = [-1.0, 1.0], degree = 2 }", "\"ns(t)[1]\"", "1.0"), "unknown key");
+  refused(spline_model_text("bs = { knots = [0.0], boundary = [-1.0, 1.0], degree = 9 }", "\"bs(t)[1]\"", "1.0"), "degree");
   refused("habcast_model = 1\n[model]\nfamily = \"binomial\"\n[covariates.s]\ntype = \"categorical\"\n"
           "levels = [ { code = 1, name = \"a\" } ]\nns = { knots = [], boundary = [0.0, 1.0] }\n"
           "[coefficients]\nterms = [\"(Intercept)\"]\nestimates = [0.0]\n",
@@ -74,7 +74,7 @@ TEST_CASE("Spline terms and declarations that cannot mean anything are refused w
 TEST_CASE("Values beyond a spline's boundary knots are flagged outside the range even inside the training range",
           "[spline]") {
   // Boundary knots at model values -1.5, 1.5: raw 7 and 13. Training t spans 6 to 14.
-  const ModelSpec spec = parse_model_text(model(kNs, "\"ns(t)[1]\", \"p\"", "1.0, 1.0"), "m.toml");
+  const ModelSpec spec = parse_model_text(spline_model_text(kSplineNs, "\"ns(t)[1]\", \"p\"", "1.0, 1.0"), "m.toml");
   const TrainingSamples samples = parse_training_samples("t,p\n6,0\n14,1\n10,0.5\n", "train.csv", spec);
   const TrainingDomain domain(spec, samples);
   CHECK(domain.range(0).min == 6.0);  // the reported training range is unchanged
@@ -111,7 +111,7 @@ TEST_CASE("predict maps a spline model pixel by pixel and flags the pixels beyon
   test::write_text(dir.file("train.csv"), "t,p\n6,0\n14,1.5\n10,0.5\n8,1\n");
   test::write_text(dir.file("m.toml"),
                    "habcast_model = 1\n[model]\nfamily = \"poisson\"\n[training]\nsamples = \"train.csv\"\n"
-                   "[covariates.t]\ncenter = 10.0\nscale = 2.0\nraster = \"t.tif\"\n" + kNs +
+                   "[covariates.t]\ncenter = 10.0\nscale = 2.0\nraster = \"t.tif\"\n" + kSplineNs +
                    "\n[covariates.p]\nraster = \"p.tif\"\n[coefficients]\n"
                    "terms = [\"(Intercept)\", \"ns(t)[1]\", \"ns(t)[2]\", \"ns(t)[3]\", \"ns(t)[2]:p\"]\n"
                    "estimates = [0.2, 0.5, -0.4, 0.3, 0.25]\n");

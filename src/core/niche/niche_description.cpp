@@ -10,7 +10,7 @@ namespace habcast {
 
 namespace {
 
-bool contains(const std::vector<int>& v, int x) { return std::find(v.begin(), v.end(), x) != v.end(); }
+bool in_list(const std::vector<int>& v, int x) { return std::find(v.begin(), v.end(), x) != v.end(); }
 
 std::string continuous_names(const ModelSpec& spec) {
   std::string s;
@@ -86,7 +86,7 @@ std::pair<int, int> choose_pair(const ModelSpec& spec, const TermPlan& plan, con
       throw UsageError("--pair " + a + "," + b + ": \"" + cov.name + "\" is " +
                        (cov.categorical ? "categorical" : "not used by any term") +
                        "; choose two continuous covariates of the model (" + continuous_names(spec) + ")");
-    if (contains(held, c))
+    if (in_list(held, c))
       throw UsageError("--pair " + a + "," + b + ": \"" + cov.name + "\" is held fixed by --at; drop one of the two");
   }
   if (idx[0] == idx[1]) throw UsageError("--pair needs two different covariates, got " + a + "," + b);
@@ -135,7 +135,7 @@ NicheDescription describe_niche(const ModelSpec& spec, const TermPlan& plan, con
 
   for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
     const int ci = static_cast<int>(c);
-    if (spec.covariates[c].categorical || !plan.uses_covariate(ci) || contains(focus, ci) || contains(d.held, ci))
+    if (spec.covariates[c].categorical || !plan.uses_covariate(ci) || in_list(focus, ci) || in_list(d.held, ci))
       continue;
     if (enters_through_function(plan, ci)) {
       d.through_function.push_back(ci);

@@ -15,7 +15,7 @@ namespace {
 
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
-bool contains(const std::vector<int>& v, int x) { return std::find(v.begin(), v.end(), x) != v.end(); }
+bool held_here(const std::vector<int>& v, int x) { return std::find(v.begin(), v.end(), x) != v.end(); }
 
 /// Rows of model values: the reference in every column, then `fill_row` sets what varies.
 ModelValues reference_rows(const ReferencePoint& reference, Eigen::Index rows) {
@@ -100,7 +100,7 @@ std::vector<ResponseCurve> response_curves(const ModelSpec& spec, const TermPlan
   std::vector<ResponseCurve> curves;
   for (std::size_t ci = 0; ci < spec.covariates.size(); ++ci) {
     const int c = static_cast<int>(ci);
-    if (!plan.uses_covariate(c) || contains(held, c)) continue;
+    if (!plan.uses_covariate(c) || held_here(held, c)) continue;
     const Covariate& cov = spec.covariates[ci];
     ResponseCurve curve;
     curve.covariate = c;
@@ -176,7 +176,7 @@ std::optional<NumericalOptimum> numerical_optimum(const ModelSpec& spec, const T
   NumericalOptimum opt;
   for (std::size_t ci = 0; ci < spec.covariates.size(); ++ci) {
     const int c = static_cast<int>(ci);
-    if (!spec.covariates[ci].categorical && plan.uses_covariate(c) && !contains(held, c)) opt.covariates.push_back(c);
+    if (!spec.covariates[ci].categorical && plan.uses_covariate(c) && !held_here(held, c)) opt.covariates.push_back(c);
   }
   if (opt.covariates.empty()) {
     why = "no continuous covariate is left to vary";
