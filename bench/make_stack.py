@@ -182,18 +182,70 @@ def write_model(path):
     path.write_text("\n".join(lines) + "\n")
 
 
+def quantile7(sorted_values, p):
+    """R's quantile(x, p, type = 7), the rule splines::ns uses for its knots."""
+    h = (len(sorted_values) - 1) * p
+    lo = int(np.floor(h))
+    hi = int(np.ceil(h))
+    return sorted_values[lo] if hi == lo else (1 - (h - lo)) * sorted_values[lo] + (h - lo) * sorted_values[hi]
+
+
+def write_spline_model(path, training_path):
+    """The quadratic model's tmin and precip replaced by natural splines with 4 columns each (R's
+    ns(x, df = 4): boundary knots at the training range, interior knots at its quartiles, in model
+    units) and all 16 products of their columns; slope, soil_ph and landcover as before."""
+    rows = [line.split(",") for line in training_path.read_text().splitlines()[2:]]
+    header = training_path.read_text().splitlines()[1].split(",")
+    rng = np.random.default_rng(SEED + 3)
+    lines = ["# Invented benchmark model with spline terms (written by bench/make_stack.py); not for any real decision.",
+             "habcast_model = 1", "", "[model]", 'name = "benchmark niche with natural splines (invented)"',
+             'response = "presence"', 'family = "binomial"', 'link = "logit"', "",
+             "[training]", 'samples = "training.csv"', ""]
+    for name, (units, *_rest) in CONTINUOUS.items():
+        center, scale = STANDARD[name]
+        lines += [f"[covariates.{name}]", f'units = "{units}"', f"center = {center!r}", f"scale = {scale!r}",
+                  f'raster = "{name}.tif"']
+        if name in ("tmin", "precip"):
+            col = header.index(name)
+            v = sorted((float(r[col]) - center) / scale for r in rows)
+            knots = [quantile7(v, p) for p in (0.25, 0.5, 0.75)]
+            lines.append(f"ns = {{ knots = [ {', '.join(repr(k) for k in knots)} ], boundary = [ {v[0]!r}, {v[-1]!r} ] }}")
+        lines.append("")
+    levels = ", ".join(f'{{ code = {c}, name = "{n}" }}' for c, n in LANDCOVER_NAMES.items())
+    terms = (["(Intercept)"] + [f"ns(tmin)[{i}]" for i in range(1, 5)] + [f"ns(precip)[{j}]" for j in range(1, 5)]
+             + [f"ns(tmin)[{i}]:ns(precip)[{j}]" for i in range(1, 5) for j in range(1, 5)]
+             + ["slope", "slope^2", "soil_ph", "soil_ph^2", "landcover[bog]", "landcover[woodland]", "landcover[grassland]"])
+    estimates = [float(x) for x in rng.normal(0.0, 0.6, size=len(terms))]
+    a = rng.normal(0.0, 1.0, size=(len(terms), len(terms)))
+    cov = (a @ a.T) / len(terms) * 0.004 + np.eye(len(terms)) * 0.001
+    lines += ["[covariates.landcover]", 'type = "categorical"', f"levels = [ {levels} ]", 'reference = "heath"',
+              'raster = "landcover.tif"', "", "[coefficients]",
+              "terms = [ " + ", ".join(f'"{t}"' for t in terms) + " ]",
+              "estimates = [ " + ", ".join(repr(e) for e in estimates) + " ]", "covariance = ["]
+    for row in cov:
+        lines.append("  [ " + ", ".join(repr(float(v)) for v in row) + " ],")
+    lines.append("]")
+    path.write_text("\n".join(lines) + "\n")
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--mpix", type=float, default=25.0, help="pixels per covariate, in millions")
     parser.add_argument("--out", default=str(Path(__file__).resolve().parent / "data"))
+    parser.add_argument("--spline-model-only", action="store_true",
+                        help="only (re)write model-splines.toml of an existing stack")
     args = parser.parse_args()
     side = side_for(args.mpix)
     out_dir = Path(args.out) / f"stack-{args.mpix:g}"
+    if args.spline_model_only:
+        write_spline_model(out_dir / "model-splines.toml", out_dir / "training.csv")
+        return
     out_dir.mkdir(parents=True, exist_ok=True)
     gdal.SetCacheMax(256 << 20)
     samples = write_stack(out_dir, side)
     write_training(out_dir / "training.csv", samples)
     write_model(out_dir / "model.toml")
+    write_spline_model(out_dir / "model-splines.toml", out_dir / "training.csv")
     print(f"{out_dir}: {side} x {side} pixels ({side * side / 1e6:.1f} Mpix)")
 
 

@@ -56,7 +56,31 @@ def ensure_stack(size):
     stack = BENCH / "data" / f"stack-{size:g}"
     if not (stack / "model.toml").exists():
         sh(["/usr/bin/python3", str(BENCH / "make_stack.py"), "--mpix", f"{size:g}"])
+    if not (stack / "model-splines.toml").exists():  # stacks made before the spline row
+        sh(["/usr/bin/python3", str(BENCH / "make_stack.py"), "--mpix", f"{size:g}", "--spline-model-only"])
     return stack
+
+
+def spline_ratio(habcast, stack, args):
+    """predict with two ns(df = 4) terms and their 16 products (model-splines.toml) against the
+    quadratic model on the same stack: median wall times, alternating, and their ratio."""
+    out_root = Path(args.work) / stack.name
+    walls = {"model.toml": [], "model-splines.toml": []}
+    cpus = {"model.toml": [], "model-splines.toml": []}
+    for rnd in range(args.warmup + args.reps):
+        for name in (list(walls) if rnd % 2 == 0 else list(walls)[::-1]):
+            out = out_root / ("spline-row-" + name.split(".")[0])
+            m = measure([str(habcast), "predict", str(stack / name), "-o", str(out), "--overwrite", "-q",
+                         "--checks", "range"], out)
+            if rnd >= args.warmup:
+                walls[name].append(m["wall_s"])
+                cpus[name].append(m["cpu_s"])
+            print(f"  {stack.name} round {rnd + 1} {name:20s} {m['wall_s']:7.2f} s  cpu {m['cpu_s']:7.2f} s", flush=True)
+    quadratic = statistics.median(walls["model.toml"])
+    splines = statistics.median(walls["model-splines.toml"])
+    cpu_ratio = statistics.median(cpus["model-splines.toml"]) / statistics.median(cpus["model.toml"])
+    return {"stack": stack.name, "quadratic_wall_s": quadratic, "splines_wall_s": splines,
+            "splines_over_quadratic": splines / quadratic, "splines_over_quadratic_cpu": cpu_ratio}
 
 
 def measure(cmd, out_dir):
@@ -323,6 +347,11 @@ def print_table(results):
         t = results["threads"]
         print(f"threads ({t['stack']}): 1 -> {t['wall_1_thread_s']:.2f} s, 2 -> {t['wall_2_threads_s']:.2f} s, "
               f"speed-up {t['speedup']:.2f}, pixels identical {t['bit_identical']}, files identical {t.get('files_identical')}")
+    if "splines" in results:
+        s = results["splines"]
+        print(f"splines ({s['stack']}): quadratic {s['quadratic_wall_s']:.2f} s, two ns(df=4) + products "
+              f"{s['splines_wall_s']:.2f} s, ratio {s['splines_over_quadratic']:.2f} (target <= 1.25), "
+              f"cpu ratio {s['splines_over_quadratic_cpu']:.2f}")
     if "rss_growth" in results:
         print(f"habcast peak RSS, largest vs smallest stack: {results['rss_growth']:.3f}x")
     print(f"load average before/after: {results['load_before']} / {results['load_after']}")
@@ -337,6 +366,8 @@ def main():
     parser.add_argument("--no-build", action="store_true", help="use the binaries already in --build-dir")
     parser.add_argument("--work", default=str(BENCH / "data" / "runs"), help="where outputs go (same disk as data)")
     parser.add_argument("--no-threads", action="store_true", help="skip the 1 vs 2 threads comparison")
+    parser.add_argument("--splines-only", action="store_true",
+                        help="only the spline row (model-splines.toml vs model.toml); needs no floor binary")
     parser.add_argument("--domain-option", default="--checks range,hull,pairs,nt2,mess",
                         help="predict option for the training-domain row, run only if predict --help shows it")
     args = parser.parse_args()
@@ -352,8 +383,16 @@ def main():
                                             text=True).stdout.strip(),
                "gdal": gdal.__version__, "cpus": os.cpu_count(), "reps": args.reps, "warmup": args.warmup,
                "load_before": [round(x, 2) for x in os.getloadavg()], "stacks": {}}
+    if args.splines_only:
+        results["splines"] = spline_ratio(habcast, stacks[0], args)
+        s = results["splines"]
+        print(f"splines ({s['stack']}): quadratic {s['quadratic_wall_s']:.2f} s, two ns(df=4) + products "
+              f"{s['splines_wall_s']:.2f} s, ratio {s['splines_over_quadratic']:.2f} (target <= 1.25), "
+              f"cpu ratio {s['splines_over_quadratic_cpu']:.2f}")
+        return 0
     for stack in stacks:
         results["stacks"][stack.name] = race(habcast, floor, stack, args)
+    results["splines"] = spline_ratio(habcast, stacks[0], args)
     if not args.no_threads:
         results["threads"] = {"stack": stacks[0].name, **thread_scaling(habcast, stacks[0], args)}
     if len(stacks) > 1:

@@ -58,6 +58,9 @@ def _arr(items):
 
 
 def _part_label(part, factors):
+    m = re.fullmatch(r"bs\((%s)(?:,[^)]*)?\)\[([0-9]+)\]" % _NAME, part)
+    if m:  # patsy's bs(): column k (0-based) -> habcast's bs(x)[k + 1]
+        return "bs(%s)[%d]" % (m.group(1), int(m.group(2)) + 1), m.group(1)
     m = re.fullmatch(r"(?:C\((%s)(?:,[^)]*)?\)|(%s))\[T\.(.+)\]" % (_NAME, _NAME), part)
     if m:
         var = m.group(1) or m.group(2)

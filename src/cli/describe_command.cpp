@@ -1,8 +1,10 @@
 // `habcast describe`: options -> DescribeSettings -> describe_niche -> text or JSON, and the plot.
+#include <cctype>
 #include <memory>
 #include <ostream>
 
 #include "cli/commands.hpp"
+#include "cli/describe_curves.hpp"
 #include "cli/describe_model_set.hpp"
 #include "cli/describe_report.hpp"
 #include "core/base/error.hpp"
@@ -13,6 +15,7 @@
 #include "pipeline/atomic_file.hpp"
 #include "render/figure_file.hpp"
 #include "render/niche_plot.hpp"
+#include "render/response_curves_figure.hpp"
 
 namespace habcast::cli {
 
@@ -36,7 +39,11 @@ constexpr const char* kDescribeHelp =
     "Examples:\n"
     "  habcast describe sample-rasters/demo-model.toml\n"
     "  habcast describe model.toml --pair tmin,precip --plot niche.pdf\n"
-    "  habcast describe model.toml --at slope=10 --level landcover=bog --fraction 0.25 --json";
+    "  habcast describe model.toml --at slope=10 --level landcover=bog --fraction 0.25 --json\n"
+    "  habcast describe model.toml --curves curves.pdf --curves curves.json\n\n"
+    "Models with spline terms, term functions or powers above 2: describe finds the optimum\n"
+    "numerically inside the training hull (compass search, stated in the output) and runs the\n"
+    "canonical analysis only on the second-order part, saying so.";
 
 struct DescribeArgs {
   std::string model_path;
@@ -49,7 +56,16 @@ struct DescribeArgs {
   bool json = false;
   std::string plot_svg;
   std::string plot_png;
+  std::vector<std::string> curves;  ///< --curves FILE: .json, or a picture (.svg, .png, .pdf)
 };
+
+/// --curves FILE.json (any case) writes JSON; other extensions name a picture format.
+bool is_json_path(const std::string& path) {
+  if (path.size() <= 5) return false;
+  std::string ext = path.substr(path.size() - 5);
+  for (char& ch : ext) ch = static_cast<char>(std::tolower(static_cast<unsigned char>(ch)));
+  return ext == ".json";
+}
 
 std::pair<std::string, std::string> split_assignment(const std::string& option, const std::string& item, const char* example) {
   const auto eq = item.find('=');
@@ -81,6 +97,11 @@ void translate(DescribeArgs& args) {
   if (!args.plot_svg.empty()) figure_format(args.plot_svg);
   if (!args.plot_png.empty() && figure_format(args.plot_png) != FigureFormat::png)
     throw UsageError("--plot-png " + args.plot_png + ": the name must end in .png (or use --plot, which takes .svg, .png or .pdf)");
+  for (const std::string& path : args.curves) {
+    const bool json = is_json_path(path);
+    if (!json) figure_format(path);  // refuses an unknown extension, naming the choices
+    args.settings.curves = true;
+  }
   if (!args.pair.empty()) {
     const auto comma = args.pair.find(',');
     if (comma == std::string::npos || comma == 0 || comma + 1 == args.pair.size())
@@ -101,6 +122,17 @@ void write_plots(const DescribeArgs& args, const ModelSpec& spec, const NicheDes
   }
 }
 
+/// --curves: the response curves as JSON or as a picture, by each file's extension.
+void write_curves(const DescribeArgs& args, const ModelSpec& spec, const NicheDescription& d, std::ostream& err) {
+  for (const std::string& path : args.curves) {
+    if (is_json_path(path))
+      write_file_atomically(path, cli::curves_json(spec, d, args.settings).dump(2) + "\n");
+    else
+      write_file_atomically(path, encode_figure(response_curves_figure(spec, d, args.settings.canonical.confidence), path));
+    err << "habcast: wrote " << path << "\n";
+  }
+}
+
 int run_describe(DescribeArgs& args, std::ostream& out, std::ostream& err) {
   translate(args);
   args.model_path = args.models.front();
@@ -117,6 +149,7 @@ int run_describe(DescribeArgs& args, std::ostream& out, std::ostream& err) {
   const NicheDescription d = describe_niche(spec, plan, samples ? &*samples : nullptr, args.settings);
   const std::vector<std::string> warnings = describe_warnings(spec, d, args.settings);
   write_plots(args, spec, d, err);
+  write_curves(args, spec, d, err);
   if (args.json) out << describe_json(spec, d, args.settings, warnings).dump(2) << "\n";
   else out << describe_text(spec, d, args.settings, warnings);
   return 0;
@@ -149,6 +182,15 @@ void register_describe(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--plot", args->plot_svg,
                   "FILE.pdf, FILE.svg or FILE.png (format by extension): draw the pair: response bands and\n"
                   "contours, training sites and hull, optimum, axes (docs/figures.md)");
+  cmd->add_option("--curves", args->curves,
+                  "FILE: response curves, one panel per covariate with the others held as above: the\n"
+                  "predicted response, its confidence band, training values as a rug, the training range\n"
+                  "shaded; categorical covariates as a point per level. FILE.json for pipelines, or a\n"
+                  "picture: .svg, .png or .pdf (repeatable)");
+  cmd->add_option("--curve-points", args->settings.curve_options.points,
+                  "Grid points of each continuous curve (it spans the training range and 15 % beyond each end)")
+      ->default_val(101)
+      ->check(CLI::Range(2, 100000));
   cmd->add_option("--plot-png", args->plot_png, "FILE.png: the same picture as a PNG as well (300 dpi)");
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_describe(*args, out, err); });
 }

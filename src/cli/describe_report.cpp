@@ -2,6 +2,7 @@
 
 #include <cmath>
 
+#include "cli/describe_curves.hpp"
 #include "cli/describe_values.hpp"
 #include "core/model/link.hpp"
 #include "core/model/model_values.hpp"
@@ -216,7 +217,7 @@ ordered_json reference_json(const ModelSpec& spec, const NicheDescription& d) {
 std::vector<std::string> describe_warnings(const ModelSpec& spec, const NicheDescription& d, const DescribeSettings& settings) {
   (void)settings;
   std::vector<std::string> out;
-  if (!d.form)
+  if (!d.form && !d.beyond_second_order)
     out.push_back("No continuous covariate has a squared or product term, so the fitted response is monotone in each: "
                   "there is no optimum to describe.");
   shape_warnings(spec, d, out);
@@ -226,6 +227,7 @@ std::vector<std::string> describe_warnings(const ModelSpec& spec, const NicheDes
     out.push_back("The optimum lies inside the training range of each covariate but outside the training hull of " +
                   covariate_name(spec, d.pair->first) + " and " + covariate_name(spec, d.pair->second) +
                   ": no survey site had that combination, so it is an extrapolation.");
+  beyond_second_order_warnings(spec, d, out);
   if (!d.has_samples)
     out.push_back("The model file names no training samples: covariates are held at the model's centre, and the "
                   "optimum cannot be checked against the training data.");
@@ -270,6 +272,7 @@ nlohmann::ordered_json describe_json(const ModelSpec& spec, const NicheDescripti
     j["training_support"] = nullptr;
   }
   j["pair"] = d.pair ? pair_json(spec, *d.pair) : ordered_json();
+  add_beyond_second_order_json(spec, d, j);
   j["warnings"] = warnings;
   return j;
 }

@@ -5,6 +5,7 @@
 #include <cstdio>
 #include <sstream>
 
+#include "cli/describe_curves.hpp"
 #include "cli/describe_report.hpp"
 #include "cli/describe_values.hpp"
 #include "core/model/link.hpp"
@@ -223,7 +224,7 @@ void linear(std::ostream& o, const ModelSpec& spec, const NicheDescription& d) {
       << "; the response " << (e.gradient < 0 ? "falls" : "rises") << " as " << c.name << " increases, everywhere\n";
   }
   for (int ci : d.through_function)
-    o << "  " << pad(covariate_name(spec, ci), 14) << "enters through a term function; not analysed\n";
+    o << "  " << pad(covariate_name(spec, ci), 14) << "enters through a spline or term function; see below and --curves\n";
   o << "\n";
 }
 
@@ -245,6 +246,7 @@ std::string describe_text(const ModelSpec& spec, const NicheDescription& d, cons
   }
   if (d.pair) pair_section(o, spec, d);
   linear(o, spec, d);
+  o << beyond_second_order_text(spec, d);
   if (!warnings.empty()) {
     o << "Warnings\n";
     for (const std::string& w : warnings) o << "  ! " << w << "\n";

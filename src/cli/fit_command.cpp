@@ -34,7 +34,9 @@ constexpr const char* kFitHelp =
     "points are named: predict gives their pixels no prediction.\n\n"
     "Formula: terms joined by '+', in the usual notation: x, x^2, a:b, log(x), I(x^2); a categorical\n"
     "covariate (--categorical) adds one indicator per class other than its reference class; \"- 1\"\n"
-    "drops the intercept. \"presence ~ ...\" names the response column.\n\n"
+    "drops the intercept. \"presence ~ ...\" names the response column. Splines: ns(x, df = 4) and\n"
+    "bs(x, df = 5, degree = 2) put their knots where R's ns()/bs() would (quantiles of the points'\n"
+    "values); give them with knots = [..] and boundary = [lo, hi] in raw units.\n\n"
     "Examples:\n"
     "  habcast fit sample-rasters/training.csv --crs EPSG:32630 \\\n"
     "      -c tmin=sample-rasters/tmin.tif -c precip=sample-rasters/precip.tif \\\n"
@@ -42,7 +44,9 @@ constexpr const char* kFitHelp =
     "      --formula \"presence ~ tmin + tmin^2 + precip + precip^2 + tmin:precip + slope + landcover\" \\\n"
     "      -o out/moth.toml\n"
     "  habcast fit counts.gpkg --layer plots --family poisson --offset \"log(effort)\" --prediction-offset 0 \\\n"
-    "      -c tmin=tmin.tif --formula \"count ~ tmin + tmin^2\" -o counts.toml\n\n"
+    "      -c tmin=tmin.tif --formula \"count ~ tmin + tmin^2\" -o counts.toml\n"
+    "  habcast fit sites.csv -c tmin=tmin.tif -c precip=precip.tif -o smooth.toml \\\n"
+    "      --formula \"presence ~ ns(tmin, df = 4) + ns(tmin, df = 4):precip + precip\"\n\n"
     "Exit codes: 0 ok, 2 usage, 3 bad input (points, rasters, a model that cannot be fitted, class codes\n"
     "not declared categorical, projected coordinates read as longitude/latitude), 4 I/O.";
 

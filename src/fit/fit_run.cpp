@@ -16,6 +16,7 @@
 #include "core/model/design_matrix.hpp"
 #include "core/model/formula.hpp"
 #include "core/model/model_file.hpp"
+#include "core/model/model_values.hpp"
 #include "core/model/model_writer.hpp"
 #include "pipeline/atomic_file.hpp"
 #include "pipeline/output_guard.hpp"
@@ -435,7 +436,17 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
       throw InputError(options.points.path + ": " + e.what());
     }
   }
-  if (std::count(use.begin(), use.end(), 1) > 0) spec.terms = parse_formula(options.formula, spec).terms;
+  if (std::count(use.begin(), use.end(), 1) > 0) {
+    // Spline factors (ns(x, df = 4), ...) get their knots from the model values of the rows in use.
+    declare_formula_splines(options.formula, spec, [&](int column) {
+      std::vector<double> values;
+      const Covariate& cov = spec.covariates[static_cast<std::size_t>(column)];
+      for (std::size_t i = 0; i < n; ++i)
+        if (use[i]) values.push_back(model_value(cov, sampled.raw(static_cast<Eigen::Index>(i), column)));
+      return values;
+    });
+    spec.terms = parse_formula(options.formula, spec).terms;
+  }
 
   Design design;
   if (!spec.terms.empty()) {

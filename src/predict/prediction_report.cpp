@@ -95,14 +95,15 @@ void range_warnings(const ReportContext& ctx, std::vector<std::string>& out) {
   const DomainTally& d = ctx.tally->domain;
   for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
     const Covariate& cov = spec.covariates[c];
-    const CovariateRange& r = ctx.domain->range(c);
     if (!cov.categorical && (d.below[c] > 0 || d.above[c] > 0)) {
       std::string sides;
+      const auto [lo, hi] = ctx.domain->flag_range(c);  // the training range, or a spline's knots inside it
       if (d.below[c] > 0)
-        sides += format_percent(share(d.below[c], d.checked)) + " below " + with_units(r.min, cov.units);
+        sides += format_percent(share(d.below[c], d.checked)) + " below " + with_units(lo, cov.units);
       if (d.above[c] > 0)
         sides += std::string(sides.empty() ? "" : ", ") + format_percent(share(d.above[c], d.checked)) + " above " +
-                 with_units(r.max, cov.units);
+                 with_units(hi, cov.units);
+      const bool spline = cov.natural_spline || cov.bspline;
       if (ctx.domain->offset_only(c))
         out.push_back(format_percent(share(d.below[c] + d.above[c], d.checked)) +
                       " of valid pixels lie outside the training range of " + cov.name + " (" + sides + "). " +
@@ -111,8 +112,12 @@ void range_warnings(const ReportContext& ctx, std::vector<std::string>& out) {
                       "model was fitted with.");
       else
         out.push_back(format_percent(share(d.below[c] + d.above[c], d.checked)) +
-                      " of valid pixels lie outside the training range of " + cov.name + " (" + sides +
-                      "); predictions there extrapolate the fitted curve and may be badly wrong.");
+                      " of valid pixels lie outside the training range of " + cov.name +
+                      (spline ? " or beyond its spline's boundary knots" : "") + " (" + sides +
+                      "); predictions there extrapolate the fitted curve and may be badly wrong." +
+                      (spline ? " Beyond the boundary knots the spline is its own extension (ns: a straight line; "
+                                "bs: its last polynomial piece), shaped by no data: extrapolation by construction."
+                              : ""));
     }
     if (cov.categorical && d.unseen[c] > 0) {
       std::string codes;

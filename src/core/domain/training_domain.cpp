@@ -6,6 +6,7 @@
 
 #include "core/base/error.hpp"
 #include "core/domain/extrapolation_flags.hpp"
+#include "core/model/model_values.hpp"
 #include "core/model/term_plan.hpp"
 
 namespace habcast {
@@ -56,6 +57,15 @@ TrainingDomain::TrainingDomain(const ModelSpec& spec, const TrainingSamples& sam
       throw InputError(located(samples.path, 0, "no sample records covariate \"" + spec.covariates[c].name +
                                                     "\"; its training range is unknown"));
     ranges_[c] = r;
+    // Beyond a spline's boundary knots the basis is its own extension (linear for ns, the last
+    // piece's polynomial for bs), shaped by no data: those values are flagged as outside the range
+    // too, whichever of the training range and the boundary knots is narrower.
+    flag_limits_.emplace_back(r.min, r.max);
+    for (const auto* d : {&spec.covariates[c].natural_spline, &spec.covariates[c].bspline})
+      if (*d) {
+        flag_limits_.back().first = std::max(flag_limits_.back().first, raw_value(spec.covariates[c], (*d)->lower));
+        flag_limits_.back().second = std::min(flag_limits_.back().second, raw_value(spec.covariates[c], (*d)->upper));
+      }
     std::sort(seen_[c].begin(), seen_[c].end());
     seen_[c].erase(std::unique(seen_[c].begin(), seen_[c].end()), seen_[c].end());
   }
@@ -91,8 +101,8 @@ void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const s
         }
       }
     } else {
-      const double lo = ranges_[c].min;
-      const double hi = ranges_[c].max;
+      const double lo = flag_limits_[c].first;
+      const double hi = flag_limits_[c].second;
       const std::uint8_t bit = offset_only_[c] ? std::uint8_t{0} : flag::outside_range;
       for (Eigen::Index r = 0; r < rows; ++r) {
         if (!valid[r]) continue;

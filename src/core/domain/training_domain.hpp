@@ -5,6 +5,7 @@
 #include <Eigen/Core>
 #include <cstdint>
 #include <map>
+#include <utility>
 #include <vector>
 
 #include "core/domain/training_samples.hpp"
@@ -42,6 +43,9 @@ class TrainingDomain {
   TrainingDomain(const ModelSpec& spec, const TrainingSamples& samples);
 
   [[nodiscard]] const CovariateRange& range(std::size_t covariate) const { return ranges_[covariate]; }
+  /// The limits beyond which a value is flagged outside_range: the training range, narrowed to
+  /// the boundary knots of any spline basis the covariate enters through (raw units).
+  [[nodiscard]] const std::pair<double, double>& flag_range(std::size_t covariate) const { return flag_limits_[covariate]; }
   /// Level codes seen in training for categorical covariate `covariate`, sorted.
   [[nodiscard]] const std::vector<std::int64_t>& levels_seen(std::size_t covariate) const { return seen_[covariate]; }
   [[nodiscard]] std::int64_t sample_count() const { return samples_; }
@@ -61,6 +65,9 @@ class TrainingDomain {
  private:
   const ModelSpec& spec_;
   std::vector<CovariateRange> ranges_;
+  /// Per covariate: the values flagged outside_range lie beyond these (the training range,
+  /// narrowed to any spline's boundary knots).
+  std::vector<std::pair<double, double>> flag_limits_;
   std::vector<std::vector<std::int64_t>> seen_;
   std::vector<bool> offset_only_;
   std::int64_t samples_ = 0;

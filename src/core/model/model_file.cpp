@@ -179,6 +179,46 @@ Transform parse_transform(TomlTableReader& s, const std::string& covariate) {
   s.fail(*n, "unknown transform \"" + t + "\" for \"" + covariate + "\"; use none, log, log1p or sqrt");
 }
 
+/// `ns = { knots = [...], boundary = [LOWER, UPPER] }` or `bs = { ..., degree = 3 }` of a
+/// continuous covariate: the spline basis its ns(NAME)[k] or bs(NAME)[k] terms use (model units).
+std::optional<SplineDefinition> read_spline(TomlTableReader& s, const std::string& covariate, SplineKind kind,
+                                            const ModelSpec& spec) {
+  const char* key = to_string(kind);
+  const toml::node* node = s.get(key);
+  if (!node) return std::nullopt;
+  const std::string where = "[covariates." + covariate + "] " + key;
+  if (!node->is_table())
+    s.fail(*node, where + " must be a table such as { knots = [-0.5, 0.4], boundary = [-1.9, 2.2] }");
+  TomlTableReader t(*node->as_table(), where + ".", "in " + where, spec.path);
+  SplineDefinition d;
+  d.kind = kind;
+  if (const toml::array* knots = t.array("knots")) {
+    for (const toml::node& k : *knots) d.knots.push_back(t.finite_number(k, where + " knot"));
+  } else if (t.get("knots")) {
+    s.fail(*node, where + ".knots must be an array of numbers (empty for no interior knots)");
+  } else {
+    s.fail(*node, where + " needs knots = [...] (the interior knots in model units; [] for none)");
+  }
+  const toml::array* boundary = t.array("boundary");
+  if (!boundary || boundary->size() != 2)
+    s.fail(*node, where + " needs boundary = [LOWER, UPPER], the boundary knots in model units");
+  d.lower = t.finite_number((*boundary)[0], where + " lower boundary knot");
+  d.upper = t.finite_number((*boundary)[1], where + " upper boundary knot");
+  d.intercept = t.boolean("intercept").value_or(false);
+  if (kind == SplineKind::bspline) {
+    if (auto degree = t.integer("degree")) {
+      if (*degree < 1 || *degree > SplineDefinition::kMaxDegree)
+        s.fail(*node, where + ".degree must be a whole number from 1 to " + std::to_string(SplineDefinition::kMaxDegree));
+      d.degree = static_cast<int>(*degree);
+    }
+    t.reject_unknown("knots, boundary, degree, intercept");
+  } else {
+    t.reject_unknown("knots, boundary, intercept");
+  }
+  if (const std::string why = d.problem(); !why.empty()) s.fail(*node, where + ": " + why);
+  return d;
+}
+
 Covariate read_covariate(const std::string& name, const toml::node& node, const ModelSpec& spec) {
   if (!node.is_table())
     throw InputError(located(spec.path, toml_line(node), "covariates." + name + " must be a table [covariates." + name + "]"));
@@ -201,7 +241,7 @@ Covariate read_covariate(const std::string& name, const toml::node& node, const 
     c.band = static_cast<int>(*band);
   }
   if (c.categorical) {
-    for (const char* key : {"transform", "center", "scale"})
+    for (const char* key : {"transform", "center", "scale", "ns", "bs"})
       if (const toml::node* n = s.get(key))
         s.fail(*n, std::string(key) + " applies to continuous covariates only; \"" + name + "\" is categorical");
     read_levels(s, c);
@@ -214,7 +254,9 @@ Covariate read_covariate(const std::string& name, const toml::node& node, const 
     c.center = s.number("center").value_or(0.0);
     c.scale = s.number("scale").value_or(1.0);
     if (c.scale <= 0.0) s.fail(*s.get("scale"), "scale of \"" + name + "\" must be positive (it divides the centred value)");
-    s.reject_unknown("type, units, description, raster, band, transform, center, scale");
+    c.natural_spline = read_spline(s, name, SplineKind::natural, spec);
+    c.bspline = read_spline(s, name, SplineKind::bspline, spec);
+    s.reject_unknown("type, units, description, raster, band, transform, center, scale, ns, bs");
   }
   return c;
 }

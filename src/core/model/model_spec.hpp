@@ -7,6 +7,8 @@
 #include <string>
 #include <vector>
 
+#include "core/model/spline_basis.hpp"
+
 namespace habcast {
 
 enum class Family { binomial, poisson, gaussian };
@@ -35,6 +37,9 @@ struct Covariate {
   // Categorical covariates: levels known to the model, and the one absorbed by the intercept.
   std::vector<Level> levels;
   std::string reference_level;
+  // Continuous covariates: spline bases the terms ns(NAME)[k] and bs(NAME)[k] use (model units).
+  std::optional<SplineDefinition> natural_spline;
+  std::optional<SplineDefinition> bspline;
   // Optional default raster (already resolved relative to the model file) and band.
   std::optional<std::string> raster;
   int band = 1;

@@ -76,6 +76,17 @@ void write_model_table(std::ostringstream& os, const ModelSpec& spec) {
   if (spec.observations) os << "n = " << *spec.observations << "\n";
 }
 
+/// `ns = { knots = [...], boundary = [...] }` (bs: with its degree), model units.
+void write_spline(std::ostringstream& os, const std::optional<SplineDefinition>& d) {
+  if (!d) return;
+  os << to_string(d->kind) << " = { knots = " << array_of_numbers(d->knots.data(), d->knots.size());
+  const double boundary[2] = {d->lower, d->upper};
+  os << ", boundary = " << array_of_numbers(boundary, 2);
+  if (d->kind == SplineKind::bspline) os << ", degree = " << d->degree;
+  if (d->intercept) os << ", intercept = true";
+  os << " }\n";
+}
+
 void write_covariate(std::ostringstream& os, const Covariate& c, const std::string& model_path) {
   os << "\n[covariates." << c.name << "]\n";
   os << "type = " << (c.categorical ? "\"categorical\"" : "\"continuous\"") << "\n";
@@ -91,6 +102,8 @@ void write_covariate(std::ostringstream& os, const Covariate& c, const std::stri
     if (c.transform != Transform::none) os << "transform = " << toml_string(to_string(c.transform)) << "\n";
     os << "center = " << toml_number(c.center) << "\n";
     os << "scale = " << toml_number(c.scale) << "\n";
+    write_spline(os, c.natural_spline);
+    write_spline(os, c.bspline);
   }
   if (c.raster) os << "raster = " << toml_string(relative_to_model(*c.raster, model_path)) << "\n";
   if (c.band != 1) os << "band = " << c.band << "\n";

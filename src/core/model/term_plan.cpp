@@ -23,6 +23,7 @@ TermPlan::TermPlan(const ModelSpec& spec) : used_(spec.covariates.size(), false)
                                    " (\"" + spec.terms[it->second] +
                                    "\"); each term may appear once (factor order does not matter)"));
     for (const TermFactor& f : term.factors) used_[static_cast<std::size_t>(f.covariate)] = in_terms_[static_cast<std::size_t>(f.covariate)] = true;
+    add_splines(term, spec);
     terms_.push_back(std::move(term));
   }
   reject_reference_indicators(spec);
@@ -30,6 +31,11 @@ TermPlan::TermPlan(const ModelSpec& spec) : used_(spec.covariates.size(), false)
     if (spec.covariates[c].categorical) categorical_.push_back(static_cast<int>(c));
   if (spec.offset_term) {
     offset_ = parse_term(*spec.offset_term, spec, spec.path, spec.offset_line, "offset");
+    for (const TermFactor& f : offset_->factors)
+      if (is_spline(f.function))
+        throw InputError(located(spec.path, spec.offset_line, "the offset \"" + *spec.offset_term +
+                                                   "\" holds a spline column; an offset has no estimate, so a basis "
+                                                   "column there is almost surely a mistake. Make it a term"));
     for (const TermFactor& f : offset_->factors) used_[static_cast<std::size_t>(f.covariate)] = true;
   }
   for (int c : categorical_)
@@ -63,6 +69,19 @@ bool TermPlan::offset_only(int covariate) const {
   return uses_covariate(covariate) && !in_terms_[static_cast<std::size_t>(covariate)];
 }
 
+void TermPlan::add_splines(const Term& term, const ModelSpec& spec) {
+  for (const TermFactor& f : term.factors) {
+    if (!is_spline(f.function)) continue;
+    bool known = false;
+    for (const SplineUse& s : splines_) known = known || (s.covariate == f.covariate && s.function == f.function);
+    if (known) continue;
+    const Covariate& c = spec.covariates[static_cast<std::size_t>(f.covariate)];
+    // parse_term has checked that the basis is declared; the model reader, that it is valid.
+    const SplineDefinition& d = f.function == TermFunction::natural_spline ? *c.natural_spline : *c.bspline;
+    splines_.push_back({f.covariate, f.function, SplineBasis(d)});
+  }
+}
+
 bool TermPlan::uses_covariate(int covariate) const {
   return covariate >= 0 && static_cast<std::size_t>(covariate) < used_.size() &&
          used_[static_cast<std::size_t>(covariate)];
@@ -78,6 +97,8 @@ double apply_function(TermFunction fn, double v) {
     case TermFunction::log1p: return v > -1.0 ? std::log1p(v) : std::numeric_limits<double>::quiet_NaN();
     case TermFunction::sqrt: return v >= 0.0 ? std::sqrt(v) : std::numeric_limits<double>::quiet_NaN();
     case TermFunction::exp: return std::exp(v);
+    case TermFunction::natural_spline:
+    case TermFunction::bspline: break;  // filled from the basis, never through here
   }
   return v;
 }
@@ -91,12 +112,18 @@ double integer_power(double v, int power) {
 
 }  // namespace
 
-void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column) const {
+void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column,
+                         const std::vector<Eigen::MatrixXd>& spline_values) const {
   for (Eigen::Index r = 0; r < rows; ++r) column[r] = 1.0;
   if (term.intercept) return;
   for (const TermFactor& f : term.factors) {
     const double* v = values.col(f.covariate).data();
-    if (f.level >= 0) {
+    if (is_spline(f.function)) {
+      std::size_t s = 0;
+      while (splines_[s].covariate != f.covariate || splines_[s].function != f.function) ++s;
+      const double* b = spline_values[s].col(f.column).data();
+      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= b[r];
+    } else if (f.level >= 0) {
       const double level = static_cast<double>(f.level);
       for (Eigen::Index r = 0; r < rows; ++r) column[r] *= (v[r] == level ? 1.0 : 0.0);
     } else if (f.function == TermFunction::none) {
@@ -116,9 +143,13 @@ std::int64_t TermPlan::fill(const ModelValues& values, Eigen::Index rows, Eigen:
   // while it is still in cache, and without branches so the loop vectorises.
   std::vector<std::uint8_t> ok_rows(valid, valid + rows);  // the plan is shared by threads: no member scratch
   std::uint8_t* ok = ok_rows.data();
+  // Each spline basis once per block, shared by all its columns and interactions.
+  std::vector<Eigen::MatrixXd> spline_values(splines_.size());
+  for (std::size_t s = 0; s < splines_.size(); ++s)
+    splines_[s].basis.evaluate(values.col(splines_[s].covariate).data(), rows, spline_values[s]);
   for (Eigen::Index j = 0; j < p; ++j) {
     double* x = X.col(j).data();
-    fill_term(terms_[static_cast<std::size_t>(j)], values, rows, x);
+    fill_term(terms_[static_cast<std::size_t>(j)], values, rows, x, spline_values);
     for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(std::isfinite(x[r]));
   }
   for (int c : used_categorical_) {
@@ -144,7 +175,7 @@ void TermPlan::fill_offset(const ModelValues& values, Eigen::Index rows, Eigen::
     offset.head(rows).setZero();
     return;
   }
-  fill_term(*offset_, values, rows, offset.data());
+  fill_term(*offset_, values, rows, offset.data(), {});
   for (Eigen::Index r = 0; r < rows; ++r)
     if (!std::isfinite(offset[r])) {
       valid[r] = 0;

@@ -34,6 +34,14 @@ class TermPlan {
   /// holds them, and their range check is reported on its own (docs/extrapolation-flags.md).
   [[nodiscard]] bool offset_only(int covariate) const;
 
+  /// The spline bases the terms use, one per (covariate, ns or bs), built once from the spec.
+  struct SplineUse {
+    int covariate = -1;
+    TermFunction function = TermFunction::natural_spline;
+    SplineBasis basis;
+  };
+  [[nodiscard]] const std::vector<SplineUse>& splines() const { return splines_; }
+
   /// Fills X (rows x term_count) for the first `rows` rows of `values`. Sets valid[i] = 0 where a
   /// term is undefined or not finite (log of a non-positive value, ...) or a categorical value is
   /// an unknown level (-1) of a covariate that enters the model; rows already invalid are skipped
@@ -47,7 +55,11 @@ class TermPlan {
 
  private:
   void reject_reference_indicators(const ModelSpec& spec) const;
-  void fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column) const;
+  void fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column,
+                 const std::vector<Eigen::MatrixXd>& spline_values) const;
+  void add_splines(const Term& term, const ModelSpec& spec);
+
+  std::vector<SplineUse> splines_;
 
   std::vector<Term> terms_;
   std::optional<Term> offset_;

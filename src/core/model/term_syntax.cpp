@@ -16,6 +16,8 @@ const char* to_string(TermFunction function) {
     case TermFunction::log1p: return "log1p";
     case TermFunction::sqrt: return "sqrt";
     case TermFunction::exp: return "exp";
+    case TermFunction::natural_spline: return "ns";
+    case TermFunction::bspline: return "bs";
   }
   return "?";
 }
@@ -140,6 +142,33 @@ class TermParser {
     return f;
   }
 
+  /// "ns(x)[k]" / "bs(x)[k]": column k (1-based) of the spline basis declared on covariate x.
+  TermFactor spline_factor(TermFunction fn) {
+    const char* word = to_string(fn);
+    const std::string covariate_name = name();
+    TermFactor f = continuous_factor(covariate_name, fn);
+    expect(')', std::string("to close ") + word + "(...)");
+    const Covariate& c = spec_.covariates[static_cast<std::size_t>(f.covariate)];
+    const std::optional<SplineDefinition>& basis = fn == TermFunction::natural_spline ? c.natural_spline : c.bspline;
+    if (!basis)
+      fail(std::string(word) + "(" + covariate_name + ") needs the basis declared on the covariate: add " + word +
+           " = { knots = [...], boundary = [LOWER, UPPER] } to [covariates." + covariate_name + "]");
+    const std::string example = std::string(word) + "(" + covariate_name + ")[1]";
+    if (!accept('['))
+      fail("a spline term names one column of the basis, as in \"" + example + "\"");
+    const std::size_t start = pos_;
+    while (pos_ < s_.size() && std::isdigit(static_cast<unsigned char>(s_[pos_]))) ++pos_;
+    int column = 0;
+    const auto [ptr, ec] = std::from_chars(s_.data() + start, s_.data() + pos_, column);
+    (void)ptr;
+    if (start == pos_ || ec != std::errc() || column < 1 || column > basis->columns() || !accept(']'))
+      fail("the column of " + std::string(word) + "(" + covariate_name + ") must be a whole number from 1 to " +
+           std::to_string(basis->columns()) + " (its basis has " + std::to_string(basis->columns()) +
+           " columns), as in \"" + example + "\"");
+    f.column = column - 1;
+    return f;
+  }
+
   TermFactor factor() {
     TermFactor f;
     const std::string word = name();
@@ -149,6 +178,11 @@ class TermParser {
         f = continuous_factor(name(), TermFunction::none);
         if (accept('^')) f.power = power();
         expect(')', "to close I(...)");
+      } else if (word == "ns" || word == "bs") {
+        f = spline_factor(word == "ns" ? TermFunction::natural_spline : TermFunction::bspline);
+        if (pos_ < s_.size() && s_[pos_] == '^')
+          fail("a spline column carries no power; products of columns are written with ':'");
+        return f;
       } else {
         TermFunction fn;
         if (word == "log") fn = TermFunction::log;
@@ -156,7 +190,8 @@ class TermParser {
         else if (word == "sqrt") fn = TermFunction::sqrt;
         else if (word == "exp") fn = TermFunction::exp;
         else
-          fail("unknown function \"" + word + "\"; term functions are log, log1p, sqrt, exp and I(x^k)");
+          fail("unknown function \"" + word + "\"; term functions are log, log1p, sqrt, exp, I(x^k) and the spline "
+               "columns ns(x)[k], bs(x)[k]");
         f = continuous_factor(name(), fn);
         expect(')', "to close " + word + "(...)");
       }
@@ -178,12 +213,13 @@ class TermParser {
   void expect(char c, const std::string& context) { expect(c, context.c_str()); }
 
   void canonicalise(Term& term) const {
-    auto key = [](const TermFactor& f) { return std::tie(f.covariate, f.level, f.function); };
+    auto key = [](const TermFactor& f) { return std::tie(f.covariate, f.level, f.function, f.column); };
     std::sort(term.factors.begin(), term.factors.end(),
               [&](const TermFactor& a, const TermFactor& b) { return key(a) < key(b); });
     std::vector<TermFactor> merged;
     for (const TermFactor& f : term.factors) {
       if (!merged.empty() && key(merged.back()) == key(f)) {
+        if (is_spline(f.function)) fail("repeats a spline column; a term holds at most one column of each basis");
         if (f.level >= 0) fail("repeats the indicator of one level; it is already 0 or 1");
         merged.back().power += f.power;
         // The documented bound (term_syntax.hpp: up to 18, as in x^9:x^9). Without it "x:x:...:x"
@@ -196,6 +232,10 @@ class TermParser {
       }
     }
     for (std::size_t i = 1; i < merged.size(); ++i)
+      if (is_spline(merged[i].function) && merged[i - 1].function == merged[i].function &&
+          merged[i].covariate == merged[i - 1].covariate)
+        fail("multiplies two columns of one spline basis; a term holds at most one column of each basis");
+    for (std::size_t i = 1; i < merged.size(); ++i)
       if (merged[i].level >= 0 && merged[i - 1].level >= 0 && merged[i].covariate == merged[i - 1].covariate)
         fail("multiplies two levels of the same categorical covariate; the product is always 0");
     term.factors = std::move(merged);
@@ -205,6 +245,8 @@ class TermParser {
       std::string part;
       if (f.level >= 0) {
         part = c.name + "[" + c.levels[static_cast<std::size_t>(f.level)].name + "]";
+      } else if (is_spline(f.function)) {
+        part = std::string(to_string(f.function)) + "(" + c.name + ")[" + std::to_string(f.column + 1) + "]";
       } else {
         if (f.function == TermFunction::none) {
           part = c.name;

@@ -1,6 +1,7 @@
 #pragma once
 // The term syntax of the model file ("tmin", "tmin^2", "tmin:precip", "log(x)", "soil[peat]",
-// "(Intercept)") parsed against the model's covariates. Parsing knows covariates but no data.
+// "ns(tmin)[2]", "(Intercept)") parsed against the model's covariates. Parsing knows covariates
+// but no data.
 #include <string>
 #include <vector>
 
@@ -9,7 +10,8 @@
 namespace habcast {
 
 /// Function applied to a covariate's model value inside a term.
-enum class TermFunction { none, log, log1p, sqrt, exp };
+/// natural_spline and bspline select one column of the covariate's declared spline basis.
+enum class TermFunction { none, log, log1p, sqrt, exp, natural_spline, bspline };
 
 /// One factor of a product term.
 struct TermFactor {
@@ -17,7 +19,13 @@ struct TermFactor {
   TermFunction function = TermFunction::none;
   int power = 1;                    ///< 1..9 (after merging repeated factors, up to 18)
   int level = -1;                   ///< categorical indicator: index into Covariate::levels; else -1
+  int column = -1;                  ///< spline factors: 0-based column of the basis; else -1
 };
+
+/// True for a factor that is one column of a spline basis.
+inline bool is_spline(TermFunction function) {
+  return function == TermFunction::natural_spline || function == TermFunction::bspline;
+}
 
 /// A parsed term: the intercept (no factors) or a product of factors.
 struct Term {

@@ -149,8 +149,32 @@ NicheDescription describe_niche(const ModelSpec& spec, const TermPlan& plan, con
     d.linear.push_back({ci, extract_quadratic_form(spec, plan, d.reference, {ci}).b[0]});
   }
 
-  if (!focus.empty()) {
+  d.beyond_second_order = beyond_second_order(spec, plan);
+  if (!focus.empty() && d.beyond_second_order) {
+    // Canonical analysis applies to the second-order part only: held covariates (splines, term
+    // functions) fold into its coefficients at the reference; a term of higher degree in the
+    // curved covariates leaves no second-order surface to analyse.
+    try {
+      d.form = extract_quadratic_form(spec, plan, d.reference, focus);
+      d.canonical_note = "the canonical analysis covers the second-order part in the curved covariates, with the "
+                         "covariates that enter through splines or term functions held at the reference";
+    } catch (const InputError& e) {
+      d.canonical_note = std::string("no canonical analysis: ") + e.what();
+    }
+  } else if (!focus.empty()) {
     d.form = extract_quadratic_form(spec, plan, d.reference, focus);
+  } else if (d.beyond_second_order) {
+    d.canonical_note = "no canonical analysis: no covariate enters through squared or product terms alone";
+  }
+  if (d.beyond_second_order)
+    d.numerical = numerical_optimum(spec, plan, samples, d.reference, d.held, settings.canonical.confidence,
+                                    d.numerical_note);
+  if (settings.curves) {
+    CurveOptions options = settings.curve_options;
+    options.confidence = settings.canonical.confidence;
+    d.curves = response_curves(spec, plan, samples, d.reference, d.held, options);
+  }
+  if (d.form) {
     d.analysis = analyse_surface(*d.form, spec.link, spec.covariance, settings.canonical);
     if (samples && d.analysis->shape != SurfaceShape::ridge) {
       Eigen::VectorXd raw(static_cast<Eigen::Index>(focus.size()));
@@ -162,7 +186,14 @@ NicheDescription describe_niche(const ModelSpec& spec, const TermPlan& plan, con
   }
 
   const auto [first, second] = choose_pair(spec, plan, settings, focus, d.held);
-  if (first >= 0) d.pair = describe_pair(spec, plan, samples, d.reference, settings.canonical, first, second);
+  if (first >= 0 && (d.form || !d.beyond_second_order || settings.pair)) {
+    try {
+      d.pair = describe_pair(spec, plan, samples, d.reference, settings.canonical, first, second);
+    } catch (const InputError& e) {
+      if (!d.beyond_second_order) throw;
+      d.canonical_note += std::string(d.canonical_note.empty() ? "" : "; ") + "no pair analysis: " + e.what();
+    }
+  }
   return d;
 }
 

@@ -15,6 +15,7 @@
 #include "core/model/term_plan.hpp"
 #include "core/niche/canonical_analysis.hpp"
 #include "core/niche/quadratic_form.hpp"
+#include "core/niche/response_curves.hpp"
 #include "core/numeric/convex_hull_2d.hpp"
 
 namespace habcast {
@@ -24,6 +25,8 @@ struct DescribeSettings {
   std::map<std::string, std::string> levels;  ///< categorical covariate -> level name or code
   std::optional<std::pair<std::string, std::string>> pair;  ///< covariates of the pair section
   CanonicalOptions canonical;
+  bool curves = false;  ///< compute the response curves (describe --curves)
+  CurveOptions curve_options;
 };
 
 /// A covariate that enters the model only linearly: eta changes by `gradient` per model unit.
@@ -55,6 +58,13 @@ struct NicheDescription {
   std::optional<SupportCheck> support;     ///< of the stationary point; needs samples and a unique point
   std::optional<PairDescription> pair;     ///< needs two continuous covariates
   bool has_samples = false;
+  /// Beyond second order (splines, term functions, higher powers): the canonical analysis covers
+  /// only the second-order part, or nothing, and the numerical optimum is the answer.
+  bool beyond_second_order = false;
+  std::string canonical_note;                  ///< why the canonical analysis is partial or absent
+  std::optional<NumericalOptimum> numerical;   ///< set for models beyond second order, with samples
+  std::string numerical_note;                  ///< why `numerical` is unset
+  std::vector<ResponseCurve> curves;           ///< with DescribeSettings::curves
 };
 
 /// Describes the model. `samples` may be null (no reference means, no support checks). Throws
