@@ -28,6 +28,7 @@ if [[ "${HABCAST_TEST_SANITIZE:-1}" != "0" ]]; then
     -DHABCAST_SANITIZE=ON "${unity[@]}" >/dev/null
   cmake --build build-asan --parallel
   ASAN_OPTIONS="detect_leaks=1:abort_on_error=1:strict_string_checks=1" \
+  LSAN_OPTIONS="suppressions=$PWD/tests/lsan.supp:print_suppressions=0" \
   UBSAN_OPTIONS="print_stacktrace=1:halt_on_error=1" \
     ctest --test-dir build-asan --output-on-failure --parallel "$(nproc)"
 fi
