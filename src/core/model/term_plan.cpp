@@ -62,18 +62,35 @@ double integer_power(double v, int power) {
 
 }  // namespace
 
+// Each factor multiplies the column in term order, as 1.0 * f1 * f2 ... would (1.0 * f is f exactly,
+// so the first factor is stored, not multiplied); powers 1 and 2 are written out so that the loops
+// vectorise, with the same products as integer_power().
 void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column) const {
-  for (Eigen::Index r = 0; r < rows; ++r) column[r] = 1.0;
-  if (term.intercept) return;
+  if (term.intercept || term.factors.empty()) {
+    for (Eigen::Index r = 0; r < rows; ++r) column[r] = 1.0;
+    return;
+  }
+  bool first = true;
+  const auto apply = [&](auto factor_value) {
+    if (first)
+      for (Eigen::Index r = 0; r < rows; ++r) column[r] = factor_value(r);
+    else
+      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= factor_value(r);
+    first = false;
+  };
   for (const TermFactor& f : term.factors) {
     const double* v = values.col(f.covariate).data();
     if (f.level >= 0) {
       const double level = static_cast<double>(f.level);
-      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= (v[r] == level ? 1.0 : 0.0);
+      apply([&](Eigen::Index r) { return v[r] == level ? 1.0 : 0.0; });
+    } else if (f.function == TermFunction::none && f.power == 1) {
+      apply([&](Eigen::Index r) { return v[r]; });
+    } else if (f.function == TermFunction::none && f.power == 2) {
+      apply([&](Eigen::Index r) { return v[r] * v[r]; });
     } else if (f.function == TermFunction::none) {
-      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= integer_power(v[r], f.power);
+      apply([&](Eigen::Index r) { return integer_power(v[r], f.power); });
     } else {
-      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= integer_power(apply_function(f.function, v[r]), f.power);
+      apply([&](Eigen::Index r) { return integer_power(apply_function(f.function, v[r]), f.power); });
     }
   }
 }
