@@ -42,7 +42,7 @@ void Evaluator::linear_predictor(const Eigen::MatrixXd& X, Eigen::Index rows, co
   out.eta.resize(rows);
   // se^2 = diag(X V X'), one row at a time from V's upper triangle, never the rows x rows
   // matrix. (The earlier form, row sums of (X V) .* X through Eigen's matrix product, spent three
-  // times the arithmetic and most of predict's model time; docs/performance-notes.md.)
+  // times the arithmetic and most of predict's model time: bench/stage_cost.cpp measures it.)
   if (V_) out.se_eta.resize(rows);
   linear_quadratic(X.data(), X.outerStride(), rows, beta_, V_ ? packed_V_.data() : nullptr, out.eta.data(),
                    V_ ? out.se_eta.data() : nullptr);

@@ -104,11 +104,16 @@ std::int64_t TermPlan::fill(const ModelValues& values, Eigen::Index rows, Eigen:
   // while it is still in cache, and without branches so the loop vectorises.
   std::vector<std::uint8_t> ok_rows(valid, valid + rows);  // the plan is shared by threads: no member scratch
   std::uint8_t* ok = ok_rows.data();
+  // x * 0 is NaN exactly when x is not finite, so one sum per row in doubles (a loop that
+  // vectorises, unlike a byte mask per column) finds every row with a term that is not finite.
+  std::vector<double> not_finite(static_cast<std::size_t>(rows), 0.0);
+  double* nf = not_finite.data();
   for (Eigen::Index j = 0; j < p; ++j) {
     double* x = X.col(j).data();
     fill_term(terms_[static_cast<std::size_t>(j)], values, rows, x);
-    for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(std::isfinite(x[r]));
+    for (Eigen::Index r = 0; r < rows; ++r) nf[r] += x[r] * 0.0;
   }
+  for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(nf[r] == 0.0);
   for (int c : used_categorical_) {
     const double* level = values.col(c).data();
     for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(level[r] >= 0.0);
