@@ -11,6 +11,10 @@
 // plus a plain read of the uncompressed values (a memory copy from the page cache), so it errs
 // on the slow side by that copy.
 //
+// With --defaults it also writes predict's default extra outputs: a 3-band Float32 novelty.tif and
+// a 1-band UInt8 least_similar.tif (with --values DIR, from uncompressed copies of habcast's own in
+// DIR), the floor for predict's default run.
+//
 // With --read-only nothing is written: the time to decode the inputs alone, which no choice of
 // output codec or precision (predict --max-error) can go below.
 //
@@ -20,7 +24,7 @@
 // same bands, type and values: the same decoding and encoding work as the run, nothing else.
 //
 // Usage: habcast_io_floor OUT_DIR FLOAT1.tif FLOAT2.tif FLOAT3.tif FLOAT4.tif BYTE.tif
-//                         [--threads N|ALL_CPUS] [--window PIXELS] [--values DIR] [--read-only]
+//                         [--threads N|ALL_CPUS] [--window PIXELS] [--values DIR] [--defaults] [--read-only]
 //        habcast_io_floor OUT_DIR INPUT.tif... --mirror DIR [--threads N] [--window PIXELS]
 #include <cpl_conv.h>
 #include <gdal_priv.h>
@@ -49,6 +53,7 @@ struct Args {
   std::string threads = "ALL_CPUS";
   int window = 1024;
   bool read_only = false;
+  bool defaults = false;  // also novelty.tif (3 x Float32) and least_similar.tif (UInt8)
   std::string values_dir;  // uncompressed copies of habcast's outputs, or empty
   std::string mirror_dir;  // uncompressed copies of a several-prediction run's outputs, or empty
 };
@@ -62,13 +67,14 @@ Args parse(int argc, char** argv) {
     else if (arg == "--values" && i + 1 < argc) a.values_dir = argv[++i];
     else if (arg == "--read-only") a.read_only = true;
     else if (arg == "--mirror" && i + 1 < argc) a.mirror_dir = argv[++i];
+    else if (arg == "--defaults") a.defaults = true;
     else if (a.out_dir.empty()) a.out_dir = arg;
     else a.inputs.push_back(arg);
   }
   if (a.out_dir.empty() || (a.mirror_dir.empty() ? a.inputs.size() != 5 : a.inputs.empty()) || a.window < 1)
     throw std::runtime_error(
         "usage: habcast_io_floor OUT_DIR F1.tif F2.tif F3.tif F4.tif BYTE.tif [--threads N] [--window PIXELS] "
-        "[--values DIR] [--read-only]");
+        "[--values DIR] [--defaults] [--read-only]");
   return a;
 }
 
@@ -109,11 +115,15 @@ void run(const Args& a) {
   std::vector<Dataset> in;
   for (const std::string& p : a.inputs) in.push_back(open_input(p, a.threads));
   const GDALDataset& ref = *in.front();
-  Dataset suitability, uncertainty, flags;
+  Dataset suitability, uncertainty, flags, novelty, least_similar;
   if (!a.read_only) {
     suitability = create_output(a.out_dir + "/suitability.tif", ref, 1, GDT_Float32, a.threads);
     uncertainty = create_output(a.out_dir + "/uncertainty.tif", ref, 3, GDT_Float32, a.threads);
     flags = create_output(a.out_dir + "/extrapolation.tif", ref, 1, GDT_Byte, a.threads);
+    if (a.defaults) {
+      novelty = create_output(a.out_dir + "/novelty.tif", ref, 3, GDT_Float32, a.threads);
+      least_similar = create_output(a.out_dir + "/least_similar.tif", ref, 1, GDT_Byte, a.threads);
+    }
   }
   const int width = in.front()->GetRasterXSize();
   const int height = in.front()->GetRasterYSize();
@@ -122,9 +132,12 @@ void run(const Args& a) {
   std::vector<std::uint8_t> codes(n);
   // Sources of the output values: (dataset, band) per output band, or none for input copies.
   std::vector<Dataset> given;
-  if (!a.values_dir.empty())
+  if (!a.values_dir.empty()) {
     for (const char* name : {"suitability.tif", "uncertainty.tif", "extrapolation.tif"})
       given.push_back(open_input(a.values_dir + "/" + name, "1"));
+    if (a.defaults)
+      for (const char* name : {"novelty.tif", "least_similar.tif"}) given.push_back(open_input(a.values_dir + "/" + name, "1"));
+  }
   std::vector<float> out_values(given.empty() ? 0 : n);
   std::vector<std::uint8_t> out_codes(given.empty() ? 0 : n);
   for (int y = 0; y < height; y += a.window) {
@@ -141,6 +154,12 @@ void run(const Args& a) {
           io(*uncertainty->GetRasterBand(b), GF_Write, x, y, w, h, values[static_cast<std::size_t>(b)].data(),
              GDT_Float32);
         io(*flags->GetRasterBand(1), GF_Write, x, y, w, h, codes.data(), GDT_Byte);
+        if (a.defaults) {
+          for (int b = 1; b <= 3; ++b)
+            io(*novelty->GetRasterBand(b), GF_Write, x, y, w, h, values[static_cast<std::size_t>(b)].data(),
+               GDT_Float32);
+          io(*least_similar->GetRasterBand(1), GF_Write, x, y, w, h, codes.data(), GDT_Byte);
+        }
         continue;
       }
       io(*given[0]->GetRasterBand(1), GF_Read, x, y, w, h, out_values.data(), GDT_Float32);
@@ -151,6 +170,14 @@ void run(const Args& a) {
       }
       io(*given[2]->GetRasterBand(1), GF_Read, x, y, w, h, out_codes.data(), GDT_Byte);
       io(*flags->GetRasterBand(1), GF_Write, x, y, w, h, out_codes.data(), GDT_Byte);
+      if (a.defaults) {
+        for (int b = 1; b <= 3; ++b) {
+          io(*given[3]->GetRasterBand(b), GF_Read, x, y, w, h, out_values.data(), GDT_Float32);
+          io(*novelty->GetRasterBand(b), GF_Write, x, y, w, h, out_values.data(), GDT_Float32);
+        }
+        io(*given[4]->GetRasterBand(1), GF_Read, x, y, w, h, out_codes.data(), GDT_Byte);
+        io(*least_similar->GetRasterBand(1), GF_Write, x, y, w, h, out_codes.data(), GDT_Byte);
+      }
     }
   }
 }

@@ -47,7 +47,7 @@ def build(build_dir):
     generator = ["-G", "Ninja"] if shutil.which("ninja") else []
     sh(["cmake", "-S", str(REPO), "-B", str(build_dir), *generator, "-DHABCAST_BUILD_TESTS=OFF"],
        stdout=subprocess.DEVNULL)
-    sh(["cmake", "--build", str(build_dir), "--target", "habcast", "habcast_io_floor", "-j2"],
+    sh(["cmake", "--build", str(build_dir), "--target", "habcast", "habcast_io_floor", "habcast_stage_cost", "-j2"],
        stdout=subprocess.DEVNULL)
     return build_dir / "habcast", build_dir / "bench" / "habcast_io_floor"
 
@@ -182,8 +182,11 @@ def contenders(habcast, floor, stack, out_root, args):
         # ... every check (exact hull, pairwise hulls, NT2, MESS) feeding the same flag raster ...
         runs["habcast+checks"] = lambda out: base + ["-o", str(out), *args.domain_option.split(),
                                                      "--no-novelty-rasters"]
-        # ... and predict's defaults, which also write novelty.tif (3 Float32 bands) and least_similar.tif.
+        # ... and predict's defaults, which also write novelty.tif (3 Float32 bands) and least_similar.tif,
+        # against a floor that encodes that default output set with the default run's own values.
         runs["habcast default"] = lambda out: base + ["-o", str(out)]
+        runs["floor (defaults)"] = lambda out: [str(floor), str(out), *inputs, "--defaults", "--values",
+                                                str(out_root / "floor-values-default")]
     if "--units" in help_text:
         # 1,000 management units summarised in the same pass (exact coverage, delta-method SEs).
         units = ensure_units(stack)
@@ -250,13 +253,14 @@ def ensure_units(stack, count_x=40, count_y=25):
     return path
 
 
-def values_for_floor(habcast_cmd, out_root):
+def values_for_floor(habcast_cmd, out_root, target_name="floor-values",
+                     names=("suitability.tif", "uncertainty.tif", "extrapolation.tif")):
     """Uncompressed copies of habcast's outputs, so the floor can encode exactly the same values."""
-    source, target = out_root / "floor-values-source", out_root / "floor-values"
+    source, target = out_root / "floor-values-source", out_root / target_name
     measure(habcast_cmd(source), source)
     shutil.rmtree(target, ignore_errors=True)
     target.mkdir(parents=True)
-    for name in ("suitability.tif", "uncertainty.tif", "extrapolation.tif"):
+    for name in names:
         # gdal_translate in its own process, so this script's memory stays small.
         subprocess.run(["gdal_translate", "-q", "-co", "TILED=YES", "-co", "COMPRESS=NONE", str(source / name),
                         str(target / name)], check=True)
@@ -267,6 +271,10 @@ def race(habcast, floor, stack, args):
     out_root = Path(args.work) / stack.name
     tools = contenders(habcast, floor, stack, out_root, args)
     values_for_floor(tools["habcast"][0], out_root)
+    if "floor (defaults)" in tools:
+        values_for_floor(tools["habcast default"][0], out_root, "floor-values-default",
+                         ("suitability.tif", "uncertainty.tif", "extrapolation.tif", "novelty.tif",
+                          "least_similar.tif"))
     names = list(tools)
     samples = {n: [] for n in names}
     for rnd in range(args.warmup + args.reps):
@@ -295,6 +303,7 @@ def race(habcast, floor, stack, args):
         result["hull_over_habcast"] = t["habcast+hull"]["wall_s"] / t["habcast"]["wall_s"]
         result["checks_over_habcast"] = t["habcast+checks"]["wall_s"] / t["habcast"]["wall_s"]
         result["default_over_habcast"] = t["habcast default"]["wall_s"] / t["habcast"]["wall_s"]
+        result["default_over_floor_defaults"] = t["habcast default"]["wall_s"] / t["floor (defaults)"]["wall_s"]
     if "habcast+units" in t:
         result["units_over_habcast"] = t["habcast+units"]["wall_s"] / t["habcast"]["wall_s"]
     if "habcast--max-error" in t:
@@ -329,6 +338,28 @@ def thread_scaling(habcast, stack, args):
             "files_identical": same_files(out_root / "threads-1", out_root / "threads-2")}
 
 
+STAGE_NAMES = ["values", "design", "eta+se", "links", "range", "model", "mess", "nt2", "hull", "pairs", "checks"]
+
+
+def stage_costs(stage_cost, stack, args):
+    """ns per pixel per core of each stage of predict's computation (bench/stage_cost.cpp), and
+    with --stage-counts callgrind's instruction counts per pixel, which do not depend on load."""
+    model = str(stack / "model.toml")
+    out = subprocess.run([str(stage_cost), model, "--reps", str(args.stage_reps), "--json"], check=True,
+                         capture_output=True, text=True).stdout
+    result = json.loads(out)
+    if args.stage_counts:
+        pixels = 262144
+        for stage in result["stages"]:
+            run = subprocess.run(["valgrind", "--tool=callgrind", "--collect-atstart=no", "--callgrind-out-file=/dev/null",
+                                  str(stage_cost), model, "--pixels", str(pixels), "--count", stage],
+                                 capture_output=True, text=True, check=True)
+            collected = [line for line in run.stderr.splitlines() if "Collected :" in line]
+            counted = int(run.stdout.split()[-2])  # "counted stage S over N pixels"
+            result["stages"][stage]["instructions"] = int(collected[-1].split()[-1]) / counted
+    return result
+
+
 def print_table(results):
     print()
     print(f"{'stack':>10} {'tool':>20} {'wall s':>8} {'Mpix/s':>7} {'cpu s':>7} {'RSS MiB':>8} {'out MB':>7}")
@@ -339,7 +370,7 @@ def print_table(results):
         agree = r["peer_agreement"]
         print(f"{key:>10}   habcast/floor {r['habcast_over_floor']:.2f}   peer/habcast {r['peer_over_habcast']:.2f}"
               f"   peer agrees to {TOLERANCE:g}: {agree['agree']} (max |diff| {agree['max_abs_diff']})")
-        for extra in ("habcast_over_floor_input_copies", "hull_over_habcast", "checks_over_habcast", "default_over_habcast", "bytes_lossless_over_max_error", "time_lossless_over_max_error",
+        for extra in ("habcast_over_floor_input_copies", "hull_over_habcast", "checks_over_habcast", "default_over_habcast", "default_over_floor_defaults", "units_over_habcast", "bytes_lossless_over_max_error", "time_lossless_over_max_error",
                       "time_lossless_over_read_only", "bytes_lossless_over_entropy_estimate"):
             if extra in r:
                 print(f"{key:>10}   {extra} {r[extra]:.2f}")
@@ -354,6 +385,13 @@ def print_table(results):
               f"cpu ratio {s['splines_over_quadratic_cpu']:.2f}")
     if "rss_growth" in results:
         print(f"habcast peak RSS, largest vs smallest stack: {results['rss_growth']:.3f}x")
+    if "stages" in results:
+        st = results["stages"]
+        print(f"stages ({st['stack']}, {st['pixels']} pixels, {st['terms']} terms, one core): "
+              "ns/pixel min [median] (instructions/pixel)")
+        for name, v in st["stages"].items():
+            counted = f" ({v['instructions']:.0f})" if "instructions" in v else ""
+            print(f"{'':>10}   {name:>8} {v['min_ns']:7.1f} [{v['median_ns']:.1f}]{counted}")
     print(f"load average before/after: {results['load_before']} / {results['load_after']}")
 
 
@@ -366,6 +404,10 @@ def main():
     parser.add_argument("--no-build", action="store_true", help="use the binaries already in --build-dir")
     parser.add_argument("--work", default=str(BENCH / "data" / "runs"), help="where outputs go (same disk as data)")
     parser.add_argument("--no-threads", action="store_true", help="skip the 1 vs 2 threads comparison")
+    parser.add_argument("--stage-reps", type=int, default=15, help="repetitions of the per-stage timing")
+    parser.add_argument("--stage-counts", action="store_true",
+                        help="also count instructions per pixel of each stage under callgrind (slow)")
+    parser.add_argument("--stages-only", action="store_true", help="only the per-stage costs (first size), no race")
     parser.add_argument("--splines-only", action="store_true",
                         help="only the spline row (model-splines.toml vs model.toml); needs no floor binary")
     parser.add_argument("--domain-option", default="--checks range,hull,pairs,nt2,mess",
@@ -376,6 +418,7 @@ def main():
         habcast, floor = build_dir / "habcast", build_dir / "bench" / "habcast_io_floor"
     else:
         habcast, floor = build(build_dir)
+    stage_cost = build_dir / "bench" / "habcast_stage_cost"
     sizes = [float(s) for s in args.sizes.split(",")]
     stacks = [ensure_stack(s) for s in sizes]
     results = {"started_utc": dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"),
@@ -390,12 +433,15 @@ def main():
               f"{s['splines_wall_s']:.2f} s, ratio {s['splines_over_quadratic']:.2f} (target <= 1.25), "
               f"cpu ratio {s['splines_over_quadratic_cpu']:.2f}")
         return 0
-    for stack in stacks:
+    if stage_cost.exists():
+        results["stages"] = {"stack": stacks[0].name, **stage_costs(stage_cost, stacks[0], args)}
+    for stack in ([] if args.stages_only else stacks):
         results["stacks"][stack.name] = race(habcast, floor, stack, args)
-    results["splines"] = spline_ratio(habcast, stacks[0], args)
-    if not args.no_threads:
+    if not args.stages_only:
+        results["splines"] = spline_ratio(habcast, stacks[0], args)
+    if not args.no_threads and not args.stages_only:
         results["threads"] = {"stack": stacks[0].name, **thread_scaling(habcast, stacks[0], args)}
-    if len(stacks) > 1:
+    if len(stacks) > 1 and not args.stages_only:
         rss = [results["stacks"][s.name]["tools"]["habcast"]["rss_mib"] for s in stacks]
         results["rss_growth"] = rss[-1] / rss[0]
     results["load_after"] = [round(x, 2) for x in os.getloadavg()]

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <utility>
 
 namespace habcast {
@@ -32,6 +33,11 @@ SortedValues::SortedValues(std::vector<double> sorted) : sorted_(std::move(sorte
   if (!(span > 0.0) || !std::isfinite(span)) return;
   // About two buckets per value: most buckets then hold zero or one value.
   const std::size_t buckets = std::min<std::size_t>(std::max<std::size_t>(2 * n, 16), 1u << 20);
+  // similarity_from_count() for counts 1 .. n - 1 does not depend on p.
+  inner_similarity_.resize(n);
+  for (std::size_t k = 1; k < n; ++k) inner_similarity_[k] = similarity_from_count(sorted_, 0.0, k);
+  padded_ = sorted_;
+  padded_.resize(n + kWindow, std::numeric_limits<double>::infinity());
   origin_ = lo;
   buckets_per_unit_ = static_cast<double>(buckets) / span;
   first_at_or_above_.resize(buckets + 2);
@@ -44,6 +50,10 @@ SortedValues::SortedValues(std::vector<double> sorted) : sorted_(std::move(sorte
 
 std::size_t SortedValues::count_below(double p) const {
   const std::size_t n = sorted_.size();
+  // Outside the training range (a good share of the pixels flagged at all) there is nothing to search.
+  // (std::lower_bound's answers: 0 at or below the minimum and for NaN, n above the maximum.)
+  if (n == 0 || !(p > sorted_.front())) return 0;
+  if (p > sorted_.back()) return n;
   if (buckets_per_unit_ > 0.0 && p >= origin_) {
     const double position = (p - origin_) * buckets_per_unit_;
     const std::size_t last = first_at_or_above_.size() - 1;
@@ -53,17 +63,30 @@ std::size_t SortedValues::count_below(double p) const {
       // answer is then checked against its neighbours, and a full search settles any doubt.
       const std::size_t lo = first_at_or_above_[b == 0 ? 0 : b - 1];
       const std::size_t hi = first_at_or_above_[std::min(b + 2, last)];
-      const auto j = static_cast<std::size_t>(
-          std::lower_bound(sorted_.begin() + static_cast<std::ptrdiff_t>(lo),
-                           sorted_.begin() + static_cast<std::ptrdiff_t>(hi), p) -
-          sorted_.begin());
+      std::size_t j = lo;
+      if (hi - lo <= kWindow) {
+        // Count the window's values below p without branches (a binary search over a handful of
+        // values mispredicts about every other step); values from hi on are not below p, and the
+        // padding after the last value is +inf.
+        const double* w = padded_.data() + lo;
+        for (std::size_t t = 0; t < kWindow; ++t) j += w[t] < p ? 1 : 0;
+      } else {
+        j = static_cast<std::size_t>(std::lower_bound(sorted_.begin() + static_cast<std::ptrdiff_t>(lo),
+                                                      sorted_.begin() + static_cast<std::ptrdiff_t>(hi), p) -
+                                     sorted_.begin());
+      }
       if ((j == 0 || sorted_[j - 1] < p) && (j == n || !(sorted_[j] < p))) return j;
     }
   }
   return static_cast<std::size_t>(std::lower_bound(sorted_.begin(), sorted_.end(), p) - sorted_.begin());
 }
 
-double SortedValues::mess_similarity(double p) const { return similarity_from_count(sorted_, p, count_below(p)); }
+double SortedValues::mess_similarity(double p) const {
+  const std::size_t smaller = count_below(p);
+  // Inside the range the similarity depends on the count alone: looked up, computed as below.
+  if (smaller > 0 && smaller < sorted_.size() && !inner_similarity_.empty()) return inner_similarity_[smaller];
+  return similarity_from_count(sorted_, p, smaller);
+}
 
 double nt1_term(double min, double max, double p) { return std::min({p - min, max - p, 0.0}) / (max - min); }
 

@@ -32,7 +32,10 @@ class SortedValues {
   [[nodiscard]] double mess_similarity(double p) const;
 
  private:
+  static constexpr std::size_t kWindow = 8;  ///< values counted without branches
   std::vector<double> sorted_;
+  std::vector<double> padded_;  ///< sorted_ and kWindow times +inf
+  std::vector<double> inner_similarity_;  ///< per count 1 .. size - 1 of values below p: the similarity
   double origin_ = 0.0;
   double buckets_per_unit_ = 0.0;                  ///< 0 when all values are equal
   std::vector<std::uint32_t> first_at_or_above_;  ///< per bucket edge k: lower_bound(origin + k / buckets_per_unit)

@@ -120,14 +120,18 @@ void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const s
 
 void TrainingDomain::count_causes(Eigen::Index rows, const std::uint8_t* valid, const std::uint8_t* flags,
                                   DomainTally& tally) {
+  // Counted without branches (flags of valid pixels hold only the cause bits).
+  std::int64_t checked = 0, flagged = 0;
+  std::int64_t cause[flag::cause_count] = {};
   for (Eigen::Index r = 0; r < rows; ++r) {
-    if (!valid[r]) continue;
-    ++tally.checked;
-    const std::uint8_t f = flags[r];
-    if (f) ++tally.flagged;
-    for (int b = 0; b < flag::cause_count; ++b)
-      if (f & (1u << b)) ++tally.cause[b];
+    const unsigned f = valid[r] ? flags[r] : 0u;
+    checked += valid[r] ? 1 : 0;
+    flagged += f != 0 ? 1 : 0;
+    for (int b = 0; b < flag::cause_count; ++b) cause[b] += (f >> b) & 1u;
   }
+  tally.checked += checked;
+  tally.flagged += flagged;
+  for (int b = 0; b < flag::cause_count; ++b) tally.cause[b] += cause[b];
 }
 
 }  // namespace habcast

@@ -3,6 +3,7 @@
 #include <cmath>
 #include <stdexcept>
 
+#include "core/model/linear_quadratic_kernel.hpp"
 #include "core/model/link.hpp"
 #include "core/model/output_precision.hpp"
 #include "core/numeric/normal_distribution.hpp"
@@ -17,6 +18,7 @@ Evaluator::Evaluator(const ModelSpec& spec, double level, double quantum)
       level_(level),
       z_(normal_quantile(0.5 + level / 2.0)),
       quantum_(quantum) {
+  if (V_) packed_V_ = pack_symmetric(*V_);
   if (!(level > 0.0 && level < 1.0)) throw std::invalid_argument("confidence level must lie in (0, 1)");
 }
 
@@ -31,10 +33,24 @@ void round_all(Eigen::VectorXd& values, double quantum) {
 
 void Evaluator::evaluate(const Eigen::MatrixXd& X, Eigen::Index rows, const Eigen::VectorXd& offset,
                          Prediction& out) const {
-  const auto Xr = X.topRows(rows);
+  linear_predictor(X, rows, offset, out);
+  response(rows, out);
+}
+
+void Evaluator::linear_predictor(const Eigen::MatrixXd& X, Eigen::Index rows, const Eigen::VectorXd& offset,
+                                 Prediction& out) const {
   out.eta.resize(rows);
-  out.eta.noalias() = Xr * beta_;
+  // se^2 = diag(X V X'), one row at a time from V's upper triangle, never the rows x rows
+  // matrix. (The earlier form, row sums of (X V) .* X through Eigen's matrix product, spent three
+  // times the arithmetic and most of predict's model time: bench/stage_cost.cpp measures it.)
+  if (V_) out.se_eta.resize(rows);
+  linear_quadratic(X.data(), X.outerStride(), rows, beta_, V_ ? packed_V_.data() : nullptr, out.eta.data(),
+                   V_ ? out.se_eta.data() : nullptr);
   out.eta.array() += offset.head(rows).array() + offset_constant_;
+  if (V_) out.se_eta = out.se_eta.array().max(0.0).sqrt().matrix();
+}
+
+void Evaluator::response(Eigen::Index rows, Prediction& out) const {
   out.mu.resize(rows);
   if (!V_) {
     link_inverse_all(link_, out.eta.data(), out.mu.data(), rows);
@@ -45,18 +61,6 @@ void Evaluator::evaluate(const Eigen::MatrixXd& X, Eigen::Index rows, const Eige
   out.se_mu.resize(rows);
   link_inverse_with_derivative(link_, out.eta.data(), out.mu.data(), out.se_mu.data(), rows);
   round_all(out.mu, quantum_);
-
-  // se^2 = diag(X V X') = row sums of (X V) .* X, without forming the rows x rows matrix. (A
-  // Cholesky factor would halve the multiplications, but Eigen's triangular product was measured
-  // slower than this general one at these sizes.)
-  XV_.resize(rows, X.cols());
-  XV_.noalias() = Xr * (*V_);
-  out.se_eta.resize(rows);
-  // Summed column by column: contiguous in column-major storage, and a fixed order, so every
-  // pixel's value is the same whatever block or thread it falls in.
-  out.se_eta.setZero();
-  for (Eigen::Index j = 0; j < X.cols(); ++j) out.se_eta.array() += XV_.col(j).array() * Xr.col(j).array();
-  out.se_eta = out.se_eta.array().max(0.0).sqrt().matrix();
   out.se_mu.array() *= out.se_eta.array();
   round_all(out.se_mu, quantum_);
   // Limits on the link scale, then back-transformed in place.

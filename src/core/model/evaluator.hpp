@@ -3,6 +3,7 @@
 // response, its standard error and confidence limits. No rasters here.
 #include <Eigen/Core>
 #include <optional>
+#include <vector>
 
 #include "core/model/model_spec.hpp"
 
@@ -32,6 +33,15 @@ class Evaluator {
   /// errors and limits are computed only when the model has a covariance matrix.
   void evaluate(const Eigen::MatrixXd& X, Eigen::Index rows, const Eigen::VectorXd& offset, Prediction& out) const;
 
+  // The stages of evaluate(), in its order; public so that bench/stage_cost.cpp can time each one
+  // on the code that predict runs.
+  /// out.eta = X beta + offset + the constant offset and, with a covariance, out.se_eta =
+  /// sqrt(x' V x) per row, in one pass over X (linear_quadratic_kernel.hpp).
+  void linear_predictor(const Eigen::MatrixXd& X, Eigen::Index rows, const Eigen::VectorXd& offset,
+                        Prediction& out) const;
+  /// out.mu, and with a covariance out.se_mu, out.lower and out.upper, from out.eta (and out.se_eta).
+  void response(Eigen::Index rows, Prediction& out) const;
+
  private:
   Eigen::VectorXd beta_;
   std::optional<Eigen::MatrixXd> V_;
@@ -40,7 +50,7 @@ class Evaluator {
   double level_;
   double z_;
   double quantum_;
-  mutable Eigen::MatrixXd XV_;  // scratch; one Evaluator per worker thread
+  std::vector<double> packed_V_;  ///< V's upper triangle for linear_quadratic()
 };
 
 }  // namespace habcast

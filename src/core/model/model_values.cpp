@@ -59,6 +59,20 @@ void to_model_values(const ModelSpec& spec, const TermPlan& plan, const Eigen::A
           ++counts.unknown_level;
         }
       }
+    } else if (cov.transform == Transform::none) {
+      // The common case without branches, so the loop vectorises: the same value as model_value().
+      const double center = cov.center, scale = cov.scale;
+      std::int64_t outside = 0;
+      for (Eigen::Index i = 0; i < rows; ++i) {
+        const double m = (in[i] - center) / scale;
+        const bool finite = std::isfinite(m);
+        const bool valid = predict_valid[i] != 0;
+        dst[i] = valid && finite ? m : 0.0;
+        const bool lost = valid && !finite && used;
+        outside += lost ? 1 : 0;
+        predict_valid[i] = static_cast<std::uint8_t>(valid && !lost);
+      }
+      counts.outside_transform += outside;
     } else {
       for (Eigen::Index i = 0; i < rows; ++i) {
         if (!predict_valid[i]) {

@@ -112,24 +112,41 @@ double integer_power(double v, int power) {
 
 }  // namespace
 
+// Each factor multiplies the column in term order, as 1.0 * f1 * f2 ... would (1.0 * f is f exactly,
+// so the first factor is stored, not multiplied); powers 1 and 2 are written out so that the loops
+// vectorise, with the same products as integer_power().
 void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column,
                          const std::vector<Eigen::MatrixXd>& spline_values) const {
-  for (Eigen::Index r = 0; r < rows; ++r) column[r] = 1.0;
-  if (term.intercept) return;
+  if (term.intercept || term.factors.empty()) {
+    for (Eigen::Index r = 0; r < rows; ++r) column[r] = 1.0;
+    return;
+  }
+  bool first = true;
+  const auto apply = [&](auto factor_value) {
+    if (first)
+      for (Eigen::Index r = 0; r < rows; ++r) column[r] = factor_value(r);
+    else
+      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= factor_value(r);
+    first = false;
+  };
   for (const TermFactor& f : term.factors) {
     const double* v = values.col(f.covariate).data();
     if (is_spline(f.function)) {
       std::size_t s = 0;
       while (splines_[s].covariate != f.covariate || splines_[s].function != f.function) ++s;
       const double* b = spline_values[s].col(f.column).data();
-      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= b[r];
+      apply([&](Eigen::Index r) { return b[r]; });
     } else if (f.level >= 0) {
       const double level = static_cast<double>(f.level);
-      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= (v[r] == level ? 1.0 : 0.0);
+      apply([&](Eigen::Index r) { return v[r] == level ? 1.0 : 0.0; });
+    } else if (f.function == TermFunction::none && f.power == 1) {
+      apply([&](Eigen::Index r) { return v[r]; });
+    } else if (f.function == TermFunction::none && f.power == 2) {
+      apply([&](Eigen::Index r) { return v[r] * v[r]; });
     } else if (f.function == TermFunction::none) {
-      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= integer_power(v[r], f.power);
+      apply([&](Eigen::Index r) { return integer_power(v[r], f.power); });
     } else {
-      for (Eigen::Index r = 0; r < rows; ++r) column[r] *= integer_power(apply_function(f.function, v[r]), f.power);
+      apply([&](Eigen::Index r) { return integer_power(apply_function(f.function, v[r]), f.power); });
     }
   }
 }
@@ -147,11 +164,16 @@ std::int64_t TermPlan::fill(const ModelValues& values, Eigen::Index rows, Eigen:
   std::vector<Eigen::MatrixXd> spline_values(splines_.size());
   for (std::size_t s = 0; s < splines_.size(); ++s)
     splines_[s].basis.evaluate(values.col(splines_[s].covariate).data(), rows, spline_values[s]);
+  // x * 0 is NaN exactly when x is not finite, so one sum per row in doubles (a loop that
+  // vectorises, unlike a byte mask per column) finds every row with a term that is not finite.
+  std::vector<double> not_finite(static_cast<std::size_t>(rows), 0.0);
+  double* nf = not_finite.data();
   for (Eigen::Index j = 0; j < p; ++j) {
     double* x = X.col(j).data();
     fill_term(terms_[static_cast<std::size_t>(j)], values, rows, x, spline_values);
-    for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(std::isfinite(x[r]));
+    for (Eigen::Index r = 0; r < rows; ++r) nf[r] += x[r] * 0.0;
   }
+  for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(nf[r] == 0.0);
   for (int c : used_categorical_) {
     const double* level = values.col(c).data();
     for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(level[r] >= 0.0);
