@@ -4,6 +4,7 @@
 #include <iostream>
 #include <memory>
 
+#include "cli/alignment_args.hpp"
 #include "cli/commands.hpp"
 #include "core/base/error.hpp"
 #include "pipeline/stop_signal.hpp"
@@ -28,8 +29,7 @@ constexpr const char* kPredictHelp =
     "  report.json        counts, shares and areas per cause and covariate, warnings, timing\n"
     "Joint checks run on the model values (after transform and standardisation) of the continuous\n"
     "covariates the model uses; see docs/extrapolation-flags.md.\n"
-    "All covariate rasters must share one grid (size, geotransform, CRS). A pixel where any covariate\n"
-    "is nodata is nodata in every output. Outputs appear only when complete; an interrupted run\n"
+    "A pixel where any covariate is nodata is nodata in every output. Outputs appear only when complete; an interrupted run\n"
     "leaves nothing behind.\n\n"
     "Example:\n"
     "  habcast predict sample-rasters/demo-model.toml -o out/\n"
@@ -47,6 +47,7 @@ struct PredictArgs {
   long long max_memory_mib = 2048;
   std::vector<std::string> checks{"range", "hull", "pairs", "nt2", "mess"};
   bool no_novelty_rasters = false;
+  AlignmentArgs alignment;
 };
 
 void apply_checks(PredictArgs& args) {
@@ -75,6 +76,7 @@ void parse_covariate_args(PredictArgs& args) {
 int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err) {
   parse_covariate_args(args);
   apply_checks(args);
+  args.options.alignment = alignment_options(args.alignment);
   if (args.max_extrapolated >= 0.0) args.options.max_extrapolated_percent = args.max_extrapolated;
   args.options.max_memory_bytes = args.max_memory_mib << 20;
   if (args.log_format == "json") args.options.progress = ProgressStyle::json;
@@ -110,7 +112,7 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
 void register_predict(CLI::App& app, CommandRegistry& registry) {
   auto args = std::make_shared<PredictArgs>();
   CLI::App* cmd = app.add_subcommand("predict", "Map a fitted model over covariate rasters");
-  cmd->footer(kPredictHelp);
+  cmd->footer(std::string(kPredictHelp) + "\n\n" + kAlignmentHelp);
   cmd->add_option("model", args->options.model_path, "Model file (TOML; see docs/model-format.md)")
       ->required()
       ->check(CLI::ExistingFile);
@@ -168,6 +170,7 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--log-format", args->log_format,
                   "text (default) or json: JSON lines of progress and warnings on stderr, report on stdout")
       ->check(CLI::IsMember({"text", "json"}));
+  add_alignment_options(*cmd, args->alignment);
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_predict_command(*args, out, err); });
 }
 

@@ -7,6 +7,7 @@
 
 #include "core/domain/novelty_model.hpp"
 #include "pipeline/progress.hpp"
+#include "raster/alignment_plan.hpp"
 
 namespace habcast {
 
@@ -29,6 +30,7 @@ struct PredictOptions {
   std::string quicklook_path;         ///< small PNG of suitability and extrapolation; empty: none
   long long gdal_cache_bytes = 0;     ///< GDAL block cache; 0: sized to the windows in flight
   long long max_memory_bytes = 2048LL << 20;  ///< cap on working memory besides GDAL's cache (docs/limits.md)
+  AlignmentOptions alignment;         ///< target grid and resampling of covariates not on it (docs/alignment.md)
 };
 
 }  // namespace habcast
