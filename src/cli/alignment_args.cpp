@@ -51,6 +51,11 @@ void add_alignment_options(CLI::App& command, AlignmentArgs& args, bool stated_g
     command.add_option("--grid-bounds", args.grid_bounds,
                        "XMIN,YMIN,XMAX,YMAX of the stated grid, in its CRS units (a whole number of pixels)");
   }
+  command.add_option("--warp-error", args.warp_error,
+                     "PIXELS: let GDAL approximate the reprojection to within this many source pixels\n"
+                     "(gdalwarp's -et, whose default is 0.125); faster, but values then depend slightly on\n"
+                     "the windows. Default 0: every pixel transformed exactly")
+      ->check(CLI::Range(0.0, 10.0));
   command.add_option("--resampling", args.resampling,
                      "NAME=METHOD: how covariate NAME reaches the target grid, overriding the model file\n"
                      "(nearest, bilinear, cubic, average, mode; categorical: nearest or mode); repeatable");
@@ -61,6 +66,7 @@ AlignmentOptions alignment_options(const AlignmentArgs& args) {
   o.target.covariate = args.grid_of;
   o.target.template_path = args.grid_like;
   o.target.crs = args.grid_crs;
+  o.error_threshold = args.warp_error;
   if (!args.grid_resolution.empty()) o.target.resolution = numbers(args.grid_resolution, "--grid-resolution", 1, 2);
   if (!args.grid_bounds.empty()) o.target.bounds = numbers(args.grid_bounds, "--grid-bounds", 4, 4);
   for (const std::string& item : args.resampling) {

@@ -17,6 +17,7 @@ struct AlignmentArgs {
   std::string grid_resolution;
   std::string grid_bounds;
   std::vector<std::string> resampling;
+  double warp_error = 0.0;
 };
 
 /// Adds --grid-of and --resampling; with `stated_grids` also --grid-like, --grid-crs,

@@ -248,10 +248,6 @@ void choose_resampling(AlignedCovariate& c, const AlignmentOptions& options) {
                                  "are averaged rather than sampled"
                                : "default for a continuous covariate";
   }
-  if (c.input.categorical && mixes_values(c.resampling))
-    throw UsageError("--resampling " + c.input.name + "=" + to_string(c.resampling) + ": \"" + c.input.name +
-                     "\" is categorical, so its class codes cannot be interpolated or averaged (the mean of two "
-                     "codes is no class); use nearest or mode");
 }
 
 std::string share_text(std::int64_t part, std::int64_t total) {
@@ -294,6 +290,14 @@ AlignmentPlan plan_alignment(const std::vector<AlignmentInput>& inputs, const Al
     (void)method;
     if (std::none_of(inputs.begin(), inputs.end(), [&](const AlignmentInput& in) { return in.name == name; }))
       throw UsageError("--resampling " + name + "=...: no covariate of that name; the covariates are " + names_of(inputs));
+  }
+  for (const AlignmentInput& in : inputs) {
+    // Refused whether or not this run needs to resample it: the request itself makes no sense.
+    const auto it = options.resampling.find(in.name);
+    if (in.categorical && it != options.resampling.end() && mixes_values(it->second))
+      throw UsageError("--resampling " + in.name + "=" + to_string(it->second) + ": \"" + in.name +
+                       "\" is categorical, so its class codes cannot be interpolated or averaged (the mean of two "
+                       "codes is no class); use nearest or mode");
   }
   if (!(options.error_threshold >= 0.0)) throw UsageError("the warp error threshold must be 0 or more pixels");
   std::vector<RasterGrid> grids;
