@@ -16,6 +16,7 @@ packages=(
   libqhull-dev libtbb-dev
   python3 python3-gdal python3-numpy
   time  # /usr/bin/time: the benchmark's per-run peak memory
+  lighttpd  # serves rasters over HTTP with byte ranges to the /vsicurl/ test (ctest vsicurl_lighttpd)
 )
 for flag in "$@"; do
   case "$flag" in

@@ -67,7 +67,8 @@ BatchPlan make_plan(const BatchOptions& options, const std::string& tool_version
     throw InputError(located(plan.spec.path, plan.spec.training_line, "training samples " + *plan.spec.training_samples +
                                                                           " do not exist; check the path (relative to the model file)"));
   plan.tiles = list_tiles(plan.manifest, plan.spec);
-  plan.settings = {plan.manifest.level, plan.manifest.block_size, plan.manifest.creation_options, plan.manifest.overviews};
+  plan.settings = {plan.manifest.level, plan.manifest.block_size, plan.manifest.creation_options, plan.manifest.overviews,
+                   options.alignment};
   plan.model_hash = model_fingerprint(plan.spec.path, plan.spec.training_samples ? &*plan.spec.training_samples : nullptr);
   plan.tool_version = tool_version;
   return plan;
@@ -131,6 +132,7 @@ TileRun run_tile(const BatchPlan& plan, const Tile& tile, int threads, TileProgr
     po.creation_options = plan.settings.creation_options;
     po.overviews = plan.settings.overviews;
     po.overwrite = true;
+    po.alignment = plan.settings.alignment;
     const PredictSummary summary = run_predict(po, progress, plan.tool_version);
     run.record = done_record(tile.id, fingerprint, summary.outputs, seconds());
     // Written last: a tile is done exactly when its record says so.

@@ -68,14 +68,18 @@ json tile_fingerprint(const Tile& tile, const std::string& model_hash, const Til
                       const std::string& tool_version) {
   json inputs = json::array();
   for (const auto& [covariate, path] : tile.rasters) inputs.push_back(file_stamp(covariate, path));
-  return {{"habcast_version", tool_version},
-          {"model_hash", model_hash},
-          {"options",
-           {{"level", s.level},
-            {"block_size", s.block_size},
-            {"creation_options", s.creation_options},
-            {"overviews", s.overviews}}},
-          {"inputs", inputs}};
+  json options{{"level", s.level},
+               {"block_size", s.block_size},
+               {"creation_options", s.creation_options},
+               {"overviews", s.overviews}};
+  // Only when set, so that the records of runs without these options stay valid.
+  const AlignmentOptions& a = s.alignment;
+  if (!a.target.covariate.empty() || !a.resampling.empty() || a.error_threshold != 0.0) {
+    json methods = json::object();
+    for (const auto& [name, method] : a.resampling) methods[name] = to_string(method);
+    options["alignment"] = {{"grid_of", a.target.covariate}, {"resampling", methods}, {"warp_error", a.error_threshold}};
+  }
+  return {{"habcast_version", tool_version}, {"model_hash", model_hash}, {"options", options}, {"inputs", inputs}};
 }
 
 std::string model_fingerprint(const std::string& model_path, const std::string* training_path) {

@@ -8,6 +8,7 @@
 #include <vector>
 
 #include "batch/tile_list.hpp"
+#include "raster/alignment_plan.hpp"
 
 namespace habcast {
 
@@ -17,6 +18,7 @@ struct TileSettings {
   int block_size = 512;
   std::vector<std::string> creation_options;
   bool overviews = false;
+  AlignmentOptions alignment;  ///< --grid-of, --resampling, --warp-error (each tile keeps its own grid)
 };
 
 /// What a tile's outputs depend on. `model_hash` covers the model file and its training table.

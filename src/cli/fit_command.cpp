@@ -4,6 +4,7 @@
 #include <limits>
 #include <memory>
 
+#include "cli/alignment_args.hpp"
 #include "cli/commands.hpp"
 #include "core/base/error.hpp"
 #include "fit/fit_run.hpp"
@@ -48,6 +49,7 @@ struct FitArgs {
   std::string family = "binomial";
   std::string link;
   double prediction_offset = std::numeric_limits<double>::quiet_NaN();
+  AlignmentArgs alignment;
 };
 
 std::pair<std::string, std::string> split_pair(const std::string& item, const std::string& option, const std::string& example) {
@@ -107,6 +109,7 @@ int run_fit_command(FitArgs& args, std::ostream& out, std::ostream& err) {
   if (!std::isnan(args.prediction_offset)) o.prediction_offset = args.prediction_offset;
   if (o.prediction_offset && o.offset.empty()) throw UsageError("--prediction-offset needs --offset");
 
+  o.alignment = alignment_options(args.alignment);
   const FitSummary summary = run_fit(o, HABCAST_VERSION);
   out << format_fit_summary(summary);
   for (const std::string& w : summary.warnings) err << "habcast: warning: " << w << "\n";
@@ -152,6 +155,7 @@ void register_fit(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--name", o.name, "Model name recorded in the file and in outputs' metadata");
   cmd->add_option("--max-iterations", o.irls.max_iterations, "IRLS iteration limit")->default_val(50)->check(CLI::Range(1, 10000));
   cmd->add_flag("--overwrite", o.overwrite, "Replace an existing model file and samples table");
+  add_alignment_options(*cmd, args->alignment);
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_fit_command(*args, out, err); });
 }
 

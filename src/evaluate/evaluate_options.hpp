@@ -5,6 +5,7 @@
 #include <optional>
 #include <string>
 
+#include "raster/alignment_plan.hpp"
 #include "raster/point_source.hpp"
 
 namespace habcast {
@@ -25,6 +26,7 @@ struct EvaluateOptions {
   std::string svg_path;
   std::string binary_path;
   bool overwrite = false;
+  AlignmentOptions alignment;      ///< target grid and resampling for --model's covariates (docs/alignment.md)
 };
 
 }  // namespace habcast
