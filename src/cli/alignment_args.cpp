@@ -38,7 +38,9 @@ const char* const kAlignmentHelp =
     "otherwise. Resampling: a covariate's `resampling` key in the model file or --resampling NAME=METHOD;\n"
     "by default bilinear, average where the target pixel is 2 or more source pixels across, nearest for\n"
     "categorical covariates (mode when coarsening). The report lists, per covariate, its grid, the method\n"
-    "used and the share of target pixels it left without a value; see docs/alignment.md.";
+    "used and the share of target pixels it left without a value; see docs/alignment.md.\n"
+    "  habcast predict model.toml -o out/ -c tmin=/vsizip/climate.zip/tmin.tif -c slope=slope_30m.tif \\\n"
+    "      --grid-of slope --resampling tmin=cubic";
 
 void add_alignment_options(CLI::App& command, AlignmentArgs& args, bool stated_grids) {
   command.add_option("--grid-of", args.grid_of,
