@@ -1,4 +1,4 @@
-// fit and evaluate --model take covariates off the target grid too. The check: a covariate padded
+// fit, evaluate --model and batch take covariates off the target grid too. The check: a covariate padded
 // by whole pixels on every side (same lattice, larger extent: GDAL copies such pixels exactly)
 // must give the very same fitted model and the same evaluation as the raster itself.
 #include <gdal_utils.h>
@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "batch/tile_record.hpp"
 #include "core/model/model_file.hpp"
 #include "raster/gdal_session.hpp"
 #include "test_support.hpp"
@@ -89,4 +90,22 @@ TEST_CASE("evaluate --model scores a covariate off the grid through the warper, 
   };
   CHECK(without_source(padded) == without_source(plain));
   CHECK(padded.find("aligned by GDAL's warper") != std::string::npos);
+}
+
+// batch: a tile's record must go stale when the alignment options change, and records written
+// without them must stay valid (the fingerprint gains an "alignment" entry only when one is set).
+
+TEST_CASE("a batch tile's fingerprint holds the alignment options only when they are set", "[batch][align]") {
+  habcast::Tile tile{"t1", {}};
+  habcast::TileSettings plain;
+  const auto without = habcast::tile_fingerprint(tile, "hash", plain, "1.0");
+  CHECK_FALSE(without["options"].contains("alignment"));
+  habcast::TileSettings grid_of = plain;
+  grid_of.alignment.target.covariate = "slope";
+  const auto with_grid = habcast::tile_fingerprint(tile, "hash", grid_of, "1.0");
+  CHECK(with_grid["options"]["alignment"]["grid_of"] == "slope");
+  habcast::TileSettings method = plain;
+  method.alignment.resampling["tmin"] = habcast::Resampling::cubic;
+  CHECK(habcast::tile_fingerprint(tile, "hash", method, "1.0")["options"]["alignment"]["resampling"]["tmin"] == "cubic");
+  CHECK(with_grid != without);
 }
