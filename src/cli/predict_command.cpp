@@ -101,6 +101,14 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
     if (!summary.report["extrapolation"].is_null())
       out << "Extrapolated: " << format_percent(summary.report["extrapolation"]["flagged_share"].get<double>())
           << " of valid pixels (see extrapolation.tif).\n";
+    if (const auto& a = summary.report["alignment"]; a.is_object()) {
+      std::string warped;
+      for (const auto& c : a["covariates"])
+        if (!c["resampling"].is_null())
+          warped += (warped.empty() ? "" : ", ") + c["covariate"].get<std::string>() + " (" + c["resampling"].get<std::string>() + ")";
+      if (!warped.empty())
+        out << "Aligned onto " << a["target_grid"]["rule"].get<std::string>() << ": " << warped << ".\n";
+    }
     out << "Outputs:\n";
     for (const std::string& p : summary.outputs) out << "  " << p << "\n";
   }
