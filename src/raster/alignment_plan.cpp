@@ -348,7 +348,7 @@ std::unique_ptr<CovariateSource> open_covariate_source(const AlignmentPlan& plan
   const AlignedCovariate& c = plan.covariates.at(index);
   if (!c.warped) return std::make_unique<DirectCovariateSource>(c.input.path, c.input.band, plan.target, decode_threads);
   return std::make_unique<WarpedCovariateSource>(c.input.path, c.input.band, plan.target, c.resampling,
-                                                 plan.error_threshold);
+                                                 plan.error_threshold, c.pixel_ratio);
 }
 
 std::vector<std::string> alignment_warnings(const AlignmentPlan& plan, const std::vector<std::int64_t>& missing,

@@ -4,7 +4,9 @@
 #include <gdal_alg.h>
 #include <gdalwarper.h>
 
+#include <algorithm>
 #include <array>
+#include <vector>
 #include <cmath>
 #include <limits>
 
@@ -58,10 +60,26 @@ struct WarpedCovariateSource::Impl {
   TransformerPtr transformer;
   std::unique_ptr<GDALWarpOptions, WarpOptionsFree> options;
   std::unique_ptr<GDALWarpOperation> operation;
+  int piece = 0;  ///< edge of the target pieces a window is warped in; 0: whole windows
+  std::vector<double> scratch;
+
+  void warp(const Window& window, double* values);
 };
 
+void WarpedCovariateSource::Impl::warp(const Window& window, double* values) {
+  std::fill(values, values + window.pixels(), std::numeric_limits<double>::quiet_NaN());
+  take_gdal_error();
+  if (operation->WarpRegionToBuffer(window.x, window.y, window.width, window.height, values, GDT_Float64) != CE_None) {
+    throw IoError(located(path, 0,
+                          "warping band " + std::to_string(band_number) + " onto the " + window_text(window) +
+                              " failed (" + gdal_reason() +
+                              "). The file may be truncated or corrupt: check it with gdalinfo -checksum."));
+  }
+  take_gdal_error();  // warnings of the transformer at points outside its domain are not failures
+}
+
 WarpedCovariateSource::WarpedCovariateSource(const std::string& path, int band, const RasterGrid& target,
-                                             Resampling method, double error_threshold)
+                                             Resampling method, double error_threshold, double pixel_ratio)
     : impl_(std::make_unique<Impl>()) {
   ensure_gdal();
   Impl& self = *impl_;
@@ -138,6 +156,9 @@ WarpedCovariateSource::WarpedCovariateSource(const std::string& path, int band, 
   // the buffer with NaN.)
   o.papszWarpOptions = CSLSetNameValue(o.papszWarpOptions, "INIT_DEST", "NO_DATA");
   o.papszWarpOptions = CSLSetNameValue(o.papszWarpOptions, "ERROR_OUT_IF_EMPTY_SOURCE_WINDOW", "FALSE");
+  // Much coarser targets read ratio^2 source pixels per target pixel: pieces of a fixed lattice on
+  // the target grid keep each source read near kSourcePiece^2 pixels, whatever the window.
+  if (pixel_ratio > 2.0) self.piece = std::max(1, static_cast<int>(kSourcePiece / pixel_ratio));
   self.operation = std::make_unique<GDALWarpOperation>();
   if (self.operation->Initialize(self.options.get()) != CE_None)
     throw InputError(located(path, 0, "GDAL's warper cannot be set up for it (" + gdal_reason() + ")."));
@@ -150,16 +171,24 @@ const RasterGrid& WarpedCovariateSource::grid() const { return impl_->target; }
 std::int64_t WarpedCovariateSource::read(const Window& window, double* values, std::uint8_t* valid) {
   Impl& self = *impl_;
   const auto count = static_cast<std::size_t>(window.pixels());
-  std::fill(values, values + count, std::numeric_limits<double>::quiet_NaN());
-  take_gdal_error();
-  if (self.operation->WarpRegionToBuffer(window.x, window.y, window.width, window.height, values, GDT_Float64) !=
-      CE_None) {
-    throw IoError(located(self.path, 0,
-                          "warping band " + std::to_string(self.band_number) + " onto the " + window_text(window) +
-                              " failed (" + gdal_reason() +
-                              "). The file may be truncated or corrupt: check it with gdalinfo -checksum."));
+  const int piece = self.piece;
+  if (piece == 0 || (window.width <= piece && window.height <= piece && window.x % piece == 0 && window.y % piece == 0)) {
+    self.warp(window, values);
+  } else {
+    for (int y0 = window.y / piece * piece; y0 < window.y + window.height; y0 += piece) {
+      for (int x0 = window.x / piece * piece; x0 < window.x + window.width; x0 += piece) {
+        const int x1 = std::min({x0 + piece, window.x + window.width, self.target.width});
+        const int y1 = std::min({y0 + piece, window.y + window.height, self.target.height});
+        const Window part{std::max(x0, window.x), std::max(y0, window.y), x1 - std::max(x0, window.x),
+                          y1 - std::max(y0, window.y)};
+        self.scratch.resize(static_cast<std::size_t>(part.pixels()));
+        self.warp(part, self.scratch.data());
+        for (int r = 0; r < part.height; ++r)
+          std::copy_n(self.scratch.data() + static_cast<std::ptrdiff_t>(r) * part.width, part.width,
+                      values + static_cast<std::ptrdiff_t>(part.y - window.y + r) * window.width + (part.x - window.x));
+      }
+    }
   }
-  take_gdal_error();  // warnings of the transformer at points outside its domain are not failures
   std::int64_t missing = 0;
   for (std::size_t i = 0; i < count; ++i) {
     bool ok = std::isfinite(values[i]);

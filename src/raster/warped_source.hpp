@@ -17,8 +17,13 @@ class WarpedCovariateSource final : public CovariateSource {
   /// make (GDAL's own default is 0.125; 0 transforms every pixel exactly). Throws InputError
   /// naming the file when it cannot be opened, lacks the band, holds complex numbers, or GDAL
   /// cannot transform between the two grids.
+  /// `pixel_ratio` (target pixel edge / source pixel edge) bounds memory: a window is warped
+  /// in pieces whose source footprint stays under about kSourcePiece x kSourcePiece pixels.
   WarpedCovariateSource(const std::string& path, int band, const RasterGrid& target, Resampling method,
-                        double error_threshold);
+                        double error_threshold, double pixel_ratio = 1.0);
+
+  /// Edge, in source pixels, of the largest source footprint warped at once (8 MiB of doubles).
+  static constexpr int kSourcePiece = 1024;
   ~WarpedCovariateSource() override;
 
   [[nodiscard]] const RasterGrid& grid() const override;

@@ -461,3 +461,25 @@ TEST_CASE("with the approximate transformer bilinear values stay within 0.125 so
   CHECK(compared > exact.size() / 2);
   CHECK(beyond == 0);
 }
+
+// A target 20 source pixels across: each window is warped in pieces of 51 target pixels (1024 / 20)
+// so that no source read exceeds about 1024 x 1024 pixels; average and mode do not depend on the
+// pieces, so the result is still gdalwarp's, bit for bit.
+TEST_CASE("a much coarser target is warped in pieces with the same values as gdalwarp", "[raster][align]") {
+  TempFolder folder;
+  const RasterGrid source = target_grid(32630, 500000, 4650000, 30, 1200, 1100);
+  const std::string climate = folder.file("fine.tif");
+  const std::string classes = folder.file("fine_classes.tif");
+  write_continuous(climate, source);
+  write_classes(classes, source);
+  const RasterGrid coarse = target_grid(32630, 500000, 4650000, 600, 60, 55);
+  auto piecewise = [&](const std::string& path, Resampling m) {
+    habcast::WarpedCovariateSource warped(path, 1, coarse, m, 0.0, 20.0);
+    std::vector<double> values(pixels(coarse));
+    std::vector<std::uint8_t> valid(values.size(), 1);
+    warped.read(Window{0, 0, coarse.width, coarse.height}, values.data(), valid.data());
+    return values;
+  };
+  check_identical(piecewise(climate, Resampling::average), gdalwarp(climate, coarse, Resampling::average));
+  check_identical(piecewise(classes, Resampling::mode), gdalwarp(classes, coarse, Resampling::mode));
+}
