@@ -354,6 +354,13 @@ std::unique_ptr<CovariateSource> open_covariate_source(const AlignmentPlan& plan
 std::vector<std::string> alignment_warnings(const AlignmentPlan& plan, const std::vector<std::int64_t>& missing,
                                             std::int64_t total) {
   std::vector<std::string> warnings;
+  for (const AlignedCovariate& c : plan.covariates) {
+    if (c.warped && c.pixel_ratio > 0.0 && c.pixel_ratio <= 1.0 / kCoarseningRatio)
+      warnings.push_back("covariate " + c.input.name + " (" + c.input.path + ") has pixels about " +
+                         significant(1.0 / c.pixel_ratio, 2) + " times as wide as the target grid's and was " +
+                         to_string(c.resampling) + "-resampled onto it: that adds no detail, so along " + c.input.name +
+                         "'s gradients the map is no sharper than its " + resolution_text(c.source) + " pixels.");
+  }
   for (std::size_t i = 0; i < plan.covariates.size(); ++i) {
     const AlignedCovariate& c = plan.covariates[i];
     if (!c.partial) continue;

@@ -91,6 +91,8 @@ TEST_CASE("predict aligns covariates on other grids exactly as gdalwarp would, a
     const std::string out = s.dir.file(std::string("out") + threads);
     std::string err;
     REQUIRE(habcast::test::run_cli({"predict", s.model, "-o", out, "--threads", threads, "--block-size", "16", "-q"}, nullptr, &err) == 0);
+    // The caution that resampling a coarse covariate adds no detail (temp: about 450 m onto 100 m).
+    CHECK_THAT(err, Contains("covariate temp") && Contains("times as wide as the target grid's") && Contains("adds no detail"));
     const std::string bytes = habcast::test::read_text(out + "/suitability.tif");
     if (first_bytes.empty()) first_bytes.push_back(bytes);
     INFO("threads " << threads);
