@@ -23,16 +23,20 @@ constexpr const char* kEvaluateHelp =
     "(--crs; default the layer's own, else EPSG:4326 with longitude in x).\n\n"
     "Presence-absence (--response COLUMN with 0/1):\n"
     "  AUC    chance that a random presence scores above a random absence (0.5 = no skill), with its\n"
-    "         standard error (Hanley & McNeil 1982) and a 95% interval\n"
+    "         standard error (Hanley & McNeil 1982) and a normal 95% interval, clipped to [0, 1]\n"
     "  TSS    sensitivity + specificity - 1 at the threshold that maximises it (and at --threshold)\n"
     "  calibration  observed share of presences against the mean prediction in --bins bins\n"
     "Presence-only (--presence-only): every point is a presence; --background points are drawn\n"
-    "  uniformly from the grid's valid pixels with --seed (same seed, same points). AUC then compares\n"
+    "  uniformly from the grid's pixels by SplitMix64 from --seed (same seed, same points on every\n"
+    "  machine; draws on nodata are skipped; --write-background saves them). AUC then compares\n"
     "  presences with background, and the continuous Boyce index (Hirzel et al. 2006) says whether\n"
     "  presences fall more often than expected where predictions are high (-1 to 1).\n\n"
     "Outputs: a text summary (or --json), --svg FILE.svg with the ROC curve and the calibration or\n"
     "Boyce curve, --write-binary FILE.tif with 1 where the prediction reaches the threshold\n"
-    "(--threshold, else the TSS-maximising one; the rule is stored in the file's metadata).\n\n"
+    "(--threshold, strictly between 0 and 1 for probabilities; else the TSS-maximising one; the rule\n"
+    "is stored in the file's metadata). --json lists every point not used and why, and the Boyce curve.\n"
+    "With --model, covariates are read at the points as the model file's [training] sampling says.\n"
+    "Points in the same pixel as a training site of the model are counted and warned about.\n\n"
     "Examples:\n"
     "  habcast evaluate --prediction out/suitability.tif survey2027.csv --crs EPSG:32630 --response presence\n"
     "  habcast evaluate --model model.toml sightings.gpkg --presence-only --background 20000 --seed 7 \\\n"
@@ -92,9 +96,11 @@ void register_evaluate(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--y", o.points.y_column, "CSV column of the y coordinate")->default_val("y");
   cmd->add_option("--layer", o.points.layer, "Layer of a multi-layer vector source");
   cmd->add_option("--svg", o.svg_path, "Write the ROC curve and the calibration (or Boyce) plot as SVG");
+  cmd->add_option("--write-background", o.background_path,
+                  "Write the background points drawn (presence-only) as CSV: draw, row, column, x, y, prediction");
   cmd->add_option("--write-binary", o.binary_path, "Write a 0/1 GeoTIFF thresholded at --threshold or the max-TSS threshold");
   cmd->add_flag("--json", args->json, "Print every number as JSON instead of text");
-  cmd->add_flag("--overwrite", o.overwrite, "Replace existing --svg and --write-binary files");
+  cmd->add_flag("--overwrite", o.overwrite, "Replace existing --svg, --write-binary and --write-background files");
   add_alignment_options(*cmd, args->alignment);
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_evaluate_command(*args, out, err); });
 }

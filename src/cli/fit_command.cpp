@@ -25,8 +25,14 @@ constexpr const char* kFitHelp =
     "     are reported.\n"
     "  3. Continuous covariates are standardised (mean 0, sd 1 at the points) unless --no-standardise;\n"
     "     the centre and scale go into the model file, so predict applies them to the rasters.\n"
-    "  4. The model is fitted by iteratively reweighted least squares, as R's glm() does. Aliased\n"
-    "     terms, separated data and non-convergence stop the fit with a message saying what to change.\n\n"
+    "  4. The model is fitted by iteratively reweighted least squares with R's glm() defaults: it stops\n"
+    "     when |dev - dev_old| / (|dev| + 0.1) < 1e-8 (at most --max-iterations, default 25), and\n"
+    "     standard errors use the last iteration's weights, as vcov() does. --tight fits to 1e-10 and\n"
+    "     takes the standard errors at the estimate itself. Aliased terms, separated data and\n"
+    "     non-convergence stop the fit with a message saying what to change.\n\n"
+    "A raster with a category table or attribute table must be declared --categorical (or\n"
+    "--continuous if its values are measurements). Classes of a categorical raster without training\n"
+    "points are named: predict gives their pixels no prediction.\n\n"
     "Formula: terms joined by '+', in the usual notation: x, x^2, a:b, log(x), I(x^2); a categorical\n"
     "covariate (--categorical) adds one indicator per class other than its reference class; \"- 1\"\n"
     "drops the intercept. \"presence ~ ...\" names the response column.\n\n"
@@ -38,12 +44,17 @@ constexpr const char* kFitHelp =
     "      -o out/moth.toml\n"
     "  habcast fit counts.gpkg --layer plots --family poisson --offset \"log(effort)\" --prediction-offset 0 \\\n"
     "      -c tmin=tmin.tif --formula \"count ~ tmin + tmin^2\" -o counts.toml\n\n"
-    "Exit codes: 0 ok, 2 usage, 3 bad input (points, rasters, a model that cannot be fitted), 4 I/O.";
+    "Exit codes: 0 ok, 2 usage, 3 bad input (points, rasters, a model that cannot be fitted, class codes\n"
+    "not declared categorical, projected coordinates read as longitude/latitude), 4 I/O.";
 
 struct FitArgs {
   FitOptions options;
   std::vector<std::string> covariates;
   std::vector<std::string> categorical;
+  std::vector<std::string> continuous;
+  bool tight = false;
+  bool json = false;
+  int max_iterations = 0;  ///< 0: the convention's own limit
   std::vector<std::string> transforms;
   std::vector<std::string> references;
   std::string family = "binomial";
@@ -88,6 +99,9 @@ int run_fit_command(FitArgs& args, std::ostream& out, std::ostream& err) {
     if (!o.covariate_rasters.emplace(name, path).second) throw UsageError("-c " + name + "=... is given twice");
   }
   for (const std::string& name : args.categorical) o.categorical.insert(name);
+  for (const std::string& name : args.continuous) o.continuous.insert(name);
+  if (args.tight) o.irls = IrlsOptions::tight();
+  if (args.max_iterations > 0) o.irls.max_iterations = args.max_iterations;
   for (const std::string& item : args.transforms) {
     const auto [name, t] = split_pair(item, "--transform", "precip=log");
     o.transforms[name] = transform_of(t, item);
@@ -111,7 +125,8 @@ int run_fit_command(FitArgs& args, std::ostream& out, std::ostream& err) {
 
   o.alignment = alignment_options(args.alignment);
   const FitSummary summary = run_fit(o, HABCAST_VERSION);
-  out << format_fit_summary(summary);
+  if (args.json) out << fit_report_json(summary).dump(2) << "\n";
+  else out << format_fit_summary(summary);
   for (const std::string& w : summary.warnings) err << "habcast: warning: " << w << "\n";
   return 0;
 }
@@ -139,6 +154,8 @@ void register_fit(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--link", args->link, "logit, probit, cloglog, log or identity (default: the family's usual link)")
       ->check(CLI::IsMember({"logit", "probit", "cloglog", "log", "identity"}));
   cmd->add_option("--categorical", args->categorical, "NAME: a covariate whose raster holds class codes (repeatable)");
+  cmd->add_option("--continuous", args->continuous,
+                  "NAME: fit this covariate as a number although its raster has a category table (repeatable)");
   cmd->add_option("--reference", args->references, "NAME=LEVEL: reference class of a categorical covariate (default: lowest code)");
   cmd->add_option("--transform", args->transforms, "NAME=log|log1p|sqrt: transform a covariate before standardising");
   cmd->add_flag("--standardise,!--no-standardise", o.standardise,
@@ -153,7 +170,11 @@ void register_fit(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--prediction-offset", args->prediction_offset,
                   "Offset written to the model for predict (link scale), e.g. log of a standard effort");
   cmd->add_option("--name", o.name, "Model name recorded in the file and in outputs' metadata");
-  cmd->add_option("--max-iterations", o.irls.max_iterations, "IRLS iteration limit")->default_val(50)->check(CLI::Range(1, 10000));
+  cmd->add_option("--max-iterations", args->max_iterations, "IRLS iteration limit (default 25 as R's glm(), 50 with --tight)")
+      ->check(CLI::Range(1, 10000));
+  cmd->add_flag("--tight", args->tight,
+                "Fit to a relative deviance change of 1e-10 (R's default: 1e-8) and take standard errors at the estimate");
+  cmd->add_flag("--json", args->json, "Print the report as JSON, listing every point not used and why");
   cmd->add_flag("--overwrite", o.overwrite, "Replace an existing model file and samples table");
   add_alignment_options(*cmd, args->alignment);
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_fit_command(*args, out, err); });

@@ -24,6 +24,7 @@ struct EvaluateOptions {
   int bins = 10;                   ///< calibration bins over [0, 1]
   double boyce_width = 0.1;        ///< Boyce window width, share of the prediction range
   std::string svg_path;
+  std::string background_path;     ///< CSV of the background points drawn (presence-only)
   std::string binary_path;
   bool overwrite = false;
   AlignmentOptions alignment;      ///< target grid and resampling for --model's covariates (docs/alignment.md)

@@ -23,6 +23,9 @@ EvaluateSummary run_evaluate(const EvaluateOptions& options, const std::string& 
 /// SplitMix64 from `seed` (a fixed, fully specified generator, so a seed gives the same points on
 /// every platform), keeping only pixels whose score is not nodata.
 struct BackgroundSample {
+  std::vector<std::int64_t> draw;  ///< 1-based number of the draw that gave each point
+  std::vector<std::int64_t> row;
+  std::vector<std::int64_t> column;
   std::vector<double> x;
   std::vector<double> y;
   std::vector<double> scores;

@@ -1,7 +1,10 @@
 #include "evaluate/score_source.hpp"
 
+#include <gdal_priv.h>
+
 #include <cmath>
 #include <limits>
+#include <optional>
 
 #include "core/base/error.hpp"
 #include "core/model/evaluator.hpp"
@@ -9,6 +12,7 @@
 #include "core/model/term_plan.hpp"
 #include "core/prediction/block_predictor.hpp"
 #include "raster/covariate_reader.hpp"
+#include "raster/gdal_handles.hpp"
 
 namespace habcast {
 
@@ -18,7 +22,20 @@ constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 class RasterScores final : public ScoreSource {
  public:
-  explicit RasterScores(const std::string& path) : path_(path), grid_(read_grid(path, 1)), reader_(path, 1) {}
+  explicit RasterScores(const std::string& path) : path_(path), grid_(read_grid(path, 1)), reader_(path, 1) {
+    // predict records its model file; if it is still there, its training table can be checked.
+    const DatasetPtr ds = open_input_raster(path);
+    const char* model = ds->GetMetadataItem("HABCAST_MODEL");
+    if (model && *model) {
+      try {
+        model_ = read_model_file(model);
+      } catch (const Error&) {
+        model_.reset();  // moved or changed since predict: the check is skipped, and the report says so
+      }
+    }
+  }
+  const ModelSpec* model() const override { return model_ ? &*model_ : nullptr; }
+  PointSampling sampling() const override { return PointSampling::pixel; }
   const RasterGrid& grid() const override { return grid_; }
   std::string describe() const override { return path_; }
   std::vector<double> at_points(const std::vector<double>& x, const std::vector<double>& y,
@@ -41,6 +58,7 @@ class RasterScores final : public ScoreSource {
   std::string path_;
   RasterGrid grid_;
   CovariateReader reader_;
+  std::optional<ModelSpec> model_;
 };
 
 class ModelScores final : public ScoreSource {
@@ -70,12 +88,15 @@ class ModelScores final : public ScoreSource {
   std::string describe() const override {
     std::size_t warped = 0;
     for (const AlignedCovariate& c : alignment_.covariates) warped += c.warped ? 1 : 0;
-    return spec_.path + " applied to " + std::to_string(inputs_.size()) + " covariate raster(s)" +
+    return spec_.path + " applied to " + std::to_string(inputs_.size()) + " covariate raster" + (inputs_.size() == 1 ? "" : "s") +
            (warped > 0 ? " (" + std::to_string(warped) + " aligned by GDAL's warper onto " + alignment_.target_rule + ")" : "");
   }
+  const ModelSpec* model() const override { return &spec_; }
+  PointSampling sampling() const override { return spec_.sampling; }
   std::vector<double> at_points(const std::vector<double>& x, const std::vector<double>& y,
                                 const std::vector<std::uint8_t>& transformed, SampledPoints* status) override {
-    SampledPoints s = sample_points(grid_, inputs_, readers_, x, y, transformed, false);
+    // The model's own sampling rule, so evaluate reads covariates at points exactly as fit did.
+    SampledPoints s = sample_points(grid_, inputs_, readers_, x, y, transformed, spec_.sampling == PointSampling::bilinear);
     std::vector<std::uint8_t> valid(x.size());
     for (std::size_t i = 0; i < x.size(); ++i) valid[i] = s.status[i] == PointStatus::ok;
     std::vector<double> out = predict(s.raw, valid);

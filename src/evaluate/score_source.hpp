@@ -6,6 +6,7 @@
 #include <string>
 #include <vector>
 
+#include "core/model/model_spec.hpp"
 #include "raster/alignment_plan.hpp"
 #include "raster/point_sampler.hpp"
 #include "raster/raster_grid.hpp"
@@ -32,6 +33,13 @@ class ScoreSource {
                                         const std::vector<std::uint8_t>& transformed, SampledPoints* status) = 0;
   /// Scores of a window, row-major; NaN for nodata.
   virtual void read(const Window& window, std::vector<double>& scores) = 0;
+  /// The model behind the scores: --model's, or the file a prediction raster names in its
+  /// HABCAST_MODEL metadata when that file can be read; nullptr otherwise.
+  [[nodiscard]] virtual const ModelSpec* model() const = 0;
+  /// How at_points() reads its rasters: a model's recorded [training] sampling, or the containing
+  /// pixel of a prediction raster (interpolating predictions is not predicting at interpolated
+  /// covariates).
+  [[nodiscard]] virtual PointSampling sampling() const = 0;
 };
 
 }  // namespace habcast

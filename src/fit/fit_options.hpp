@@ -21,6 +21,7 @@ struct FitOptions {
   std::optional<double> prediction_offset;   ///< offset written to the model file for predict
   std::map<std::string, std::string> covariate_rasters;  ///< NAME -> FILE
   std::set<std::string> categorical;         ///< covariates whose rasters hold class codes
+  std::set<std::string> continuous;          ///< declared continuous on purpose, despite a category table
   std::map<std::string, Transform> transforms;
   std::map<std::string, std::string> reference_levels;   ///< NAME -> level name or code
   std::string formula;
@@ -32,7 +33,7 @@ struct FitOptions {
   std::string samples_path;                  ///< empty: MODEL-STEM-training.csv beside the model
   std::string name;
   bool overwrite = false;
-  IrlsOptions irls;
+  IrlsOptions irls;                          ///< default: R's glm() stopping rule and vcov()
   /// Target grid the points are sampled on, and resampling of covariates not on it
   /// (docs/alignment.md); a --resampling choice is written into the model for predict.
   AlignmentOptions alignment;

@@ -19,6 +19,7 @@
 #include "core/model/model_writer.hpp"
 #include "pipeline/atomic_file.hpp"
 #include "pipeline/output_guard.hpp"
+#include "raster/band_profile.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/alignment_plan.hpp"
 #include "raster/point_sampler.hpp"
@@ -77,7 +78,117 @@ std::vector<SamplingInput> select_inputs(const FitOptions& o, std::vector<std::s
       warnings.push_back("covariate \"" + name + "\" (" + path + ") is not in the formula and is left out of the model");
   for (const std::string& name : o.categorical)
     if (!o.covariate_rasters.count(name)) throw UsageError("--categorical " + name + ": no -c " + name + "=FILE is given");
+  for (const std::string& name : o.continuous) {
+    if (!o.covariate_rasters.count(name)) throw UsageError("--continuous " + name + ": no -c " + name + "=FILE is given");
+    if (o.categorical.count(name))
+      throw UsageError("\"" + name + "\" is declared both --categorical and --continuous; give one of them");
+  }
   return inputs;
+}
+
+/// Class codes are not measurements: a raster that names its classes (a category table or a
+/// raster attribute table) is refused as a continuous covariate unless --continuous says so.
+void refuse_undeclared_classes(const FitOptions& o, const std::vector<SamplingInput>& inputs) {
+  for (const SamplingInput& in : inputs) {
+    if (in.categorical || o.continuous.count(in.name)) continue;
+    const BandProfile profile = profile_band(in.path, in.band);
+    if (!profile.declares_classes()) continue;
+    std::string what;
+    if (!profile.category_names.empty()) {
+      what = "a category table (";
+      int shown = 0;
+      for (const auto& [code, name] : profile.category_names) {
+        if (shown++ == 4) {
+          what += ", ...";
+          break;
+        }
+        what += (shown > 1 ? ", " : "") + std::to_string(code) + " = " + name;
+      }
+      what += ")";
+    } else {
+      what = "a raster attribute table";
+    }
+    throw InputError(in.path + ": covariate \"" + in.name + "\" has " + what + ", so its values look like class codes, but it "
+                     "is not declared categorical; fitted as a number it would get one slope across arbitrary codes. Add "
+                     "--categorical " + in.name + " (one indicator term per class), or --continuous " + in.name +
+                     " if its values really are measurements");
+  }
+}
+
+/// An integer raster with few distinct values at the points is probably class codes; it is fitted
+/// as continuous (nothing declares it otherwise), with a warning. Ten or fewer distinct values:
+/// common practice, no source.
+void warn_integer_codes(const FitOptions& o, const std::vector<SamplingInput>& inputs, const Eigen::ArrayXXd& raw,
+                        const std::vector<std::uint8_t>& use, std::vector<std::string>& warnings) {
+  constexpr std::size_t kFewValues = 10;
+  for (std::size_t k = 0; k < inputs.size(); ++k) {
+    const SamplingInput& in = inputs[k];
+    if (in.categorical || o.continuous.count(in.name)) continue;
+    const BandProfile profile = profile_band(in.path, in.band);
+    if (!profile.integer_type) continue;
+    std::set<double> values;
+    for (Eigen::Index i = 0; i < raw.rows() && values.size() <= kFewValues; ++i)
+      if (use[static_cast<std::size_t>(i)]) values.insert(raw(i, static_cast<Eigen::Index>(k)));
+    if (values.size() < 2 || values.size() > kFewValues) continue;
+    std::string list;
+    for (double v : values) list += (list.empty() ? "" : ", ") + significant(v, 10);
+    warnings.push_back("covariate \"" + in.name + "\" (" + in.path + ", " + profile.data_type + ") takes only " +
+                       std::to_string(values.size()) + " distinct whole values at the points (" + list +
+                       ") and is fitted as a number with one slope; if these are class codes, refit with --categorical " +
+                       in.name + " (give --continuous " + in.name + " to confirm it is a measurement and silence this)");
+  }
+}
+
+/// Classes of categorical rasters that no training point falls in: named in the raster's
+/// category table, or present in its pixels (counted block by block).
+std::vector<UntrainedClass> untrained_classes(const std::vector<SamplingInput>& inputs, const ModelSpec& spec) {
+  std::vector<UntrainedClass> out;
+  for (const SamplingInput& in : inputs) {
+    if (!in.categorical) continue;
+    const Covariate& cov = spec.covariates[static_cast<std::size_t>(spec.covariate_index(in.name))];
+    std::set<std::int64_t> trained;
+    for (const Level& l : cov.levels) trained.insert(l.code);
+    const BandProfile profile = profile_band(in.path, in.band);
+    const ClassCensus census = count_classes(in.path, in.band);
+    std::set<std::int64_t> codes;
+    for (const auto& [code, name] : profile.category_names) codes.insert(code);
+    for (const auto& [code, n] : census.pixels) codes.insert(code);
+    for (std::int64_t code : codes) {
+      if (trained.count(code)) continue;
+      UntrainedClass u;
+      u.covariate = in.name;
+      u.code = code;
+      const auto name = profile.category_names.find(code);
+      u.name = name != profile.category_names.end() ? name->second : std::to_string(code);
+      const auto count = census.pixels.find(code);
+      u.pixels = count != census.pixels.end() ? count->second : 0;
+      u.share = census.valid_pixels > 0 ? static_cast<double>(u.pixels) / static_cast<double>(census.valid_pixels) : 0.0;
+      out.push_back(u);
+    }
+  }
+  return out;
+}
+
+std::string untrained_warning(const std::vector<UntrainedClass>& classes, const std::vector<SamplingInput>& inputs) {
+  std::string text;
+  for (const SamplingInput& in : inputs) {
+    std::string list;
+    double share = 0.0;
+    int count = 0;
+    for (const UntrainedClass& u : classes) {
+      if (u.covariate != in.name) continue;
+      list += (list.empty() ? "" : ", ") + (u.name == std::to_string(u.code) ? "code " + u.name : u.name + " (code " + std::to_string(u.code) + ")") +
+              " " + significant(100.0 * u.share, 3) + " %";
+      share += u.share;
+      ++count;
+    }
+    if (list.empty()) continue;
+    text += (text.empty() ? "" : "; ") + ("covariate \"" + in.name + "\" (" + in.path + ") has classes without a training point: " +
+                                          list + " of the raster's valid pixels" +
+                                          (count > 1 ? " (" + significant(100.0 * share, 3) + " % in all)" : std::string()));
+  }
+  return text + ". The model has no coefficient for them: predict gives their pixels no prediction (nodata) and flags "
+                "them as an unseen category in extrapolation.tif. Add training points in those classes, or mask them out";
 }
 
 /// The grid the points are sampled on and how each covariate reaches it, as in predict.
@@ -88,15 +199,18 @@ AlignmentPlan plan_sampling(const std::vector<SamplingInput>& inputs, const Alig
 }
 
 /// Explains why no point could be used; the most common cause (a wrong CRS) gets its own hint.
-[[noreturn]] void no_valid_points(const FitOptions& o, const PointCounts& c, const RasterGrid& grid,
-                                  const std::vector<double>& x, const std::vector<double>& y, const std::string& crs_name) {
+[[noreturn]] void no_valid_points(const FitOptions& o, const PointCounts& c, const RasterGrid& grid, const std::vector<double>& x,
+                                  const std::vector<double>& y, const std::vector<std::uint8_t>& transformed,
+                                  const std::string& crs_name) {
   std::ostringstream os;
   os << o.points.path << ": none of the " << c.total << " points can be used: " << c.outside << " outside the raster grid, "
      << c.nodata << " on nodata, " << c.not_transformed << " not transformable, " << c.missing_response
      << " without a response (or weight/offset), " << c.unusable << " with a value no term can take.";
-  if (c.outside + c.not_transformed == c.total) {
+  if (c.outside + c.not_transformed == c.total && c.outside > 0) {
+    // The extent of the points PROJ could place (the others have no coordinates in the grid's CRS).
     double xmin = std::numeric_limits<double>::infinity(), xmax = -xmin, ymin = xmin, ymax = -xmin;
     for (std::size_t i = 0; i < x.size(); ++i) {
+      if (!transformed[i]) continue;
       xmin = std::min(xmin, x[i]);
       xmax = std::max(xmax, x[i]);
       ymin = std::min(ymin, y[i]);
@@ -223,6 +337,7 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   const RasterGrid& grid = alignment.target;
   std::vector<std::unique_ptr<CovariateSource>> sources;
   for (std::size_t k = 0; k < inputs.size(); ++k) sources.push_back(open_covariate_source(alignment, k));
+  refuse_undeclared_classes(options, inputs);
 
   // Response: the option, or the formula's left-hand side.
   std::string response = options.response;
@@ -259,6 +374,10 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
                                                              : std::string(kDefaultCrs);
   const PointTransformer transformer(source_crs, grid.crs_wkt, options.points.path);
   summary.points_crs_name = transformer.source_name();
+  transformer.refuse_impossible_lonlat(points.x, points.y, points.where, options.points.path,
+                                       !options.points_crs.empty() ? "given with --crs"
+                                       : !points.crs_wkt.empty()   ? "declared by the points file"
+                                                                   : std::string("the default for a CSV without --crs"));
   std::vector<std::uint8_t> transformed;
   transformer.transform(points.x, points.y, transformed);
 
@@ -270,12 +389,21 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
       off = Eigen::VectorXd::Zero(static_cast<Eigen::Index>(n));
   for (std::size_t i = 0; i < n; ++i) {
     switch (sampled.status[i]) {
-      case PointStatus::not_transformed: ++c.not_transformed; continue;
-      case PointStatus::outside: ++c.outside; continue;
-      case PointStatus::nodata:
-        ++c.nodata;
-        ++c.nodata_by_covariate[inputs[static_cast<std::size_t>(sampled.nodata_input[i])].name];
+      case PointStatus::not_transformed:
+        ++c.not_transformed;
+        c.dropped.push_back({points.where[i], "PROJ cannot transform it into the rasters' CRS"});
         continue;
+      case PointStatus::outside:
+        ++c.outside;
+        c.dropped.push_back({points.where[i], "outside the raster grid"});
+        continue;
+      case PointStatus::nodata: {
+        const std::string& name = inputs[static_cast<std::size_t>(sampled.nodata_input[i])].name;
+        ++c.nodata;
+        ++c.nodata_by_covariate[name];
+        c.dropped.push_back({points.where[i], "nodata in covariate \"" + name + "\""});
+        continue;
+      }
       case PointStatus::ok: break;
     }
     const auto r = static_cast<Eigen::Index>(i);
@@ -291,6 +419,9 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
     }
     if (std::isnan(y[r]) || std::isnan(w[r]) || std::isnan(off[r])) {
       ++c.missing_response;
+      c.dropped.push_back({points.where[i], std::isnan(y[r]) ? "no value in the response column \"" + response + "\""
+                                            : std::isnan(w[r]) ? "no value in the weights column \"" + options.weights_column + "\""
+                                                               : "no value in the offset column \"" + offset->column + "\""});
       continue;
     }
     use[i] = 1;
@@ -319,10 +450,18 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
       if (use[i] && !design.usable[i]) {
         use[i] = 0;
         ++c.unusable;
+        c.dropped.push_back({points.where[i], "a term or transform is undefined at its covariate values"});
       }
+    // Reasons were recorded in two passes; list them in file order.
+    std::map<std::string, std::size_t> order;
+    for (std::size_t i = 0; i < n; ++i) order.emplace(points.where[i], i);
+    std::stable_sort(c.dropped.begin(), c.dropped.end(),
+                     [&](const DroppedPoint& a, const DroppedPoint& b) { return order[a.where] < order[b.where]; });
   }
   c.used = std::count(use.begin(), use.end(), 1);
-  if (c.used == 0) no_valid_points(options, c, grid, points.x, points.y, summary.points_crs_name);
+  if (c.used == 0) no_valid_points(options, c, grid, points.x, points.y, transformed, summary.points_crs_name);
+  warn_integer_codes(options, inputs, sampled.raw, use, summary.warnings);
+  summary.untrained_classes = untrained_classes(inputs, spec);
   count_shared_pixels(sampled.pixel, use, points.where, grid, c);
 
   // The fitting problem over the used points only.
@@ -339,18 +478,16 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   p.intercept_column = spec.terms.front() == "(Intercept)" ? 0 : -1;
   p.family = spec.family;
   p.link = spec.link;
+  for (Eigen::Index r : rows) p.observation_labels.push_back(points.where[static_cast<std::size_t>(r)]);
   try {
     summary.fit = fit_glm(p, options.irls);
   } catch (const InputError& e) {
-    std::string msg = e.what();
-    // Observation numbers inside the fit are positions among the used points; name the source.
-    const std::string key = "observation ";
-    if (msg.rfind(key, 0) == 0) {
-      const std::size_t colon = msg.find(':');
-      const long k = std::stol(msg.substr(key.size(), colon - key.size()));
-      msg = points.where[static_cast<std::size_t>(rows[static_cast<std::size_t>(k - 1)])] + ":" + msg.substr(colon + 1);
-      throw InputError(msg + " (column \"" + response + "\")");
-    }
+    const std::string msg = e.what();
+    // The fit names observations by their labels ("points.csv:17: ..."); a message about one
+    // point's response also names the column.
+    for (Eigen::Index r : rows)
+      if (const std::string& label = points.where[static_cast<std::size_t>(r)]; msg.rfind(label + ":", 0) == 0)
+        throw InputError(msg + " (column \"" + response + "\")");
     throw InputError(options.points.path + ": " + msg);
   }
 
@@ -362,9 +499,12 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   spec.aic = fit.aic;
   spec.observations = m;
   spec.training_samples = summary.samples_path;
+  spec.sampling = options.bilinear ? PointSampling::bilinear : PointSampling::pixel;
   if (options.prediction_offset) spec.offset_constant = *options.prediction_offset;
   spec.description = "Fitted by habcast fit " + tool_version + " on " + utc_now() + " from " + options.points.path + ": " +
-                     options.formula + " (" + std::to_string(fit.iterations) + " IRLS iterations" +
+                     options.formula + " (" + std::to_string(fit.iterations) + " IRLS iterations, " +
+                     (fit.covariance_weights == CovarianceWeights::last_iteration ? "R's default glm() stopping rule"
+                                                                                   : "tight fit (--tight)") +
                      (offset ? "; fitted with offset " + options.offset +
                                    (options.prediction_offset ? ", predictions use offset " + significant(*options.prediction_offset, 6)
                                                               : ", predictions use offset 0")
@@ -389,7 +529,8 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
       "Written by habcast fit " + tool_version + " on " + utc_now() + ".",
       "Points: " + options.points.path + " (CRS " + summary.points_crs_name + "); x, y in the rasters' CRS (" +
           grid.crs_name + ").",
-      std::string("Covariate values sampled at ") + (options.bilinear ? "bilinear interpolation" : "the containing pixel") +
+      std::string("Covariate values taken ") +
+          (options.bilinear ? "by bilinear interpolation between the 4 nearest pixel centres" : "from the pixel containing each point") +
           ", in raster units; categorical columns hold class codes."};
   fs::create_directories(fs::absolute(fs::path(summary.model_path)).parent_path());
   write_file_atomically(summary.samples_path, write_samples_csv(spec, used_raw, leading, labels, provenance));
@@ -398,16 +539,17 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   write_file_atomically(summary.model_path, text);
   summary.spec = std::move(spec);
 
+  if (!summary.untrained_classes.empty()) summary.warnings.push_back(untrained_warning(summary.untrained_classes, inputs));
   if (c.shared_pixels > 0)
-    summary.warnings.push_back(std::to_string(c.points_in_shared) + " points share " + std::to_string(c.shared_pixels) +
-                               " pixels (e.g. " + c.shared_examples.front() +
+    summary.warnings.push_back(std::to_string(c.points_in_shared) + " points share " + count_of(c.shared_pixels, "pixel", "pixels") +
+                               " (e.g. " + c.shared_examples.front() +
                                "); they carry identical covariate values, so the fit counts that place several times");
   if (c.used < c.total)
     summary.warnings.push_back(std::to_string(c.total - c.used) + " of " + std::to_string(c.total) +
-                               " points were not used (see the counts above)");
+                               " points were not used (see the counts above; --json lists each with its reason)");
   if (c.bilinear_fallbacks > 0)
-    summary.warnings.push_back(std::to_string(c.bilinear_fallbacks) +
-                               " points next to nodata or the grid's edge took the containing pixel's value instead "
+    summary.warnings.push_back(count_of(c.bilinear_fallbacks, "point", "points") +
+                               " next to nodata or the grid's edge took the containing pixel's value instead "
                                "of a bilinear interpolation");
   return summary;
 }
@@ -430,9 +572,22 @@ std::string format_fit_summary(const FitSummary& s) {
   if (c.missing_response) os << ", " << c.missing_response << " without response";
   if (c.unusable) os << ", " << c.unusable << " with values no term can take";
   os << ".\n";
+  constexpr std::size_t kShown = 5;
+  if (!c.dropped.empty()) {
+    os << "Not used: ";
+    for (std::size_t k = 0; k < std::min(kShown, c.dropped.size()); ++k)
+      os << (k ? "; " : "") << c.dropped[k].where << " (" << c.dropped[k].reason << ")";
+    if (c.dropped.size() > kShown) os << "; and " << c.dropped.size() - kShown << " more (--json lists them all)";
+    os << ".\n";
+  }
   const GlmFit& f = s.fit;
   os << "Model: " << to_string(s.spec.family) << " GLM, " << to_string(s.spec.link) << " link, " << s.spec.terms.size()
-     << " terms; " << f.iterations << " IRLS iterations.\n";
+     << " terms; " << f.iterations << " IRLS iterations, "
+     << (f.covariance_weights == CovarianceWeights::last_iteration
+             ? "stopped and standard errors as R's glm() by default"
+             : "tight fit: stopped at a relative deviance change below " + significant(f.tolerance, 3) +
+                   ", standard errors at the estimate")
+     << ".\n";
   os << "Deviance " << significant(f.deviance, 8) << " on " << f.df_residual << " df (null " << significant(f.null_deviance, 8) << " on "
      << f.df_null << " df); AIC " << significant(f.aic, 8);
   if (f.dispersion_estimated) os << "; dispersion " << significant(f.dispersion, 6);
@@ -444,6 +599,54 @@ std::string format_fit_summary(const FitSummary& s) {
     os << "\nEstimates are per standard deviation of each covariate (centre and scale are in the model file).\n";
   os << "\nWrote " << s.model_path << " and " << s.samples_path << ".\n";
   return os.str();
+}
+
+std::string count_of(std::int64_t n, const std::string& singular, const std::string& plural) {
+  return std::to_string(n) + " " + (n == 1 ? singular : plural);
+}
+
+nlohmann::ordered_json fit_report_json(const FitSummary& s) {
+  const PointCounts& c = s.counts;
+  const GlmFit& f = s.fit;
+  nlohmann::ordered_json j;
+  nlohmann::ordered_json dropped = nlohmann::ordered_json::array();
+  for (const DroppedPoint& d : c.dropped) dropped.push_back({{"where", d.where}, {"reason", d.reason}});
+  nlohmann::ordered_json nodata = nlohmann::ordered_json::object();
+  for (const auto& [name, count] : c.nodata_by_covariate) nodata[name] = count;
+  j["points"] = {{"crs", s.points_crs_name},       {"read", c.total},
+                 {"used", c.used},                 {"outside_grid", c.outside},
+                 {"on_nodata", c.nodata},          {"on_nodata_by_covariate", nodata},
+                 {"not_transformed", c.not_transformed}, {"missing_response", c.missing_response},
+                 {"unusable", c.unusable},         {"shared_pixels", c.shared_pixels},
+                 {"points_in_shared_pixels", c.points_in_shared}, {"bilinear_fallbacks", c.bilinear_fallbacks},
+                 {"sampling", to_string(s.spec.sampling)}, {"dropped", dropped}};
+  j["model"] = {{"family", to_string(s.spec.family)},
+                {"link", to_string(s.spec.link)},
+                {"iterations", f.iterations},
+                {"stopping_rule", "|dev - dev_old| / (|dev| + 0.1) < " + significant(f.tolerance, 3)},
+                {"covariance", f.covariance_weights == CovarianceWeights::last_iteration
+                                   ? "dispersion x (X'WX)^-1 with the working weights of the last iteration, as R's vcov()"
+                                   : "dispersion x (X'WX)^-1 with the working weights at the estimate"},
+                {"deviance", f.deviance},
+                {"df_residual", f.df_residual},
+                {"null_deviance", f.null_deviance},
+                {"df_null", f.df_null},
+                {"aic", f.aic},
+                {"dispersion", f.dispersion},
+                {"dispersion_estimated", f.dispersion_estimated}};
+  nlohmann::ordered_json table = nlohmann::ordered_json::array();
+  for (const CoefficientRow& r : s.table)
+    table.push_back({{"term", r.term}, {"estimate", r.estimate}, {"std_error", r.std_error},
+                     {f.dispersion_estimated ? "t_value" : "z_value", r.statistic}, {"p_value", r.p_value}});
+  j["coefficients"] = table;
+  nlohmann::ordered_json untrained = nlohmann::ordered_json::array();
+  for (const UntrainedClass& u : s.untrained_classes)
+    untrained.push_back({{"covariate", u.covariate}, {"code", u.code}, {"name", u.name}, {"pixels", u.pixels}, {"share", u.share}});
+  j["untrained_classes"] = untrained;
+  j["model_file"] = s.model_path;
+  j["samples_file"] = s.samples_path;
+  j["warnings"] = s.warnings;
+  return j;
 }
 
 }  // namespace habcast

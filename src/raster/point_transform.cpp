@@ -6,6 +6,7 @@
 #include <limits>
 
 #include "core/base/error.hpp"
+#include "core/base/number_text.hpp"
 #include "raster/gdal_handles.hpp"
 #include "raster/gdal_session.hpp"
 
@@ -48,6 +49,33 @@ PointTransformer::~PointTransformer() = default;
 bool PointTransformer::identity() const { return !impl_->transform; }
 
 const std::string& PointTransformer::source_name() const { return impl_->name; }
+
+bool PointTransformer::source_geographic() const { return impl_->source.IsGeographic(); }
+
+void PointTransformer::refuse_impossible_lonlat(const std::vector<double>& x, const std::vector<double>& y,
+                                                const std::vector<std::string>& where, const std::string& path,
+                                                const std::string& crs_origin) const {
+  if (!source_geographic()) return;
+  std::size_t bad = 0;
+  std::size_t first = x.size();
+  for (std::size_t i = 0; i < x.size(); ++i)
+    if (!(x[i] >= -180.0 && x[i] <= 360.0 && y[i] >= -90.0 && y[i] <= 90.0)) {
+      if (first == x.size()) first = i;
+      ++bad;
+    }
+  if (bad == 0) return;
+  const std::string at = "x " + significant(x[first], 10) + ", y " + significant(y[first], 10);
+  const std::string range = "longitude -180 to 360, latitude -90 to 90";
+  if (bad == x.size())
+    throw InputError(path + ": the points are read as longitude/latitude in " + impl_->name + " (" + crs_origin +
+                     "), but all " + std::to_string(bad) + " lie outside any longitude/latitude (" + range +
+                     "; first: " + where[first] + ", " + at + "). They look projected (eastings and northings, e.g. in "
+                     "metres). Give their CRS with --crs, e.g. --crs EPSG:32630 for UTM zone 30N");
+  throw InputError(where[first] + ": " + at + " lies outside any longitude/latitude (" + range + "), though the points are "
+                   "read as longitude/latitude in " + impl_->name + " (" + crs_origin + "); " + std::to_string(bad) + " of " +
+                   std::to_string(x.size()) + " points do. Fix those lines, or give the points' CRS with --crs if the file "
+                   "holds projected coordinates");
+}
 
 std::size_t PointTransformer::transform(std::vector<double>& x, std::vector<double>& y, std::vector<std::uint8_t>& ok) const {
   ok.assign(x.size(), 1);

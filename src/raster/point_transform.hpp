@@ -23,6 +23,17 @@ class PointTransformer {
   [[nodiscard]] bool identity() const;
   /// Short name of the source CRS, e.g. "WGS 84".
   [[nodiscard]] const std::string& source_name() const;
+  /// True when the source CRS is longitude/latitude.
+  [[nodiscard]] bool source_geographic() const;
+
+  /// For a longitude/latitude source CRS: throws InputError when a point lies outside any valid
+  /// longitude (-180 to 360, so 0-360 data pass) or latitude (-90 to 90). When all points do, the
+  /// message says they look projected and that --crs sets their CRS; otherwise it names the first
+  /// such line. `crs_origin` says where the CRS came from ("given with --crs", ...). Coordinates
+  /// are those of the file, before transform().
+  void refuse_impossible_lonlat(const std::vector<double>& x, const std::vector<double>& y,
+                                const std::vector<std::string>& where, const std::string& path,
+                                const std::string& crs_origin) const;
 
   /// Transforms in place; ok[i] = 0 where PROJ cannot transform the point (left unchanged).
   /// Returns the number of failures.

@@ -38,6 +38,18 @@ inline ReferenceCase load_reference_case(const std::string& name) {
   return c;
 }
 
+/// The same case fitted by R's glm() with its default control (tests/reference/glm_default_control.R):
+/// coefficients in `coefficients`, and deviance, null_deviance, aic, dispersion, iterations.
+inline ReferenceCase load_r_default_case(const std::string& name) {
+  ReferenceCase c{read_csv_table(reference_path("glm/" + name + "_data.csv")), {}, {}};
+  const CsvTable co = read_csv_table(reference_path("glm/" + name + "_rdefault_coefficients.csv"));
+  for (std::size_t r = 0; r < co.rows.size(); ++r)
+    c.coefficients[co.rows[r][0]] = {co.number(r, 1), co.number(r, 2), co.number(r, 3), co.number(r, 4)};
+  const CsvTable st = read_csv_table(reference_path("glm/" + name + "_rdefault_statistics.csv"));
+  for (std::size_t r = 0; r < st.rows.size(); ++r) c.statistics[st.rows[r][0]] = st.number(r, 1);
+  return c;
+}
+
 inline Covariate continuous(const std::string& name) {
   Covariate c;
   c.name = name;

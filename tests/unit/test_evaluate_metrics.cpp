@@ -63,7 +63,22 @@ TEST_CASE("The AUC standard error reproduces Hanley & McNeil's worked example", 
   CHECK(d.absences == 58);
   CHECK(std::fabs(d.auc - 0.893) < 0.0005);
   CHECK(std::fabs(d.auc_se - 0.032) < 0.0005);
-  CHECK(d.auc_lower == Approx(d.auc - 1.96 * d.auc_se));
+  // The interval uses the exact normal quantile: R's qnorm(0.975) = 1.959963984540054, not 1.96
+  // (at 1e-12 the rounded value fails: it moves the limit by 1.2e-6).
+  CHECK(d.auc_lower == Approx(d.auc - 1.959963984540054 * d.auc_se).epsilon(1e-12));
+  CHECK(d.auc_upper == Approx(d.auc + 1.959963984540054 * d.auc_se).epsilon(1e-12));
+}
+
+TEST_CASE("The AUC interval is clipped at 1 when the normal interval passes it", "[evaluate]") {
+  // 5 presences, 5 absences, one absence above one presence: AUC = 24/25 = 0.96 (Mann-Whitney by
+  // hand); Hanley & McNeil's SE with n = 5 is large enough that 0.96 + 1.96 SE > 1.
+  const std::vector<double> scores{0.9, 0.8, 0.7, 0.6, 0.45, 0.5, 0.4, 0.35, 0.2, 0.1};
+  const std::vector<std::uint8_t> observed{1, 1, 1, 1, 1, 0, 0, 0, 0, 0};
+  const Discrimination d = discriminate(scores, observed);
+  CHECK(d.auc == Approx(0.96).epsilon(1e-15));
+  REQUIRE(d.auc + 1.959963984540054 * d.auc_se > 1.0);
+  CHECK(d.auc_upper == 1.0);
+  CHECK(d.auc_lower == Approx(d.auc - 1.959963984540054 * d.auc_se).epsilon(1e-12));
 }
 
 TEST_CASE("Sensitivity, specificity and the TSS-maximising threshold match a hand count", "[evaluate]") {

@@ -111,7 +111,14 @@ void read_training_section(const toml::table& root, ModelSpec& spec) {
     spec.training_samples = resolve(spec.path, *samples->value<std::string>());
     spec.training_line = toml_line(*samples);
   }
-  s.reject_unknown("samples");
+  if (const toml::node* sampling = s.get("sampling")) {
+    const std::optional<std::string> v = sampling->value<std::string>();
+    if (!v || (*v != "pixel" && *v != "bilinear"))
+      s.fail(*sampling, "[training] sampling says how covariates were read at the fitting sites: \"pixel\" (the "
+                        "containing pixel) or \"bilinear\" (interpolated between the 4 nearest pixel centres)");
+    spec.sampling = *v == "bilinear" ? PointSampling::bilinear : PointSampling::pixel;
+  }
+  s.reject_unknown("samples, sampling");
 }
 
 bool valid_name(const std::string& name) {

@@ -42,6 +42,10 @@ const char* to_string(Link link) {
   return "?";
 }
 
+const char* to_string(PointSampling sampling) {
+  return sampling == PointSampling::bilinear ? "bilinear" : "pixel";
+}
+
 const char* to_string(Transform transform) {
   switch (transform) {
     case Transform::none: return "none";

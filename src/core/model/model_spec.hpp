@@ -61,6 +61,13 @@ inline std::optional<std::int64_t> level_code(double value) {
   return whole;
 }
 
+/// How covariate values were taken at field points when the model was fitted ([training]
+/// sampling); `habcast evaluate --model` samples its points the same way.
+enum class PointSampling {
+  pixel,     ///< the value of the pixel that contains the point
+  bilinear,  ///< continuous covariates interpolated between the 4 nearest pixel centres
+};
+
 struct ModelSpec {
   std::string path;  ///< the model file, as given
   int format_version = 1;
@@ -91,6 +98,7 @@ struct ModelSpec {
 
   std::optional<std::string> training_samples;  ///< resolved relative to the model file
   long training_line = 0;
+  PointSampling sampling = PointSampling::pixel;  ///< [training] sampling; "pixel" when absent
 
   /// Index of the covariate with this name, or -1.
   [[nodiscard]] int covariate_index(const std::string& covariate_name) const;
@@ -100,6 +108,7 @@ struct ModelSpec {
 const char* to_string(Family family);
 const char* to_string(Link link);
 const char* to_string(Transform transform);
+const char* to_string(PointSampling sampling);
 
 /// What the model predicts, in words: "predicted probability of presence", "predicted expected
 /// count of nests", ... (band descriptions, plot legends).

@@ -124,8 +124,10 @@ std::string write_model_text(const ModelSpec& spec, const std::string& model_pat
   if (!comments.empty()) os << "\n";
   os << "habcast_model = " << spec.format_version << "\n\n";
   write_model_table(os, spec);
-  if (spec.training_samples)
+  if (spec.training_samples) {
     os << "\n[training]\nsamples = " << toml_string(relative_to_model(*spec.training_samples, model_path)) << "\n";
+    os << "sampling = \"" << to_string(spec.sampling) << "\"\n";
+  }
   for (const Covariate& c : spec.covariates) write_covariate(os, c, model_path);
   write_coefficients(os, spec);
   return os.str();

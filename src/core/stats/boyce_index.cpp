@@ -67,6 +67,8 @@ BoyceResult boyce_index(const std::vector<double>& presence_scores, const std::v
   const auto np = static_cast<double>(presence_scores.size());
   const auto nb = static_cast<double>(background_scores.size());
   BoyceResult r;
+  r.range_low = lo;
+  r.range_high = hi;
   std::vector<double> centres;
   std::vector<double> ratios;
   for (int k = 0; k <= steps; ++k) {

@@ -19,9 +19,11 @@ struct BoyceWindow {
 struct BoyceResult {
   double index = 0.0;                 ///< Spearman correlation of F with the window centres; NaN if undefined
   std::vector<BoyceWindow> windows;   ///< windows with background (E > 0), in increasing suitability
+  double range_low = 0.0;             ///< lowest score of presences and background together
+  double range_high = 0.0;            ///< highest score of presences and background together
 };
 
-/// Windows of width `width_fraction` x (max - min) of all scores, moved in `steps` equal steps
+/// Windows of width `width_fraction` x (max - min) of all scores (presences and background together), moved in `steps` equal steps
 /// from the lowest to the highest score (Hirzel et al. used a width of a tenth of the range).
 /// A window includes its edges. Windows without background are left out (F undefined).
 BoyceResult boyce_index(const std::vector<double>& presence_scores, const std::vector<double>& background_scores,

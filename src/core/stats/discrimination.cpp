@@ -6,6 +6,7 @@
 #include <numeric>
 
 #include "core/base/error.hpp"
+#include "core/numeric/normal_distribution.hpp"
 
 namespace habcast {
 
@@ -72,8 +73,11 @@ Discrimination discriminate(const std::vector<double>& scores, const std::vector
                      "background points from the grid)");
   d.auc = auc_mann_whitney(scores, observed);
   d.auc_se = auc_standard_error_hanley_mcneil(d.auc, d.presences, d.absences);
-  d.auc_lower = std::max(0.0, d.auc - 1.96 * d.auc_se);
-  d.auc_upper = std::min(1.0, d.auc + 1.96 * d.auc_se);
+  // The exact 97.5 % normal quantile (1.959963984540054), not the rounded 1.96. The normal
+  // interval can pass 1 (or 0) for an AUC near the edge; it is clipped there, which is documented.
+  const double z = normal_quantile(0.975);
+  d.auc_lower = std::max(0.0, d.auc - z * d.auc_se);
+  d.auc_upper = std::min(1.0, d.auc + z * d.auc_se);
 
   // Sweep the distinct scores from high to low: lowering the threshold to a score moves every
   // point with that score to "predicted present" at once.

@@ -31,7 +31,7 @@ struct Discrimination {
   std::int64_t absences = 0;
   double auc = 0.0;         ///< P(score of a random presence > that of a random absence), ties 1/2
   double auc_se = 0.0;      ///< Hanley & McNeil (1982) standard error
-  double auc_lower = 0.0;   ///< auc -/+ 1.96 se, clipped to [0, 1]
+  double auc_lower = 0.0;   ///< auc -/+ Phi^-1(0.975) se (1.959963984540054), clipped to [0, 1]
   double auc_upper = 0.0;
   Confusion best;           ///< threshold with the largest TSS (the lowest such threshold on ties)
   std::vector<RocPoint> roc;  ///< from (0, 0) to (1, 1), one point per distinct score

@@ -61,6 +61,7 @@ class Irls {
     bool have_old = false;
     Eigen::VectorXd beta_old;
     for (iterations_ = 1; iterations_ <= o_.max_iterations; ++iterations_) {
+      previous_ = s;  // its working weights give this iteration's least-squares solve (R's fit$qr)
       State next = step(s);
       // Step halving, as glm.fit: back off towards the previous coefficients while the deviance is
       // not finite or the fitted values leave the family's range.
@@ -87,15 +88,17 @@ class Irls {
   }
 
   [[nodiscard]] bool converged() const { return converged_; }
+  /// The state at the start of the last iteration: its working weights produced the final update.
+  [[nodiscard]] const State& previous() const { return previous_; }
   [[nodiscard]] int iterations() const { return iterations_; }
   [[nodiscard]] double last_change() const { return last_change_; }
   /// True when the weighted design lost rank during the iterations (weights collapsing to 0).
   [[nodiscard]] bool weighted_rank_lost() const { return weighted_rank_lost_; }
 
   /// (X'WX)^-1 from the QR factor of sqrt(W) X with the working weights at `s`. R (fit$qr) and
-  /// statsmodels take the weights of the iteration before the final update, which carries that
-  /// update's size into the standard errors; we pass the converged state, which is the inverse
-  /// information at the estimate itself.
+  /// statsmodels take the weights of the iteration before the final update (pass previous()),
+  /// which carries that update's size into the standard errors; the converged state gives the
+  /// inverse information at the estimate itself.
   Eigen::MatrixXd unscaled_covariance(const State& s) const {
     const Eigen::VectorXd sw = working_sqrt_weights(s);
     const Eigen::MatrixXd WX = sw.asDiagonal() * X_;
@@ -156,11 +159,18 @@ class Irls {
   const Eigen::VectorXd& w_;
   const Eigen::VectorXd& offset_;
   const IrlsOptions& o_;
+  State previous_;
   bool converged_ = false;
   bool weighted_rank_lost_ = false;
   int iterations_ = 0;
   double last_change_ = std::numeric_limits<double>::infinity();
 };
+
+/// "points.csv:17" when the caller labelled the observations, else "row 17".
+std::string observation_name(const GlmProblem& p, Eigen::Index i) {
+  if (static_cast<Eigen::Index>(p.observation_labels.size()) == p.X.rows()) return p.observation_labels[static_cast<std::size_t>(i)];
+  return "row " + std::to_string(i + 1);
+}
 
 std::string term_list(const GlmProblem& p, const std::vector<Eigen::Index>& columns) {
   std::string s;
@@ -173,13 +183,15 @@ void check_shapes(const GlmProblem& p) {
   if (p.y.size() != n || (p.weights.size() != 0 && p.weights.size() != n) || (p.offset.size() != 0 && p.offset.size() != n) ||
       static_cast<Eigen::Index>(p.term_names.size()) != p.X.cols())
     throw std::invalid_argument("fit_glm: inconsistent sizes of X, y, weights, offset and term names");
+  if (!p.observation_labels.empty() && static_cast<Eigen::Index>(p.observation_labels.size()) != n)
+    throw std::invalid_argument("fit_glm: observation labels do not match the rows of X");
   if (n <= p.X.cols())
     throw InputError("the model cannot be fitted: " + std::to_string(n) + " observations for " +
                      std::to_string(p.X.cols()) + " terms; a GLM needs more observations than terms (many more for "
                      "trustworthy estimates). Add points or drop terms");
   for (Eigen::Index i = 0; i < n; ++i)
     if (!p.X.row(i).allFinite() || (p.offset.size() && !std::isfinite(p.offset[i])))
-      throw InputError("the model cannot be fitted: row " + std::to_string(i + 1) +
+      throw InputError("the model cannot be fitted: " + observation_name(p, i) +
                        " has a term or offset value that is not a finite number");
 }
 
@@ -249,7 +261,7 @@ void check_boundary(const GlmProblem& p, const State& s, Irls& irls) {
         if (first < 0) first = i;
       }
   const std::string where = at_boundary > 0 ? std::to_string(at_boundary) + " of " + std::to_string(s.mu.size()) +
-                                                  " observations (first: row " + std::to_string(first + 1) + ")"
+                                                  " observations (first: " + observation_name(p, first) + ")"
                                             : "some observations";
   if (p.family == Family::binomial)
     throw InputError("the model cannot be fitted: the data are separated. Fitted probabilities are numerically 0 or 1 "
@@ -270,7 +282,8 @@ GlmFit fit_glm(const GlmProblem& problem, const IrlsOptions& options) {
   const Eigen::VectorXd w = problem.weights.size() ? problem.weights : Eigen::VectorXd::Ones(n);
   const Eigen::VectorXd offset = problem.offset.size() ? problem.offset : Eigen::VectorXd::Zero(n);
   if (auto bad = check_response(problem.family, problem.link, problem.y, w))
-    throw InputError("observation " + std::to_string(bad->row + 1) + ": " + bad->why);
+    throw InputError(problem.observation_labels.empty() ? "observation " + std::to_string(bad->row + 1) + ": " + bad->why
+                                                        : problem.observation_labels[static_cast<std::size_t>(bad->row)] + ": " + bad->why);
   check_aliasing(problem, w, options.alias_tolerance);
 
   Irls irls(problem, w, offset, options);
@@ -289,6 +302,8 @@ GlmFit fit_glm(const GlmProblem& problem, const IrlsOptions& options) {
   fit.mu = s.mu;
   fit.deviance = s.deviance;
   fit.iterations = irls.iterations();
+  fit.covariance_weights = options.covariance;
+  fit.tolerance = options.tolerance;
   fit.n = n;
   fit.df_residual = n - p;
   fit.df_null = n - (problem.intercept_column >= 0 ? 1 : 0);
@@ -313,16 +328,21 @@ GlmFit fit_glm(const GlmProblem& problem, const IrlsOptions& options) {
   // R's logLik.glm: (rank, + 1 for an estimated dispersion) - aic / 2.
   fit.dispersion_estimated = problem.family == Family::gaussian;
   fit.log_likelihood = static_cast<double>(p + (fit.dispersion_estimated ? 1 : 0)) - fit.aic / 2.0;
+  // The state whose working weights enter the covariance (and, for gaussian, the dispersion).
+  const State& weights_at = options.covariance == CovarianceWeights::last_iteration ? irls.previous() : s;
   if (fit.dispersion_estimated) {
-    // summary.glm: sum of working weights x working residuals^2 over df, the Pearson statistic.
+    // summary.glm: sum of working weights x working residuals^2 over df. The working residual is
+    // (y - mu) / (d mu / d eta) at the estimate; the weights are those the convention names (for
+    // the identity link both are the prior weights, and this is the Pearson statistic).
+    const Eigen::VectorXd sw = irls.working_sqrt_weights(weights_at);
     double pearson = 0.0;
     for (Eigen::Index i = 0; i < n; ++i) {
-      const double r = problem.y[i] - s.mu[i];
-      pearson += w[i] * r * r / family_variance(problem.family, s.mu[i]);
+      const double r = (problem.y[i] - s.mu[i]) / fitting_mu_eta(problem.link, s.eta[i]);
+      pearson += sw[i] * sw[i] * r * r;
     }
     fit.dispersion = pearson / static_cast<double>(fit.df_residual);
   }
-  fit.covariance = fit.dispersion * irls.unscaled_covariance(s);
+  fit.covariance = fit.dispersion * irls.unscaled_covariance(weights_at);
   fit.covariance = (fit.covariance + fit.covariance.transpose()) / 2.0;  // exactly symmetric for the file
   fit.std_errors = fit.covariance.diagonal().cwiseMax(0.0).cwiseSqrt();
   return fit;

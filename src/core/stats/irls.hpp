@@ -11,13 +11,31 @@
 
 namespace habcast {
 
+/// Where the covariance matrix (X'WX)^-1 takes its working weights W.
+enum class CovarianceWeights {
+  last_iteration,  ///< R's glm()/vcov(): the weights of the last weighted least-squares solve, i.e.
+                   ///< at the coefficients before the final update (fit$qr)
+  estimate,        ///< the weights at the final estimate: the inverse information at the estimate
+};
+
 struct IrlsOptions {
-  int max_iterations = 50;
-  /// Converged when |dev - dev_old| / (|dev| + 0.1) < tolerance (R's criterion; R's default
-  /// epsilon is 1e-8, ours is tighter so estimates sit closer to the maximum).
-  double tolerance = 1e-10;
+  /// R's glm.control() defaults: maxit 25; converged when |dev - dev_old| / (|dev| + 0.1) < 1e-8.
+  int max_iterations = 25;
+  double tolerance = 1e-8;
+  CovarianceWeights covariance = CovarianceWeights::last_iteration;
   /// Relative residual norm under which a column counts as a combination of earlier ones.
   double alias_tolerance = 1e-10;
+
+  /// The tighter fit (`habcast fit --tight`): tolerance 1e-10, up to 50 iterations, covariance
+  /// at the final estimate. Estimates sit closer to the maximum; standard errors then differ from
+  /// R's default glm() by the size of its last update (docs/fit-and-evaluate.md gives numbers).
+  static IrlsOptions tight() {
+    IrlsOptions o;
+    o.max_iterations = 50;
+    o.tolerance = 1e-10;
+    o.covariance = CovarianceWeights::estimate;
+    return o;
+  }
 };
 
 struct GlmProblem {
@@ -26,6 +44,8 @@ struct GlmProblem {
   Eigen::VectorXd weights;               ///< prior weights (> 0); empty means all 1
   Eigen::VectorXd offset;                ///< added to the linear predictor; empty means 0
   std::vector<std::string> term_names;   ///< p labels, for messages
+  /// Optional n labels of the observations ("points.csv:17"), used in messages instead of "row i".
+  std::vector<std::string> observation_labels;
   int intercept_column = -1;             ///< column of the intercept, or -1
   Family family = Family::binomial;
   Link link = Link::logit;
@@ -34,7 +54,7 @@ struct GlmProblem {
 struct GlmFit {
   Eigen::VectorXd coefficients;
   Eigen::VectorXd std_errors;
-  Eigen::MatrixXd covariance;   ///< dispersion x (X'WX)^-1, as R's vcov()
+  Eigen::MatrixXd covariance;   ///< dispersion x (X'WX)^-1, W as IrlsOptions::covariance says
   Eigen::VectorXd eta;          ///< fitted linear predictor (offset included)
   Eigen::VectorXd mu;           ///< fitted values
   double deviance = 0.0;
@@ -47,6 +67,8 @@ struct GlmFit {
   Eigen::Index df_residual = 0;
   Eigen::Index df_null = 0;
   int iterations = 0;
+  CovarianceWeights covariance_weights = CovarianceWeights::last_iteration;
+  double tolerance = 0.0;       ///< the stopping rule's epsilon that was used
 };
 
 /// Fits the model. Throws InputError (without a file name; the caller adds it) when the response
