@@ -22,6 +22,17 @@ if [[ $code -ne 0 ]]; then
   exit $code
 fi
 
+# Covariates rarely share a grid. The same map with precipitation as a coarse climate grid in
+# geographic coordinates (0.01 degree, EPSG:4326; made here with gdalwarp from the demo raster):
+# habcast aligns it onto the other covariates' 100 m UTM grid while predicting (docs/alignment.md).
+mixed=out/demo-mixed
+mkdir -p "$mixed"
+gdalwarp -q -overwrite -t_srs EPSG:4326 -tr 0.01 0.01 -r average sample-rasters/precip.tif "$mixed/precip_geographic.tif"
+echo "== the same with precip on a 0.01 degree geographic grid, aligned on the fly =="
+build/habcast predict sample-rasters/demo-model.toml -c precip="$mixed/precip_geographic.tif" -o "$mixed" --overwrite \
+  || { code=$?; echo "habcast predict (mixed grids) failed with exit code $code" >&2; exit $code; }
+echo
+
 # The same pictures as PDF, for a report: the niche plot from the model, and the quicklook from a
 # second, quiet run (--quicklook draws one file per run; the demo takes a moment).
 mkdir -p "$pictures"

@@ -20,6 +20,7 @@ packages=(
   libcairo2-dev libpango1.0-dev fonts-dejavu-core zlib1g-dev  # figures: Cairo, Pango, DejaVu Sans; PNG text CRCs
   python3 python3-gdal python3-numpy
   time  # /usr/bin/time: the benchmark's per-run peak memory
+  lighttpd  # serves rasters over HTTP with byte ranges to the /vsicurl/ test (ctest vsicurl_lighttpd)
 )
 for flag in "$@"; do
   case "$flag" in

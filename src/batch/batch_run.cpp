@@ -70,7 +70,7 @@ BatchPlan make_plan(const BatchOptions& options, const std::string& tool_version
                                                                           " do not exist; check the path (relative to the model file)"));
   plan.tiles = list_tiles(plan.manifest, plan.spec);
   plan.settings = {plan.manifest.level, plan.manifest.block_size, plan.manifest.creation_options, plan.manifest.overviews,
-                   nullptr};
+                   nullptr, options.alignment};
   if (!plan.manifest.units_path.empty()) {
     // Checked before any tile runs: a bad layer, id field or threshold would fail every tile.
     (void)read_unit_ids({plan.manifest.units_path, plan.manifest.units_layer, plan.manifest.units_id});
@@ -143,6 +143,7 @@ TileRun run_tile(const BatchPlan& plan, const Tile& tile, int threads, TileProgr
     po.overwrite = true;
     po.units.layer = {plan.manifest.units_path, plan.manifest.units_layer, plan.manifest.units_id};
     po.units.threshold_text = plan.manifest.units_threshold;
+    po.alignment = plan.settings.alignment;
     const PredictSummary summary = run_predict(po, progress, plan.tool_version);
     run.record = done_record(tile.id, fingerprint, summary.outputs, seconds());
     // Written last: a tile is done exactly when its record says so.

@@ -6,6 +6,7 @@
 #include <string>
 #include <vector>
 
+#include "raster/alignment_plan.hpp"
 #include "batch/shard.hpp"
 #include "core/base/error.hpp"
 #include "pipeline/progress.hpp"
@@ -24,6 +25,7 @@ struct BatchOptions {
   bool mosaic_only = false;   ///< run no tile: mosaic and report from the records
   bool cog = false;           ///< also write a COG of each mosaic layer
   bool force = false;         ///< redo every selected tile, whatever its record says
+  AlignmentOptions alignment; ///< --grid-of, --resampling, --warp-error, applied to every tile
 };
 
 struct TileOutcome {

@@ -72,8 +72,14 @@ json tile_fingerprint(const Tile& tile, const std::string& model_hash, const Til
                {"block_size", s.block_size},
                {"creation_options", s.creation_options},
                {"overviews", s.overviews}};
-  // Only when asked for, so that records of runs without units stay valid.
+  // Only when asked for, so that records of runs without units or alignment options stay valid.
   if (!s.units.is_null()) options["units"] = s.units;
+  const AlignmentOptions& a = s.alignment;
+  if (!a.target.covariate.empty() || !a.resampling.empty() || a.error_threshold != 0.0) {
+    json methods = json::object();
+    for (const auto& [name, method] : a.resampling) methods[name] = to_string(method);
+    options["alignment"] = {{"grid_of", a.target.covariate}, {"resampling", methods}, {"warp_error", a.error_threshold}};
+  }
   return {{"habcast_version", tool_version}, {"model_hash", model_hash}, {"options", options}, {"inputs", inputs}};
 }
 

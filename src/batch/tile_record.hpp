@@ -8,6 +8,7 @@
 #include <vector>
 
 #include "batch/tile_list.hpp"
+#include "raster/alignment_plan.hpp"
 
 namespace habcast {
 
@@ -18,6 +19,7 @@ struct TileSettings {
   std::vector<std::string> creation_options;
   bool overviews = false;
   nlohmann::ordered_json units;  ///< [units] of the manifest with its file's stamp; null without units
+  AlignmentOptions alignment;  ///< --grid-of, --resampling, --warp-error (each tile keeps its own grid)
 };
 
 /// What a tile's outputs depend on. `model_hash` covers the model file and its training table.

@@ -5,6 +5,7 @@
 #include <memory>
 
 #include "batch/batch_run.hpp"
+#include "cli/alignment_args.hpp"
 #include "cli/commands.hpp"
 #include "core/base/error.hpp"
 #include "pipeline/stop_signal.hpp"
@@ -35,6 +36,7 @@ struct BatchArgs {
   std::string shard;
   std::string log_format = "text";
   bool quiet = false;
+  AlignmentArgs alignment;
 };
 
 void print_summary(const BatchSummary& s, const BatchOptions& options, std::ostream& out) {
@@ -63,6 +65,7 @@ int run_batch_command(BatchArgs& args, std::ostream& out, std::ostream& err) {
   std::unique_ptr<Progress> progress = make_progress(style, err, terminal);
 
   StopSignalGuard guard;
+  args.options.alignment = alignment_options(args.alignment);
   const BatchSummary summary = run_batch(args.options, *progress, HABCAST_VERSION);
   for (const std::string& w : summary.warnings) progress->message("warning", w);
   if (args.log_format == "json") {
@@ -96,6 +99,7 @@ void register_batch(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--log-format", args->log_format,
                   "text (default) or json: JSON lines of progress on stderr, region report on stdout")
       ->check(CLI::IsMember({"text", "json"}));
+  add_alignment_options(*cmd, args->alignment, false);
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_batch_command(*args, out, err); });
 }
 

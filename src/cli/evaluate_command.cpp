@@ -4,6 +4,7 @@
 #include <limits>
 #include <memory>
 
+#include "cli/alignment_args.hpp"
 #include "cli/commands.hpp"
 #include "core/base/error.hpp"
 #include "evaluate/evaluate_run.hpp"
@@ -47,6 +48,7 @@ struct EvaluateArgs {
   std::vector<std::string> covariates;
   double threshold = std::numeric_limits<double>::quiet_NaN();
   bool json = false;
+  AlignmentArgs alignment;
 };
 
 int run_evaluate_command(EvaluateArgs& args, std::ostream& out, std::ostream& err) {
@@ -59,6 +61,7 @@ int run_evaluate_command(EvaluateArgs& args, std::ostream& out, std::ostream& er
   }
   if (!o.covariate_rasters.empty() && o.model_path.empty()) throw UsageError("-c applies to --model only");
   if (!std::isnan(args.threshold)) o.threshold = args.threshold;
+  o.alignment = alignment_options(args.alignment);
   StopSignalGuard guard;
   const EvaluateSummary summary = run_evaluate(o, HABCAST_VERSION);
   if (args.json) out << summary.report.dump(2) << "\n";
@@ -101,6 +104,7 @@ void register_evaluate(CLI::App& app, CommandRegistry& registry) {
   cmd->add_option("--write-binary", o.binary_path, "Write a 0/1 GeoTIFF thresholded at --threshold or the max-TSS threshold");
   cmd->add_flag("--json", args->json, "Print every number as JSON instead of text");
   cmd->add_flag("--overwrite", o.overwrite, "Replace existing --plot, --write-binary and --write-background files");
+  add_alignment_options(*cmd, args->alignment);
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_evaluate_command(*args, out, err); });
 }
 

@@ -4,6 +4,7 @@
 #include <limits>
 #include <memory>
 
+#include "cli/alignment_args.hpp"
 #include "cli/commands.hpp"
 #include "core/base/error.hpp"
 #include "fit/fit_run.hpp"
@@ -63,6 +64,7 @@ struct FitArgs {
   std::string family = "binomial";
   std::string link;
   double prediction_offset = std::numeric_limits<double>::quiet_NaN();
+  AlignmentArgs alignment;
 };
 
 std::pair<std::string, std::string> split_pair(const std::string& item, const std::string& option, const std::string& example) {
@@ -125,6 +127,7 @@ int run_fit_command(FitArgs& args, std::ostream& out, std::ostream& err) {
   if (!std::isnan(args.prediction_offset)) o.prediction_offset = args.prediction_offset;
   if (o.prediction_offset && o.offset.empty()) throw UsageError("--prediction-offset needs --offset");
 
+  o.alignment = alignment_options(args.alignment);
   const FitSummary summary = run_fit(o, HABCAST_VERSION);
   if (args.json) out << fit_report_json(summary).dump(2) << "\n";
   else out << format_fit_summary(summary);
@@ -177,6 +180,7 @@ void register_fit(CLI::App& app, CommandRegistry& registry) {
                 "Fit to a relative deviance change of 1e-10 (R's default: 1e-8) and take standard errors at the estimate");
   cmd->add_flag("--json", args->json, "Print the report as JSON, listing every point not used and why");
   cmd->add_flag("--overwrite", o.overwrite, "Replace an existing model file and samples table");
+  add_alignment_options(*cmd, args->alignment);
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_fit_command(*args, out, err); });
 }
 

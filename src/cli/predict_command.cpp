@@ -4,6 +4,7 @@
 #include <iostream>
 #include <memory>
 
+#include "cli/alignment_args.hpp"
 #include "cli/commands.hpp"
 #include "cli/predict_model_set.hpp"
 #include "cli/predict_scenarios.hpp"
@@ -34,8 +35,7 @@ constexpr const char* kPredictHelp =
     "                     per cause; pixels weighted by the exact share of their area inside the unit\n"
     "Joint checks run on the model values (after transform and standardisation) of the continuous\n"
     "covariates the model uses; see docs/extrapolation-flags.md.\n"
-    "All covariate rasters must share one grid (size, geotransform, CRS). A pixel where any covariate\n"
-    "is nodata is nodata in every output. Outputs appear only when complete; an interrupted run\n"
+    "A pixel where any covariate is nodata is nodata in every output. Outputs appear only when complete; an interrupted run\n"
     "leaves nothing behind.\n\n"
     "Example:\n"
     "  habcast predict sample-rasters/demo-model.toml -o out/\n"
@@ -57,6 +57,7 @@ struct PredictArgs {
   ScenarioArgs scenarios;
   std::vector<std::string> models;  ///< one model, or a model set
   ModelSetArgs model_set;
+  AlignmentArgs alignment;
 };
 
 void apply_checks(PredictArgs& args) {
@@ -85,6 +86,7 @@ void parse_covariate_args(PredictArgs& args) {
 int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err) {
   parse_covariate_args(args);
   apply_checks(args);
+  args.options.alignment = alignment_options(args.alignment);
   if (args.max_extrapolated >= 0.0) args.options.max_extrapolated_percent = args.max_extrapolated;
   args.options.max_memory_bytes = args.max_memory_mib << 20;
   if (args.log_format == "json") args.options.progress = ProgressStyle::json;
@@ -94,6 +96,13 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
 
   StopSignalGuard guard;
   args.options.model_path = args.models.front();
+  const AlignmentOptions& asked = args.options.alignment;
+  const bool alignment_asked = !asked.target.covariate.empty() || !asked.target.template_path.empty() ||
+                               !asked.target.crs.empty() || !asked.resampling.empty() || asked.error_threshold != 0.0;
+  if (alignment_asked && (args.models.size() > 1 || args.scenarios.any()))
+    throw UsageError("--grid-of, --grid-like, --grid-crs, --resampling and --warp-error align the covariates of a single "
+                     "prediction; scenarios and model sets read covariates on one shared grid for now: align them "
+                     "first (gdalwarp), or run predict once per stack");
   if (args.models.size() > 1)
     return run_predict_model_set(args.options, args.models, args.model_set, args.scenarios, *progress,
                                  args.log_format == "json", args.quiet, out);
@@ -117,6 +126,14 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
     if (!summary.report["extrapolation"].is_null())
       out << "Extrapolated: " << format_percent(summary.report["extrapolation"]["flagged_share"].get<double>())
           << " of valid pixels (see extrapolation.tif).\n";
+    if (const auto& a = summary.report["alignment"]; a.is_object()) {
+      std::string warped;
+      for (const auto& c : a["covariates"])
+        if (!c["resampling"].is_null())
+          warped += (warped.empty() ? "" : ", ") + c["covariate"].get<std::string>() + " (" + c["resampling"].get<std::string>() + ")";
+      if (!warped.empty())
+        out << "Aligned onto " << a["target_grid"]["rule"].get<std::string>() << ": " << warped << ".\n";
+    }
     out << "Outputs:\n";
     for (const std::string& p : summary.outputs) out << "  " << p << "\n";
   }
@@ -128,7 +145,7 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
 void register_predict(CLI::App& app, CommandRegistry& registry) {
   auto args = std::make_shared<PredictArgs>();
   CLI::App* cmd = app.add_subcommand("predict", "Map a fitted model over covariate rasters");
-  cmd->footer(std::string(kPredictHelp) + kScenarioHelp + kModelSetHelp);
+  cmd->footer(std::string(kPredictHelp) + kScenarioHelp + kModelSetHelp + "\n\n" + kAlignmentHelp);
   cmd->add_option("model", args->models, "Model file (TOML; see docs/model-format.md); two or more: a model set, averaged")
       ->required()
       ->check(CLI::ExistingFile);
@@ -222,6 +239,7 @@ void register_predict(CLI::App& app, CommandRegistry& registry) {
                   "Unconditional SE of a model set: revised (default), sqrt(sum w (se^2 + d^2)), or 2002,\n"
                   "sum w sqrt(se^2 + d^2), with d the model's departure from the average (Burnham & Anderson 2002)")
       ->check(CLI::IsMember({"revised", "2002"}));
+  add_alignment_options(*cmd, args->alignment);
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_predict_command(*args, out, err); });
 }
 

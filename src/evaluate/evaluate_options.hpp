@@ -5,6 +5,7 @@
 #include <optional>
 #include <string>
 
+#include "raster/alignment_plan.hpp"
 #include "raster/point_source.hpp"
 
 namespace habcast {
@@ -26,6 +27,7 @@ struct EvaluateOptions {
   std::string background_path;     ///< CSV of the background points drawn (presence-only)
   std::string binary_path;
   bool overwrite = false;
+  AlignmentOptions alignment;      ///< target grid and resampling for --model's covariates (docs/alignment.md)
 };
 
 }  // namespace habcast

@@ -261,7 +261,7 @@ EvaluateSummary run_evaluate(const EvaluateOptions& o, const std::string& tool_v
   ensure_gdal();
 
   std::unique_ptr<ScoreSource> source =
-      o.model_path.empty() ? ScoreSource::from_raster(o.prediction_path) : ScoreSource::from_model(o.model_path, o.covariate_rasters);
+      o.model_path.empty() ? ScoreSource::from_raster(o.prediction_path) : ScoreSource::from_model(o.model_path, o.covariate_rasters, o.alignment);
   std::string crs_name;
   Observations obs = observe_points(o, *source, crs_name);
   EvaluateSummary summary;

@@ -64,7 +64,8 @@ class RasterScores final : public ScoreSource {
 
 class ModelScores final : public ScoreSource {
  public:
-  ModelScores(const std::string& model_path, const std::map<std::string, std::string>& overrides)
+  ModelScores(const std::string& model_path, const std::map<std::string, std::string>& overrides,
+              const AlignmentOptions& alignment)
       : spec_(read_model_file(model_path)), plan_(spec_), evaluator_(spec_, 0.95), predictor_(spec_, plan_, evaluator_, nullptr) {
     for (const auto& [name, path] : overrides) {
       (void)path;
@@ -77,21 +78,26 @@ class ModelScores final : public ScoreSource {
       else throw UsageError("covariate \"" + c.name + "\" has no raster: pass -c " + c.name + "=FILE.tif");
       inputs_.push_back({c.name, path, c.band, c.categorical});
     }
-    grid_ = read_grid(inputs_.front().path, inputs_.front().band);
-    for (std::size_t i = 1; i < inputs_.size(); ++i)
-      check_same_grid(inputs_.front().path, grid_, inputs_[i].path, read_grid(inputs_[i].path, inputs_[i].band));
-    for (const SamplingInput& in : inputs_) readers_.emplace_back(in.path, in.band);
+    std::vector<AlignmentInput> aligned;
+    for (std::size_t i = 0; i < inputs_.size(); ++i)
+      aligned.push_back({inputs_[i].name, inputs_[i].path, inputs_[i].band, inputs_[i].categorical, spec_.covariates[i].resampling});
+    alignment_ = plan_alignment(aligned, alignment);
+    grid_ = alignment_.target;
+    for (std::size_t i = 0; i < inputs_.size(); ++i) readers_.push_back(open_covariate_source(alignment_, i));
   }
   const RasterGrid& grid() const override { return grid_; }
   std::string describe() const override {
-    return spec_.path + " applied to " + count_of(static_cast<std::int64_t>(inputs_.size()), "covariate raster");
+    std::size_t warped = 0;
+    for (const AlignedCovariate& c : alignment_.covariates) warped += c.warped ? 1 : 0;
+    return spec_.path + " applied to " + count_of(static_cast<std::int64_t>(inputs_.size()), "covariate raster") +
+           (warped > 0 ? " (" + std::to_string(warped) + " aligned by GDAL's warper onto " + alignment_.target_rule + ")" : "");
   }
   const ModelSpec* model() const override { return &spec_; }
   PointSampling sampling() const override { return spec_.sampling; }
   std::vector<double> at_points(const std::vector<double>& x, const std::vector<double>& y,
                                 const std::vector<std::uint8_t>& transformed, SampledPoints* status) override {
     // The model's own sampling rule, so evaluate reads covariates at points exactly as fit did.
-    SampledPoints s = sample_points(grid_, inputs_, x, y, transformed, spec_.sampling == PointSampling::bilinear);
+    SampledPoints s = sample_points(grid_, inputs_, readers_, x, y, transformed, spec_.sampling == PointSampling::bilinear);
     std::vector<std::uint8_t> valid(x.size());
     for (std::size_t i = 0; i < x.size(); ++i) valid[i] = s.status[i] == PointStatus::ok;
     std::vector<double> out = predict(s.raw, valid);
@@ -102,7 +108,7 @@ class ModelScores final : public ScoreSource {
     const auto n = static_cast<Eigen::Index>(w.pixels());
     Eigen::ArrayXXd raw(n, static_cast<Eigen::Index>(inputs_.size()));
     std::vector<std::uint8_t> valid(static_cast<std::size_t>(n), 1);
-    for (std::size_t k = 0; k < readers_.size(); ++k) readers_[k].read(w, raw.col(static_cast<Eigen::Index>(k)).data(), valid.data());
+    for (std::size_t k = 0; k < readers_.size(); ++k) readers_[k]->read(w, raw.col(static_cast<Eigen::Index>(k)).data(), valid.data());
     scores = predict(raw, valid);
   }
 
@@ -122,7 +128,8 @@ class ModelScores final : public ScoreSource {
   Evaluator evaluator_;
   BlockPredictor predictor_;
   std::vector<SamplingInput> inputs_;
-  std::vector<CovariateReader> readers_;
+  AlignmentPlan alignment_;
+  std::vector<std::unique_ptr<CovariateSource>> readers_;
   RasterGrid grid_;
 };
 
@@ -131,8 +138,9 @@ class ModelScores final : public ScoreSource {
 std::unique_ptr<ScoreSource> ScoreSource::from_raster(const std::string& path) { return std::make_unique<RasterScores>(path); }
 
 std::unique_ptr<ScoreSource> ScoreSource::from_model(const std::string& model_path,
-                                                     const std::map<std::string, std::string>& overrides) {
-  return std::make_unique<ModelScores>(model_path, overrides);
+                                                     const std::map<std::string, std::string>& overrides,
+                                                     const AlignmentOptions& alignment) {
+  return std::make_unique<ModelScores>(model_path, overrides, alignment);
 }
 
 }  // namespace habcast

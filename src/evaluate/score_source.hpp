@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "core/model/model_spec.hpp"
+#include "raster/alignment_plan.hpp"
 #include "raster/point_sampler.hpp"
 #include "raster/raster_grid.hpp"
 #include "raster/window.hpp"
@@ -18,8 +19,10 @@ class ScoreSource {
   /// A prediction raster, band 1.
   static std::unique_ptr<ScoreSource> from_raster(const std::string& path);
   /// A model file with its covariate rasters (`overrides` NAME -> FILE replace the model's own).
+  /// Covariates off the first one's grid (or `alignment`'s target) are aligned as in predict.
   static std::unique_ptr<ScoreSource> from_model(const std::string& model_path,
-                                                 const std::map<std::string, std::string>& overrides);
+                                                 const std::map<std::string, std::string>& overrides,
+                                                 const AlignmentOptions& alignment = {});
   virtual ~ScoreSource() = default;
 
   [[nodiscard]] virtual const RasterGrid& grid() const = 0;

@@ -5,6 +5,7 @@
 #include <set>
 #include <string>
 
+#include "raster/alignment_plan.hpp"
 #include "core/model/model_spec.hpp"
 #include "core/stats/irls.hpp"
 #include "raster/point_source.hpp"
@@ -33,6 +34,9 @@ struct FitOptions {
   std::string name;
   bool overwrite = false;
   IrlsOptions irls;                          ///< default: R's glm() stopping rule and vcov()
+  /// Target grid the points are sampled on, and resampling of covariates not on it
+  /// (docs/alignment.md); a --resampling choice is written into the model for predict.
+  AlignmentOptions alignment;
 };
 
 }  // namespace habcast

@@ -22,6 +22,7 @@
 #include "pipeline/output_guard.hpp"
 #include "raster/band_profile.hpp"
 #include "raster/gdal_session.hpp"
+#include "raster/alignment_plan.hpp"
 #include "raster/point_sampler.hpp"
 #include "raster/point_source.hpp"
 #include "raster/point_transform.hpp"
@@ -191,11 +192,11 @@ std::string untrained_warning(const std::vector<UntrainedClass>& classes, const 
                 "them as an unseen category in extrapolation.tif. Add training points in those classes, or mask them out";
 }
 
-RasterGrid check_grids(const std::vector<SamplingInput>& inputs) {
-  const RasterGrid reference = read_grid(inputs.front().path, inputs.front().band);
-  for (std::size_t i = 1; i < inputs.size(); ++i)
-    check_same_grid(inputs.front().path, reference, inputs[i].path, read_grid(inputs[i].path, inputs[i].band));
-  return reference;
+/// The grid the points are sampled on and how each covariate reaches it, as in predict.
+AlignmentPlan plan_sampling(const std::vector<SamplingInput>& inputs, const AlignmentOptions& alignment) {
+  std::vector<AlignmentInput> aligned;
+  for (const SamplingInput& in : inputs) aligned.push_back({in.name, in.path, in.band, in.categorical, std::nullopt});
+  return plan_alignment(aligned, alignment);
 }
 
 /// Explains why no point could be used; the most common cause (a wrong CRS) gets its own hint.
@@ -335,7 +336,10 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
 
   const std::vector<SamplingInput> inputs = select_inputs(options, summary.warnings);
   if (inputs.empty()) throw UsageError("--formula names no covariate; a model needs at least one");
-  const RasterGrid grid = check_grids(inputs);
+  const AlignmentPlan alignment = plan_sampling(inputs, options.alignment);
+  const RasterGrid& grid = alignment.target;
+  std::vector<std::unique_ptr<CovariateSource>> sources;
+  for (std::size_t k = 0; k < inputs.size(); ++k) sources.push_back(open_covariate_source(alignment, k));
   refuse_undeclared_classes(options, inputs);
 
   // Response: the option, or the formula's left-hand side.
@@ -380,7 +384,7 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   std::vector<std::uint8_t> transformed;
   transformer.transform(points.x, points.y, transformed);
 
-  const SampledPoints sampled = sample_points(grid, inputs, points.x, points.y, transformed, options.bilinear);
+  const SampledPoints sampled = sample_points(grid, inputs, sources, points.x, points.y, transformed, options.bilinear);
   c.bilinear_fallbacks = sampled.bilinear_fallbacks;
   const std::size_t n = points.size();
   std::vector<std::uint8_t> use(n, 0);
@@ -427,6 +431,10 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   }
 
   ModelSpec spec = build_spec(options, inputs, sampled.raw, use);
+  // predict then resamples as the fit did (without it, predict would apply its default rule).
+  for (Covariate& cov : spec.covariates)
+    if (const auto it = options.alignment.resampling.find(cov.name); it != options.alignment.resampling.end())
+      cov.resampling = it->second;
   spec.link = options.link.value_or(default_link(options.family));
   spec.response = response;
   if (std::count(use.begin(), use.end(), 1) > 1 && options.standardise) {

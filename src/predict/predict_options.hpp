@@ -8,6 +8,7 @@
 #include "core/domain/novelty_model.hpp"
 #include "pipeline/progress.hpp"
 #include "predict/unit_pass.hpp"
+#include "raster/alignment_plan.hpp"
 
 namespace habcast {
 
@@ -31,6 +32,7 @@ struct PredictOptions {
   long long gdal_cache_bytes = 0;     ///< GDAL block cache; 0: sized to the windows in flight
   long long max_memory_bytes = 2048LL << 20;  ///< cap on working memory besides GDAL's cache (docs/limits.md)
   UnitOptions units;                  ///< per-unit summaries (docs/units.md); inactive without a layer
+  AlignmentOptions alignment;         ///< target grid and resampling of covariates not on it (docs/alignment.md)
 };
 
 }  // namespace habcast

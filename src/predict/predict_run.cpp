@@ -31,6 +31,7 @@
 #include "predict/prediction_folder.hpp"
 #include "predict/prediction_report.hpp"
 #include "predict/unit_pass.hpp"
+#include "raster/alignment_plan.hpp"
 #include "raster/covariate_reader.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/output_raster.hpp"
@@ -88,12 +89,16 @@ std::vector<CovariateInput> resolve_inputs(const ModelSpec& spec, const PredictO
   return inputs;
 }
 
-RasterGrid check_inputs_co_registered(const std::vector<CovariateInput>& inputs) {
-  const RasterGrid reference = read_grid(inputs.front().path, inputs.front().band);
-  check_raster_size(inputs.front().path, reference);
-  for (std::size_t i = 1; i < inputs.size(); ++i)
-    check_same_grid(inputs.front().path, reference, inputs[i].path, read_grid(inputs[i].path, inputs[i].band));
-  return reference;
+/// The target grid and how each covariate reaches it (raster/alignment_plan.hpp): covariates on it
+/// are read as they are, the others warped window by window.
+AlignmentPlan plan_inputs(const ModelSpec& spec, const std::vector<CovariateInput>& inputs, const PredictOptions& options) {
+  std::vector<AlignmentInput> aligned;
+  for (std::size_t c = 0; c < inputs.size(); ++c)
+    aligned.push_back({inputs[c].name, inputs[c].path, inputs[c].band, spec.covariates[c].categorical,
+                       spec.covariates[c].resampling});
+  AlignmentPlan plan = plan_alignment(aligned, options.alignment);
+  check_raster_size(inputs.front().path, plan.target);
+  return plan;
 }
 
 /// Processing windows: about block_size x block_size pixels, in whole blocks of the input's tiling
@@ -137,7 +142,8 @@ std::vector<std::pair<std::string, std::string>> common_metadata(const ModelSpec
 
 /// Per-worker state: its own GDAL handles (they are not thread-safe) and scratch buffers.
 struct Worker {
-  std::vector<CovariateReader> readers;
+  std::vector<std::unique_ptr<CovariateSource>> sources;
+  std::vector<std::int64_t> missing;  ///< per covariate: target pixels it gave no value for
   Evaluator evaluator;
   BlockPredictor predictor;
   Eigen::ArrayXXd raw;
@@ -145,10 +151,11 @@ struct Worker {
   BlockUnitCover unit_cover;
   std::vector<std::uint32_t> unit_slots;  ///< scratch of BlockUnitSums::at, one entry per unit
 
-  Worker(const std::vector<CovariateInput>& inputs, const ModelSpec& spec, const TermPlan& plan, double level,
+  Worker(const AlignmentPlan& alignment, const ModelSpec& spec, const TermPlan& plan, double level,
          double quantum, const TrainingDomain* domain, const NoveltyModel* novelty, const LowCertaintyRule* certainty)
-      : evaluator(spec, level, quantum), predictor(spec, plan, evaluator, domain, novelty, certainty) {
-    for (const CovariateInput& in : inputs) readers.emplace_back(in.path, in.band);
+      : missing(alignment.covariates.size(), 0), evaluator(spec, level, quantum),
+        predictor(spec, plan, evaluator, domain, novelty, certainty) {
+    for (std::size_t c = 0; c < alignment.covariates.size(); ++c) sources.push_back(open_covariate_source(alignment, c));
   }
   Worker(const Worker&) = delete;
   Worker& operator=(const Worker&) = delete;
@@ -377,7 +384,8 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   const ModelSpec spec = read_model_file(options.model_path);
   const TermPlan plan(spec);
   const std::vector<CovariateInput> inputs = resolve_inputs(spec, options);
-  const RasterGrid grid = check_inputs_co_registered(inputs);
+  const AlignmentPlan alignment = plan_inputs(spec, inputs, options);
+  const RasterGrid& grid = alignment.target;
   std::optional<TrainingSamples> samples;
   std::optional<TrainingDomain> domain;
   std::optional<NoveltyModel> novelty;
@@ -410,7 +418,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
                        options.max_memory_bytes);
   std::vector<std::unique_ptr<Worker>> workers;
   for (int t = 0; t < threads; ++t)
-    workers.push_back(std::make_unique<Worker>(inputs, spec, plan, options.level, quantum,
+    workers.push_back(std::make_unique<Worker>(alignment, spec, plan, options.level, quantum,
                                                domain ? &*domain : nullptr, novelty ? &*novelty : nullptr, &certainty));
 
   std::error_code ec;
@@ -446,7 +454,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
         worker.raw.resize(n, static_cast<Eigen::Index>(k));
         worker.valid.assign(static_cast<std::size_t>(n), 1);
         for (std::size_t c = 0; c < k; ++c)
-          worker.readers[c].read(w, worker.raw.col(static_cast<Eigen::Index>(c)).data(), worker.valid.data());
+          worker.missing[c] += worker.sources[c]->read(w, worker.raw.col(static_cast<Eigen::Index>(c)).data(), worker.valid.data());
         BlockResult result{buffers.take(), PredictionTally(k), {}};
         if (unit_plan) {
           cover_window(*unit_plan, w, worker.unit_cover);
@@ -472,6 +480,13 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   throw_if_stopped();
   progress.finish();
 
+  // Sums of whole numbers: the same whichever worker read which window.
+  std::vector<std::int64_t> missing(k, 0);
+  for (const auto& worker : workers)
+    for (std::size_t c = 0; c < k; ++c) missing[c] += worker->missing[c];
+  const std::int64_t target_pixels = static_cast<std::int64_t>(grid.width) * grid.height;
+  for (OutputRaster* r : out.all())
+    for (const auto& [key, value] : alignment_metadata(alignment, missing, target_pixels)) r->add_metadata(key, value);
   for (OutputRaster* r : out.all()) {
     if (options.overviews) r->build_overviews();
     throw_if_stopped();
@@ -538,11 +553,13 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
 
   PredictSummary summary;
   summary.warnings = prediction_warnings(ctx);
+  for (std::string& w : alignment_warnings(alignment, missing, target_pixels)) summary.warnings.push_back(std::move(w));
   if (!quicklook_problem.empty()) summary.warnings.push_back(quicklook_problem);
   if (unit_results)
     summary.warnings.insert(summary.warnings.end(), unit_results->warnings.begin(), unit_results->warnings.end());
   summary.report = prediction_report(ctx, summary.warnings);
   if (unit_results) summary.report["units"] = unit_results->report;
+  summary.report["alignment"] = alignment_json(alignment, missing, target_pixels);
   if (options.max_extrapolated_percent && domain) {
     const double pct = total.domain.checked > 0 ? 100.0 * static_cast<double>(total.domain.flagged) /
                                                       static_cast<double>(total.domain.checked)

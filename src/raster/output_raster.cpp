@@ -314,6 +314,13 @@ void OutputRaster::write(int band, const Window& window, const std::uint8_t* val
 
 void OutputRaster::flush_completed_blocks(const Window& window) { impl_->flush_completed_blocks(window); }
 
+void OutputRaster::add_metadata(const std::string& key, const std::string& value) {
+  if (!impl_->dataset) throw std::logic_error("OutputRaster::add_metadata after close() for " + impl_->spec.final_path);
+  take_gdal_error();
+  if (impl_->dataset->SetMetadataItem(key.c_str(), value.c_str()) != CE_None)
+    throw IoError(located(impl_->temporary_path, 0, "cannot store metadata item " + key + " (" + gdal_reason() + ")."));
+}
+
 void OutputRaster::build_overviews() {
   Impl& self = *impl_;
   if (!self.dataset) throw std::logic_error("OutputRaster::build_overviews after close() for " + self.spec.final_path);

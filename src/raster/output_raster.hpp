@@ -66,6 +66,10 @@ class OutputRaster {
   /// reads, and identical runs would give files with the same pixels but different bytes.
   void flush_completed_blocks(const Window& window);
 
+  /// Adds a dataset metadata item once the run knows it (e.g. counts); call before close().
+  /// Throws IoError naming the file when GDAL refuses it.
+  void add_metadata(const std::string& key, const std::string& value);
+
   /// Builds internal overviews (AVERAGE for float32, NEAREST for uint8) at factors 2,4,8,...
   /// while the smaller side stays >= 256 pixels.
   void build_overviews();

@@ -7,7 +7,7 @@
 #include <limits>
 
 #include "core/base/error.hpp"
-#include "raster/covariate_reader.hpp"
+#include "raster/covariate_source.hpp"
 #include "raster/gdal_handles.hpp"
 
 namespace habcast {
@@ -29,7 +29,7 @@ namespace {
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 /// Value of one pixel, NaN when nodata.
-double read_pixel_value(CovariateReader& reader, int column, int row) {
+double read_pixel_value(CovariateSource& reader, int column, int row) {
   double v = 0.0;
   std::uint8_t valid = 1;
   reader.read(Window{column, row, 1, 1}, &v, &valid);
@@ -38,7 +38,7 @@ double read_pixel_value(CovariateReader& reader, int column, int row) {
 
 /// Bilinear value between the four pixel centres around (column, row), or NaN when one of them
 /// is nodata or off the grid.
-double read_bilinear(CovariateReader& reader, const RasterGrid& grid, double column, double row) {
+double read_bilinear(CovariateSource& reader, const RasterGrid& grid, double column, double row) {
   const double px = column - 0.5;
   const double py = row - 0.5;
   const double x0 = std::floor(px);
@@ -57,14 +57,20 @@ double read_bilinear(CovariateReader& reader, const RasterGrid& grid, double col
 
 SampledPoints sample_points(const RasterGrid& grid, const std::vector<SamplingInput>& inputs, const std::vector<double>& x,
                             const std::vector<double>& y, const std::vector<std::uint8_t>& transformed, bool bilinear) {
+  std::vector<std::unique_ptr<CovariateSource>> readers;
+  for (const SamplingInput& in : inputs) readers.push_back(std::make_unique<DirectCovariateSource>(in.path, in.band, grid));
+  return sample_points(grid, inputs, readers, x, y, transformed, bilinear);
+}
+
+SampledPoints sample_points(const RasterGrid& grid, const std::vector<SamplingInput>& inputs,
+                            std::vector<std::unique_ptr<CovariateSource>>& readers, const std::vector<double>& x,
+                            const std::vector<double>& y, const std::vector<std::uint8_t>& transformed, bool bilinear) {
   const std::size_t n = x.size();
   SampledPoints s;
   s.raw = Eigen::ArrayXXd::Constant(static_cast<Eigen::Index>(n), static_cast<Eigen::Index>(inputs.size()), kNaN);
   s.status.assign(n, PointStatus::ok);
   s.nodata_input.assign(n, -1);
   s.pixel.assign(n, -1);
-  std::vector<CovariateReader> readers;
-  for (const SamplingInput& in : inputs) readers.emplace_back(in.path, in.band);
   for (std::size_t i = 0; i < n; ++i) {
     if (!transformed[i]) {
       s.status[i] = PointStatus::not_transformed;
@@ -83,10 +89,10 @@ SampledPoints sample_points(const RasterGrid& grid, const std::vector<SamplingIn
     for (std::size_t k = 0; k < inputs.size(); ++k) {
       double v = kNaN;
       if (bilinear && !inputs[k].categorical) {
-        v = read_bilinear(readers[k], grid, column, row);
+        v = read_bilinear(*readers[k], grid, column, row);
         if (std::isnan(v)) fell_back = true;
       }
-      if (std::isnan(v)) v = read_pixel_value(readers[k], c, r);
+      if (std::isnan(v)) v = read_pixel_value(*readers[k], c, r);
       if (std::isnan(v)) {
         s.status[i] = PointStatus::nodata;
         s.nodata_input[i] = static_cast<int>(k);

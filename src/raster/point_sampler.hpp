@@ -5,9 +5,11 @@
 #include <Eigen/Core>
 #include <cstdint>
 #include <map>
+#include <memory>
 #include <string>
 #include <vector>
 
+#include "raster/covariate_source.hpp"
 #include "raster/raster_grid.hpp"
 
 namespace habcast {
@@ -35,6 +37,12 @@ void map_to_pixel(const RasterGrid& grid, double x, double y, double& column, do
 
 /// Samples every input at every point with transformed[i] = 1. All inputs must share `grid`.
 SampledPoints sample_points(const RasterGrid& grid, const std::vector<SamplingInput>& inputs, const std::vector<double>& x,
+                            const std::vector<double>& y, const std::vector<std::uint8_t>& transformed, bool bilinear);
+
+/// The same, reading input k through readers[k] (sources delivering values on `grid`, e.g.
+/// covariates aligned onto it by raster/alignment_plan.hpp).
+SampledPoints sample_points(const RasterGrid& grid, const std::vector<SamplingInput>& inputs,
+                            std::vector<std::unique_ptr<CovariateSource>>& readers, const std::vector<double>& x,
                             const std::vector<double>& y, const std::vector<std::uint8_t>& transformed, bool bilinear);
 
 /// GDAL category names of a band (code -> name), empty when it has none.

@@ -71,26 +71,23 @@ TEST_CASE("a valid poisson model with unknown category codes predicts and flags"
 TEST_CASE("inputs that do not line up are refused before any output exists", "[predict][errors]") {
   ErrorScene s;
   std::string err;
-  SECTION("different size") {
+  // Covariates on other grids are aligned (docs/alignment.md); what cannot be aligned is refused.
+  SECTION("a CRS far from the target: no overlap, both extents named") {
     GridSpec g = s.grid;
-    g.width = 41;
+    g.epsg = 32631;  // the same numbers in zone 31N lie 6 degrees east
     habcast::test::write_raster(s.dir.file("cover.tif"), g, "Byte", [](int, int) { return 1.0; });
     CHECK(s.run({}, &err) == 3);
-    CHECK_THAT(err, Contains("cover.tif") && Contains("elev.tif") && Contains("41"));
+    CHECK_THAT(err, Contains("cover.tif") && Contains("does not cover the target grid") && Contains("UTM zone 31N") &&
+                        Contains("UTM zone 30N"));
   }
-  SECTION("shifted origin") {
-    GridSpec g = s.grid;
-    g.origin_x += 50.0;  // half a pixel
-    habcast::test::write_raster(s.dir.file("cover.tif"), g, "Byte", [](int, int) { return 1.0; });
-    CHECK(s.run({}, &err) == 3);
-    CHECK_THAT(err, Contains("cover.tif"));
+  SECTION("a categorical covariate asked to interpolate") {
+    CHECK(s.run({"--resampling", "cover=bilinear"}, &err) == 2);
+    CHECK_THAT(err, Contains("cover") && Contains("categorical"));
   }
-  SECTION("different CRS") {
-    GridSpec g = s.grid;
-    g.epsg = 32631;
-    habcast::test::write_raster(s.dir.file("cover.tif"), g, "Byte", [](int, int) { return 1.0; });
-    CHECK(s.run({}, &err) == 3);
-    CHECK_THAT(err, Contains("UTM zone 31N") && Contains("UTM zone 30N"));
+  SECTION("a target grid of zero size") {
+    CHECK(s.run({"--grid-crs", "EPSG:32630", "--grid-resolution", "100", "--grid-bounds", "500000,3997000,500000,4000000"},
+                &err) == 2);
+    CHECK_THAT(err, Contains("zero size"));
   }
   SECTION("missing raster") {
     CHECK(s.run({"-c", "elev=" + s.dir.file("nowhere.tif")}, &err) == 3);

@@ -240,12 +240,22 @@ Covariate read_covariate(const std::string& name, const toml::node& node, const 
     if (*band < 1 || *band > 65535) s.fail(*s.get("band"), "band of \"" + name + "\" must be 1 or more");
     c.band = static_cast<int>(*band);
   }
+  if (const auto text = s.string("resampling")) {
+    c.resampling = parse_resampling(*text);
+    if (!c.resampling)
+      s.fail(*s.get("resampling"), "resampling of \"" + name + "\" must be one of " + resampling_names() + ", got \"" +
+                                       *text + "\"");
+    if (c.categorical && mixes_values(*c.resampling))
+      s.fail(*s.get("resampling"), "\"" + name + "\" is categorical, so its class codes cannot be " +
+                                       std::string(to_string(*c.resampling)) +
+                                       "-resampled (the mean of two codes is no class); use \"nearest\" or \"mode\"");
+  }
   if (c.categorical) {
     for (const char* key : {"transform", "center", "scale", "ns", "bs"})
       if (const toml::node* n = s.get(key))
         s.fail(*n, std::string(key) + " applies to continuous covariates only; \"" + name + "\" is categorical");
     read_levels(s, c);
-    s.reject_unknown("type, units, description, raster, band, levels, reference");
+    s.reject_unknown("type, units, description, raster, band, resampling, levels, reference");
   } else {
     for (const char* key : {"levels", "reference"})
       if (const toml::node* n = s.get(key))
@@ -256,7 +266,7 @@ Covariate read_covariate(const std::string& name, const toml::node& node, const 
     if (c.scale <= 0.0) s.fail(*s.get("scale"), "scale of \"" + name + "\" must be positive (it divides the centred value)");
     c.natural_spline = read_spline(s, name, SplineKind::natural, spec);
     c.bspline = read_spline(s, name, SplineKind::bspline, spec);
-    s.reject_unknown("type, units, description, raster, band, transform, center, scale, ns, bs");
+    s.reject_unknown("type, units, description, raster, band, resampling, transform, center, scale, ns, bs");
   }
   return c;
 }

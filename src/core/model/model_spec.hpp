@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "core/model/resampling.hpp"
 #include "core/model/spline_basis.hpp"
 
 namespace habcast {
@@ -43,6 +44,9 @@ struct Covariate {
   // Optional default raster (already resolved relative to the model file) and band.
   std::optional<std::string> raster;
   int band = 1;
+  /// How to bring the raster onto another grid when it is not on the target grid (key
+  /// `resampling`); unset: the rule of docs/alignment.md (bilinear / average / nearest / mode).
+  std::optional<Resampling> resampling;
   long line = 0;  ///< line of the covariate's table in the model file, for messages
 
   /// Index into `levels` of the level with this code, or -1 when the model never saw it.

@@ -107,6 +107,7 @@ void write_covariate(std::ostringstream& os, const Covariate& c, const std::stri
   }
   if (c.raster) os << "raster = " << toml_string(relative_to_model(*c.raster, model_path)) << "\n";
   if (c.band != 1) os << "band = " << c.band << "\n";
+  if (c.resampling) os << "resampling = " << toml_string(to_string(*c.resampling)) << "\n";
 }
 
 void write_coefficients(std::ostringstream& os, const ModelSpec& spec) {
