@@ -16,7 +16,11 @@
 #   `standardisation` (the values (raw - center) / scale were used in glm()), and `training_data`
 #   holds the RAW values;
 # - terms are plain variables, powers I(x^k), products a:b, log/log1p/sqrt/exp of a variable, and
-#   factors with treatment contrasts (R's default), whose first level is the reference. A variable
+#   factors with treatment contrasts (R's default), whose first level is the reference,
+#   poly(x, k) / poly(x, y, degree = k) (converted exactly to powers; a covariate used only there
+#   is re-centred on the polynomial's own centre and spread), and splines::ns(x, ...) /
+#   splines::bs(x, ...) of a plain variable (spline terms, knots declared on the covariate), alone
+#   or in products. A variable
 #   that enters only as log(x), log1p(x) or sqrt(x) (also inside I(...^k)) is written with
 #   transform = "log" (...); one that enters only as scale(x) gets the center and scale R used
 #   (from the model frame), one that enters only as I(x - c) gets center = c;
@@ -148,7 +152,14 @@ export_habcast_model <- function(fit, model_file, training_data, standardisation
     }
     NULL
   }
+  # poly(), ns() and bs() matrices of the model frame (functions at the end of this file).
+  bases <- habcast_basis_terms(fit)
   parse_part <- function(p, coef_name) {
+    for (b in bases) {
+      if (startsWith(p, b$name) && substring(p, nchar(b$name) + 1) %in% b$columns) {
+        return(list(var = b$vars, kind = "basis", power = 1))
+      }
+    }
     for (v in names(xlev)) {
       for (l in xlev[[v]]) if (p == paste0(v, l)) return(list(var = v, kind = "level", level = l, power = 1))
     }
@@ -170,11 +181,17 @@ export_habcast_model <- function(fit, model_file, training_data, standardisation
   # How each continuous variable enters: one transform, scale() or centring for all its parts
   # becomes the covariate's transform / center / scale; anything else stays a term function.
   mf <- model.frame(fit)
+  # A covariate that enters only through orthogonal poly() is re-centred on the polynomial's own
+  # centre and spread (NULL entries: keep its values).
+  st_r <- Filter(Negate(is.null), lapply(setNames(vars, vars), function(v) opt(standardisation, v)))
+  centring <- habcast_poly_centring(bases, names(est), st_r)
+  if (!is.null(offset_var)) centring[[offset_var]] <- NULL
   entry <- list()
   for (v in setdiff(vars, names(xlev))) {
-    parts <- Filter(function(p) identical(p$var, v), unlist(parsed, recursive = FALSE))
+    parts <- Filter(function(p) v %in% p$var, unlist(parsed, recursive = FALSE))
     kinds <- unique(vapply(parts, function(p) p$kind, ""))
     st <- opt(standardisation, v)
+    if (is.null(st)) st <- centring[[v]]
     e <- list(transform = "none", center = if (is.null(st)) 0 else st[["center"]],
               scale = if (is.null(st)) 1 else st[["scale"]], term_fn = TRUE)
     if (length(kinds) == 1 && kinds %in% c("log", "log1p", "sqrt") && is.null(st) && !identical(v, offset_var)) {
@@ -207,10 +224,11 @@ export_habcast_model <- function(fit, model_file, training_data, standardisation
     base <- if (p$kind %in% c("plain", "scale", "centre") || !entry[[p$var]]$term_fn) h else paste0(p$kind, "(", h, ")")
     if (p$power > 1) paste0(base, "^", p$power) else base
   }
-  labels <- vapply(seq_along(parsed), function(i) {
-    if (!length(parsed[[i]])) return("(Intercept)")
-    paste(vapply(parsed[[i]], part_label, ""), collapse = ":")
-  }, "")
+  # poly() columns become powers, ns()/bs() columns spline terms: b' = M'b, V' = M'VM. M is the
+  # identity (and the labels keep R's part order) when the model has no poly() term.
+  M <- habcast_expand_coefficients(names(est), bases, centring,
+                                   function(p) part_label(parse_part(p, p)), function(v) unname(hname[v]))
+  labels <- colnames(M)
 
   offset_text <- NULL
   if (!is.null(offset_fn)) {
@@ -233,7 +251,9 @@ export_habcast_model <- function(fit, model_file, training_data, standardisation
     samples_file <- file.path(dirname(model_file),
                               paste0(sub("\\.[^.]*$", "", basename(model_file)), "-training.csv"))
   }
-  vc <- vcov(fit)
+  est <- setNames(drop(crossprod(M, est)), labels)
+  vc <- crossprod(M, vcov(fit) %*% M)
+  vc <- (vc + t(vc)) / 2
   formula_text <- paste(trimws(deparse(formula(fit), width.cutoff = 500L)), collapse = " ")
   if (!is.null(fit$call$offset)) formula_text <- paste0(formula_text, ", offset = ", deparse1(fit$call$offset))
   description <- paste0("glm(): ", formula_text, if (nzchar(rename_note)) paste0("; covariates renamed: ", rename_note))
@@ -259,7 +279,8 @@ export_habcast_model <- function(fit, model_file, training_data, standardisation
       e <- entry[[v]]
       lines <- c(lines, "type = \"continuous\"")
       if (e$transform != "none") lines <- c(lines, paste0("transform = ", q(e$transform)))
-      lines <- c(lines, paste0("center = ", fmt17(e$center)), paste0("scale = ", fmt17(e$scale)))
+      lines <- c(lines, paste0("center = ", fmt17(e$center)), paste0("scale = ", fmt17(e$scale)),
+                 habcast_spline_lines(bases, v, fmt17, arr))
     }
     if (!is.null(opt(units, v))) lines <- c(lines, paste0("units = ", q(opt(units, v))))
     if (!is.null(opt(rasters, v))) lines <- c(lines, paste0("raster = ", q(opt(rasters, v))))
@@ -358,13 +379,13 @@ habcast_poly_centring <- function(bases, coef_names, standardisation) {
 }
 
 # One coefficient-name part -> list of monomials (coef, powers = named integer, other = labels).
-habcast_expand_part <- function(part, bases, centring, plain_label) {
+habcast_expand_part <- function(part, bases, centring, plain_label, name_of = identity) {
   for (b in bases) {
     if (!startsWith(part, b$name)) next
     column <- substring(part, nchar(b$name) + 1)
     if (!column %in% b$columns) next
     if (b$kind %in% c("ns", "bs")) {
-      return(list(list(coef = 1, powers = integer(0), other = paste0(b$kind, "(", b$vars, ")[", column, "]"))))
+      return(list(list(coef = 1, powers = integer(0), other = paste0(b$kind, "(", name_of(b$vars), ")[", column, "]"), basis = TRUE)))
     }
     degrees <- as.integer(strsplit(column, ".", fixed = TRUE)[[1]])
     coefs <- attr(b$obj, "coefs")
@@ -389,20 +410,22 @@ habcast_expand_part <- function(part, bases, centring, plain_label) {
       }
       monomials <- next_monomials
     }
-    return(monomials)
+    return(lapply(monomials, function(m) c(m, basis = TRUE)))
   }
-  list(list(coef = 1, powers = integer(0), other = plain_label(part)))
+  list(list(coef = 1, powers = integer(0), other = plain_label(part), basis = FALSE))
 }
 
-habcast_monomial_label <- function(m) {
+# Parts of a term with a basis part are sorted (one label per monomial, whatever the order of
+# the factors); a term without one keeps R's order.
+habcast_monomial_label <- function(m, name_of = identity) {
   pw <- m$powers[m$powers > 0]
-  parts <- c(if (length(pw)) ifelse(pw == 1, names(pw), paste0(names(pw), "^", pw)), m$other)
+  parts <- c(if (length(pw)) ifelse(pw == 1, name_of(names(pw)), paste0(name_of(names(pw)), "^", pw)), m$other)
   if (!length(parts)) return("(Intercept)")
-  paste(sort(parts), collapse = ":")
+  paste(if (isTRUE(m$basis)) sort(parts) else parts, collapse = ":")
 }
 
 # The map M (old coefficients x habcast terms) with eta = sum_L (M' b)_L m_L.
-habcast_expand_coefficients <- function(coef_names, bases, centring, plain_label) {
+habcast_expand_coefficients <- function(coef_names, bases, centring, plain_label, name_of = identity) {
   rows <- list()
   labels <- character(0)
   for (i in seq_along(coef_names)) {
@@ -411,12 +434,13 @@ habcast_expand_coefficients <- function(coef_names, bases, centring, plain_label
     } else {
       monomials <- list(list(coef = 1, powers = integer(0), other = character(0)))
       for (part in strsplit(coef_names[i], ":", fixed = TRUE)[[1]]) {
-        expanded <- habcast_expand_part(part, bases, centring, plain_label)
+        expanded <- habcast_expand_part(part, bases, centring, plain_label, name_of)
         combined <- list()
         for (m in monomials) for (e in expanded) {
           pw <- m$powers
           for (v in names(e$powers)) pw[v] <- (if (is.na(pw[v])) 0L else pw[v]) + e$powers[[v]]
-          combined[[length(combined) + 1]] <- list(coef = m$coef * e$coef, powers = pw, other = c(m$other, e$other))
+          combined[[length(combined) + 1]] <- list(coef = m$coef * e$coef, powers = pw, other = c(m$other, e$other),
+                                                   basis = isTRUE(m$basis) || isTRUE(e$basis))
         }
         monomials <- combined
       }
@@ -424,7 +448,7 @@ habcast_expand_coefficients <- function(coef_names, bases, centring, plain_label
     row <- numeric(0)
     for (m in monomials) {
       if (m$coef == 0) next
-      l <- habcast_monomial_label(m)
+      l <- habcast_monomial_label(m, name_of)
       if (!l %in% labels) labels <- c(labels, l)
       row[l] <- (if (is.na(row[l])) 0 else row[l]) + m$coef
     }

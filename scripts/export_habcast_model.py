@@ -15,7 +15,8 @@ Rules the model must follow (a ValueError says which one is broken):
   line; if it was standardised before fitting, give (center, scale) in `standardisation`;
 - terms are plain variables, powers I(x ** k) or I(x^k), products a:b, np.log/np.sqrt/np.exp or
   log/sqrt/exp of a variable, and treatment-coded factors C(x) (or string columns), whose first
-  level is the reference;
+  level is the reference, and patsy's B-splines bs(x, ...) of a plain variable (patsy's bs
+  follows R's splines::bs), written as habcast spline terms with their knots on the covariate;
 - factor levels map to the raster's integer codes via `categorical`. Default: when every level
   name is an integer ("0", "1", "12"), the code IS the name, so a raster of class codes means what
   the factor meant; otherwise 1, 2, ... in the order of the levels, and the mapping is printed: the
@@ -128,6 +129,8 @@ def _transforms(labels, covariates, standardisation, offset_var):
         uses = [re.fullmatch(r"(log|log1p|sqrt|exp)?\(?%s\)?(\^[0-9])?" % re.escape(var), p) for p in parts]
         uses = [m for m, p in zip(uses, parts) if m and re.search(r"\b%s\b" % re.escape(var), p)]
         fns = {m.group(1) for m in uses}
+        if any(p.startswith("bs(%s)[" % var) for p in parts):
+            continue  # the spline's knots are in the variable's own units: no transform under it
         if len(fns) == 1 and next(iter(fns)) in ("log", "log1p", "sqrt") and var not in standardisation \
                 and var != offset_var:
             transforms[var] = next(iter(fns))
@@ -138,6 +141,39 @@ def _transforms(labels, covariates, standardisation, offset_var):
             return part
         labels = [":".join(plain(p) for p in t.split(":")) for t in labels]
     return labels, transforms
+
+
+def _spline_lines(model, var):
+    """TOML line declaring the B-spline basis of `var` from patsy's stored bs() state (knots in the
+    units the model saw), or [] when `var` has no bs() term."""
+    design_info = getattr(getattr(model, "data", None), "design_info", None)
+    if design_info is None:
+        return []
+    found = []
+    for factor, info in design_info.factor_infos.items():
+        code = factor.name()
+        if not re.fullmatch(r"bs\(%s(?:,.*)?\)" % re.escape(var), code):
+            continue
+        for obj in (getattr(info, "state", None) or {}).get("transforms", {}).values():
+            if type(obj).__name__ != "BS":
+                continue
+            degree = int(obj._degree)
+            knots = np.sort(np.asarray(obj._all_knots, dtype=float))
+            lower, upper = knots[0], knots[-1]
+            inner = knots[degree + 1:len(knots) - degree - 1]
+            columns = sum(1 for n in design_info.column_names if n.startswith(code + "["))
+            intercept = columns == len(knots) - degree - 1
+            found.append((tuple(inner), lower, upper, degree, intercept))
+    if not found:
+        return []
+    if len(set(found)) > 1:
+        raise ValueError("covariate %s enters through two different bs() bases; habcast holds one per covariate" % var)
+    inner, lower, upper, degree, intercept = found[0]
+    items = ["knots = " + _arr(_fmt17(k) for k in inner), "boundary = " + _arr([_fmt17(lower), _fmt17(upper)]),
+             "degree = %d" % degree]
+    if intercept:
+        items.append("intercept = true")
+    return ["bs = { " + ", ".join(items) + " }"]
 
 
 def habcast_terms(exog_names):
@@ -322,6 +358,7 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
             if var in transforms:
                 lines.append("transform = " + _q(transforms[var]))
             lines += ["center = " + _fmt17(center), "scale = " + _fmt17(scale)]
+            lines += _spline_lines(model, var)
         if var in units:
             lines.append("units = " + _q(units[var]))
         if var in rasters:

@@ -5,8 +5,8 @@ linear predictor and standard error at new points inside the boundary knots are 
 test can check habcast's predictions from the exported file against them. (patsy's bs() refuses
 points beyond the boundary knots, so none are stored.)
 
-Run from the repository root:   /usr/bin/python3 tests/reference/export_bs_roundtrip.py
-Writes tests/reference/export_py_bs/ (model.toml, model-training.csv, predictions.csv).
+Run from the repository root:   /usr/bin/python3 tests/reference/export_bs_roundtrip.py [OUT_DIR]
+Writes (to OUT_DIR, default) tests/reference/export_py_bs/ (model.toml, model-training.csv, predictions.csv).
 """
 
 import os
@@ -22,7 +22,7 @@ import statsmodels.formula.api as smf
 sys.path.insert(0, "scripts")
 from export_habcast_model import export_habcast_model  # noqa: E402
 
-out_dir = os.path.join("tests", "reference", "export_py_bs")
+out_dir = sys.argv[1] if len(sys.argv) > 1 else os.path.join("tests", "reference", "export_py_bs")
 os.makedirs(out_dir, exist_ok=True)
 
 raw = pd.read_csv(os.path.join("tests", "reference", "mite", "training.csv"), comment="#")
