@@ -10,6 +10,9 @@
 #include "core/model/term_plan.hpp"
 #include "core/niche/niche_description.hpp"
 #include "pipeline/atomic_file.hpp"
+#include "pipeline/folder_lock.hpp"
+#include "pipeline/output_guard.hpp"
+#include "pipeline/run_files.hpp"
 #include "render/niche_plot.hpp"
 #include "render/niche_plot_png.hpp"
 
@@ -46,6 +49,7 @@ struct DescribeArgs {
   bool json = false;
   std::string plot_svg;
   std::string plot_png;
+  bool overwrite = false;
 };
 
 std::pair<std::string, std::string> split_assignment(const std::string& option, const std::string& item, const char* example) {
@@ -84,6 +88,7 @@ void translate(DescribeArgs& args) {
 
 void write_plots(const DescribeArgs& args, const ModelSpec& spec, const NicheDescription& d, std::ostream& err) {
   if (args.plot_svg.empty() && args.plot_png.empty()) return;
+  const OutputFolders folders({args.plot_svg, args.plot_png});
   if (!d.pair)
     throw UsageError("--plot needs two continuous covariates to draw; this model has fewer that are not held by --at");
   const NichePlot plot = layout_niche_plot(spec, d, args.settings.canonical.fraction);
@@ -100,6 +105,15 @@ void write_plots(const DescribeArgs& args, const ModelSpec& spec, const NicheDes
 int run_describe(DescribeArgs& args, std::ostream& out, std::ostream& err) {
   translate(args);
   const ModelSpec spec = read_model_file(args.model_path);
+  // Before any work: the plots may not be the model, its samples or each other, nor replace an
+  // existing file unless asked.
+  RunFiles files;
+  files.input("model file", spec.path);
+  if (spec.training_samples) files.input("training samples", *spec.training_samples);
+  files.output("--plot", args.plot_svg);
+  files.output("--plot-png", args.plot_png);
+  files.check();
+  refuse_to_clobber({args.plot_svg, args.plot_png}, args.overwrite, ", or choose another plot name");
   const TermPlan plan(spec);
   std::optional<TrainingSamples> samples;
   if (spec.training_samples) samples = read_training_samples(spec);
@@ -135,6 +149,7 @@ void register_describe(CLI::App& app, CommandRegistry& registry) {
   cmd->add_flag("--json", args->json, "Print JSON for pipelines instead of text (fields: docs/describe.md)");
   cmd->add_option("--plot", args->plot_svg, "FILE.svg: draw the pair: contours, training sites and hull, optimum, axes");
   cmd->add_option("--plot-png", args->plot_png, "FILE.png: the same picture as a PNG");
+  cmd->add_flag("--overwrite", args->overwrite, "Replace existing --plot and --plot-png files");
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_describe(*args, out, err); });
 }
 

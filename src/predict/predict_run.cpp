@@ -22,12 +22,11 @@
 #include "core/model/output_precision.hpp"
 #include "core/model/term_plan.hpp"
 #include "core/prediction/block_predictor.hpp"
-#include "pipeline/atomic_file.hpp"
 #include "pipeline/ordered_parallel.hpp"
-#include "pipeline/output_guard.hpp"
 #include "pipeline/recycling_pool.hpp"
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
+#include "predict/predict_folder.hpp"
 #include "predict/prediction_report.hpp"
 #include "raster/covariate_reader.hpp"
 #include "raster/gdal_session.hpp"
@@ -253,17 +252,6 @@ Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, con
                             (novelty->options().mess || novelty->options().nt2);
   const bool with_least_similar = with_novelty && novelty->options().mess;
 
-  std::vector<std::string> finals{suitability_path, out.report_path};
-  if (with_se) finals.push_back(uncertainty_path);
-  if (with_flags) finals.push_back(extrapolation_path);
-  if (with_novelty) finals.push_back(novelty_path);
-  if (with_least_similar) finals.push_back(least_similar_path);
-  refuse_to_clobber(finals, options.overwrite,
-                    " (the old file is kept until the new one is complete), or choose another output folder with -o");
-  std::vector<std::string> names;
-  for (const std::string& f : finals) names.push_back(fs::path(f).filename().string());
-  remove_stale_partials(dir.string(), names);
-
   const auto metadata = common_metadata(spec, version);
   const std::string units = spec.family == Family::binomial ? "probability" : spec.response;
 
@@ -371,6 +359,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   const ModelSpec spec = read_model_file(options.model_path);
   const TermPlan plan(spec);
   const std::vector<CovariateInput> inputs = resolve_inputs(spec, options);
+  check_predict_files(options, spec, inputs);  // no output may be an input, or another output
   const RasterGrid grid = check_inputs_co_registered(inputs);
   std::optional<TrainingSamples> samples;
   std::optional<TrainingDomain> domain;
@@ -380,7 +369,6 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     domain.emplace(spec, *samples);
     if (options.novelty.any()) novelty.emplace(spec, plan, *samples, options.novelty);
   }
-  if (!options.quicklook_path.empty()) refuse_to_clobber({options.quicklook_path}, options.overwrite, ", or choose another --quicklook path");
   if (options.max_extrapolated_percent && !domain)
     throw InputError(located(spec.path, 0, "--max-extrapolated needs training samples: add [training] samples = \"FILE.csv\""));
 
@@ -396,10 +384,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     workers.push_back(std::make_unique<Worker>(inputs, spec, plan, options.level, quantum,
                                                domain ? &*domain : nullptr, novelty ? &*novelty : nullptr));
 
-  std::error_code ec;
-  fs::create_directories(options.output_dir, ec);
-  if (ec || !fs::is_directory(options.output_dir))
-    throw IoError(options.output_dir + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
+  const PredictFolder folder(options);  // created, locked, leftovers of killed runs resolved
   Outputs out = create_outputs(options, spec, grid, spec.covariance.has_value(), domain.has_value(),
                                novelty ? &*novelty : nullptr, tool_version, threads);
 
@@ -440,18 +425,15 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     throw_if_stopped();
     r->close();
   }
-  // Rename only when every raster is complete, so a run leaves all its outputs or none.
-  for (OutputRaster* r : out.all()) r->commit();
-  // The quicklook is a convenience: if it cannot be drawn, the committed rasters still stand.
-  std::string quicklook_problem;
-  if (!options.quicklook_path.empty()) {
-    try {
-      write_quicklook(out.suitability->final_path(), out.extrapolation ? out.extrapolation->final_path() : "",
-                      options.quicklook_path, spec.name.empty() ? "habcast prediction" : spec.name);
-    } catch (const Error& e) {
-      quicklook_problem = std::string("no quicklook was written: ") + e.what();
-    }
-  }
+  // Nothing is renamed until every file of the set is complete: then all of it at once.
+  PredictCommit commit(options);
+  commit.take_rasters(out.all());
+  // The quicklook is a convenience: if it cannot be drawn, the rasters still stand.
+  const std::string quicklook_problem = commit.add_quicklook([&](const std::string& png) {
+    write_quicklook(commit.finished(out.suitability->final_path()),
+                    out.extrapolation ? commit.finished(out.extrapolation->final_path()) : "", png,
+                    spec.name.empty() ? "habcast prediction" : spec.name);
+  });
 
   ReportContext ctx;
   ctx.tool_version = tool_version;
@@ -490,7 +472,8 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     }
   }
   summary.report["exit_code"] = static_cast<int>(summary.exit_code);
-  write_file_atomically(out.report_path, summary.report.dump(2) + "\n");
+  commit.add_report(out.report_path, summary.report.dump(2) + "\n");
+  commit.commit();
   for (const auto& [role, path] : ctx.outputs) {
     (void)role;
     summary.outputs.push_back(path);

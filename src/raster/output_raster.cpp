@@ -371,6 +371,14 @@ void OutputRaster::commit() {
   move_sidecar(self.temporary_path, self.spec.final_path);
 }
 
+std::string OutputRaster::hand_over() {
+  Impl& self = *impl_;
+  close();
+  if (!self.close_error.empty()) throw IoError(self.close_error);
+  self.committed = true;  // no longer ours to delete
+  return self.temporary_path;
+}
+
 std::string sidecar_of(const std::string& path) { return path + ".aux.xml"; }
 
 void move_sidecar(const std::string& temporary_path, const std::string& final_path) {

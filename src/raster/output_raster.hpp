@@ -78,6 +78,11 @@ class OutputRaster {
   /// final_path by an earlier run is removed.
   void commit();
 
+  /// For outputs committed as a set (pipeline/output_set.hpp): closes the file (checked, as
+  /// commit() does) and hands its temporary file, and any sidecar beside it, to the caller, who
+  /// renames or deletes it; this object no longer deletes it. Returns the temporary path.
+  std::string hand_over();
+
   [[nodiscard]] const std::string& temporary_path() const;
   [[nodiscard]] const std::string& final_path() const;
 
@@ -97,8 +102,9 @@ std::string sidecar_of(const std::string& path);
 /// final_path goes when there is no new one. Throws IoError naming the sidecar.
 void move_sidecar(const std::string& temporary_path, const std::string& final_path);
 
-/// Deletes leftover "*.partial" files in `folder` for `final_names` whose writer process is gone
-/// (after a SIGKILL). Returns how many were removed.
+/// Deletes leftover temporary files (".NAME.PID.partial" and what GDAL put beside them) of
+/// `final_names` in `folder`, whatever their pid. Call it only while holding the folder's lock
+/// (pipeline/folder_lock.hpp): then no live run writes there. Returns how many were removed.
 int remove_stale_partials(const std::string& folder, const std::vector<std::string>& final_names);
 
 }  // namespace habcast
