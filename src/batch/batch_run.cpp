@@ -313,6 +313,7 @@ BatchSummary run_batch(const BatchOptions& options, Progress& progress, const st
   if (region_lock.held() && !options.shard) {
     recover_output_sets(plan.manifest.output_dir);
     remove_stale_partials(plan.manifest.output_dir, {"batch-report.json", "batch-report.csv"});
+    remove_stale_partials(plan.manifest.output_dir, mosaic_owned_names());
   }
 
   std::vector<std::size_t> selected;

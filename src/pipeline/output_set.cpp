@@ -1,8 +1,5 @@
 #include "pipeline/output_set.hpp"
 
-#include <fcntl.h>
-#include <unistd.h>
-
 #include <atomic>
 #include <cerrno>
 #include <cstring>
@@ -39,17 +36,6 @@ bool plain_name(const std::string& name) {
   return !name.empty() && name != "." && name != ".." && name.find('/') == std::string::npos &&
          name.find('\n') == std::string::npos && name.find('\t') == std::string::npos;
 }
-
-/// Makes the file's bytes durable before the rename that publishes them (a kill needs no sync;
-/// a power cut does).
-void sync_file(const std::string& path) {
-  const int fd = open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) return;
-  fsync(fd);
-  close(fd);
-}
-
-void sync_folder(const std::string& folder) { sync_file(folder.empty() ? "." : folder); }
 
 /// The temporary files GDAL may add beside a temporary raster (sidecar, overview scratch).
 void remove_temporary(const std::string& path) {
@@ -154,10 +140,6 @@ void OutputSet::commit() {
     std::error_code ec;
     if (!provided && fs::exists(fs::symlink_status(folder / name, ec))) record.removals.push_back(name);
   }
-  for (const auto& [from, to] : renames_) {
-    (void)to;
-    sync_file((folder / from).string());
-  }
   const fs::path record_path = folder / (kRecordPrefix + name_);
   // One writer per folder (FolderLock), so the record's temporary name needs no pid.
   const std::string temporary = record_path.string() + ".partial";
@@ -173,7 +155,6 @@ void OutputSet::commit() {
                                            "unchanged");
     }
   }
-  sync_file(temporary);
   try {
     rename_or_throw(temporary, record_path);
   } catch (const SimulatedCrash&) {
@@ -184,9 +165,10 @@ void OutputSet::commit() {
     throw;
   }
   committed_ = true;  // the commit point: from here on the new set stands
-  sync_folder(folder_);
+  // No fsync: the promise is about processes killed at any instant, which the page cache
+  // survives; syncing every raster would cost tens of milliseconds per file for a power cut
+  // (docs/limits.md says so).
   apply_record(folder, record, record_path);
-  sync_folder(folder_);
 }
 
 int recover_output_sets(const std::string& folder) {
