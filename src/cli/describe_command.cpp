@@ -1,4 +1,5 @@
 // `habcast describe`: options -> DescribeSettings -> describe_niche -> text or JSON, and the plot.
+#include <cmath>
 #include <memory>
 #include <ostream>
 
@@ -72,6 +73,7 @@ void translate(DescribeArgs& args) {
       used = 0;
     }
     if (used != text.size()) throw UsageError("--at " + item + ": \"" + text + "\" is not a number");
+    if (!std::isfinite(value)) throw UsageError("--at " + item + ": \"" + text + "\" is not a finite number");
     if (!args.settings.at.emplace(name, value).second) throw UsageError("--at " + name + "=... is given twice");
   }
   for (const std::string& item : args.levels) {
