@@ -456,6 +456,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
 
   PredictSummary summary;
   summary.warnings = prediction_warnings(ctx);
+  if (samples) summary.warnings.insert(summary.warnings.begin(), samples->warnings.begin(), samples->warnings.end());
   if (!quicklook_problem.empty()) summary.warnings.push_back(quicklook_problem);
   summary.report = prediction_report(ctx, summary.warnings);
   if (options.max_extrapolated_percent && domain) {
