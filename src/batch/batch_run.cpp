@@ -92,6 +92,11 @@ BatchPlan make_plan(const BatchOptions& options, const std::string& tool_version
   if (plan.spec.training_samples && !fs::exists(*plan.spec.training_samples))
     throw InputError(located(plan.spec.path, plan.spec.training_line, "training samples " + *plan.spec.training_samples +
                                                                           " do not exist; check the path (relative to the model file)"));
+  try {
+    check_creation_options(plan.manifest.creation_options);  // not once per tile, failing each
+  } catch (const UsageError& e) {
+    throw UsageError(plan.manifest.path + ": creation_options: " + e.what());
+  }
   plan.tiles = list_tiles(plan.manifest, plan.spec);
   check_batch_files(plan.manifest, plan.spec, plan.tiles);
   plan.settings = {plan.manifest.level, plan.manifest.block_size, plan.manifest.creation_options, plan.manifest.overviews};

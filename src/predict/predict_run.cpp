@@ -26,6 +26,7 @@
 #include "pipeline/recycling_pool.hpp"
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
+#include "predict/empty_map.hpp"
 #include "predict/predict_folder.hpp"
 #include "predict/prediction_report.hpp"
 #include "raster/covariate_reader.hpp"
@@ -354,6 +355,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
                      "1e-4), got " + format_value(*options.max_error));
   check_novelty_options(options.novelty);
   ensure_gdal();
+  check_creation_options(options.creation_options);
 
   // Everything that can be wrong with the inputs is found before any output is created.
   const ModelSpec spec = read_model_file(options.model_path);
@@ -457,6 +459,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   PredictSummary summary;
   summary.warnings = prediction_warnings(ctx);
   if (samples) summary.warnings.insert(summary.warnings.begin(), samples->warnings.begin(), samples->warnings.end());
+  if (total.predicted == 0 && total.pixels > 0) summary.warnings.push_back(empty_map_warning(inputs, grid));
   if (!quicklook_problem.empty()) summary.warnings.push_back(quicklook_problem);
   summary.report = prediction_report(ctx, summary.warnings);
   if (options.max_extrapolated_percent && domain) {

@@ -91,8 +91,19 @@ class OutputRaster {
   std::unique_ptr<Impl> impl_;
 };
 
+/// Checks the user's GeoTIFF creation options before any work, against GDAL's own list for the
+/// GeoTIFF driver (unknown key, value not among the allowed ones, not a whole number) and
+/// libtiff's rules that GDAL's list does not state (tile edges multiples of 16; no 8-bit-only
+/// compression for Float32 outputs). Throws UsageError naming the option.
+void check_creation_options(const std::vector<std::string>& user_options);
+
 /// Temporary name used for `final_path`: ".<name>.<pid>.partial" in the same folder.
 std::string temporary_path_for(const std::string& final_path);
+
+/// What a failed write into `folder` says about its storage, in the user's words ("no space left
+/// on ...", a quota, a file-size limit), from `error_number` (errno after the failure) or the
+/// folder's free space; empty when neither points at the storage.
+std::string storage_problem(const std::string& folder, int error_number);
 
 /// GDAL's .aux.xml sidecar of a raster file (category names, attribute table).
 std::string sidecar_of(const std::string& path);
