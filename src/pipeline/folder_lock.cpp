@@ -12,6 +12,7 @@
 #include <fstream>
 #include <map>
 #include <mutex>
+#include <sstream>
 
 #include "core/base/error.hpp"
 #include "core/base/utc_time.hpp"
@@ -56,8 +57,18 @@ std::string process_identity() {
     gethostname(host, sizeof host - 1);
     std::string boot = first_line("/proc/sys/kernel/random/boot_id");
     if (boot.empty()) boot = "unknown";
-    return std::string("host ") + host + ", boot " + boot + ", pid " + std::to_string(getpid()) + ", started " +
-           utc_now();
+    // Field 22 of /proc/self/stat: the start time in clock ticks since boot. With the boot id it
+    // names this process uniquely, even after its pid is reused.
+    std::string ticks = "unknown";
+    const std::string stat = first_line("/proc/self/stat");
+    if (const auto close = stat.rfind(')'); close != std::string::npos) {
+      std::istringstream fields(stat.substr(close + 2));
+      std::string field;
+      for (int i = 3; i <= 22 && fields >> field; ++i)
+        if (i == 22) ticks = field;
+    }
+    return std::string("host ") + host + ", boot " + boot + ", pid " + std::to_string(getpid()) + " (start tick " +
+           ticks + "), started " + utc_now();
   }();
   return identity;
 }

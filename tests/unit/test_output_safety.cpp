@@ -196,7 +196,7 @@ TEST_CASE("The lock file says who holds it beyond the pid: host, boot and start"
     const habcast::FolderLock lock(dir.path().string());
     REQUIRE(lock.held());
     const std::string text = read_text(dir.file(".habcast.lock"));
-    CHECK_THAT(text, Contains("host ") && Contains(", boot ") && Contains("pid " + std::to_string(getpid())) &&
+    CHECK_THAT(text, Contains("host ") && Contains(", boot ") && Contains("pid " + std::to_string(getpid()) + " (start tick ") &&
                          Contains("started "));
     const habcast::FolderLock again(dir.path().string());  // the same process may take it again
     CHECK(again.held());
