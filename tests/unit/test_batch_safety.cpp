@@ -28,9 +28,9 @@ using habcast::test::read_text;
 using Files = std::map<std::string, std::string>;
 
 /// Raises the stop flag once `pixels` pixels are done, as Ctrl-C would mid-tile.
-class StopAfterPixels final : public habcast::Progress {
+class StopForceRunAfterPixels final : public habcast::Progress {
  public:
-  explicit StopAfterPixels(std::int64_t pixels) : pixels_(pixels) {}
+  explicit StopForceRunAfterPixels(std::int64_t pixels) : pixels_(pixels) {}
   void start(const std::string&, std::int64_t) override {}
   void advance(std::int64_t done) override {
     if (done > pixels_) habcast::raise_stop_for_testing(SIGINT);
@@ -43,7 +43,7 @@ class StopAfterPixels final : public habcast::Progress {
 };
 
 /// Region-level files of the mosaic (layers and COGs), name -> bytes.
-Files mosaic_files(const std::string& out) {
+Files region_mosaic_files(const std::string& out) {
   Files files;
   for (const std::string& name : habcast::test::list_dir(out))
     if (name.ends_with(".vrt") || name.ends_with(".tif") || name.ends_with(".aux.xml") || name.starts_with(".habcast-commit") ||
@@ -52,7 +52,7 @@ Files mosaic_files(const std::string& out) {
   return files;
 }
 
-Files tile_files(const std::string& folder) {
+Files tile_output_files(const std::string& folder) {
   Files files;
   for (const std::string& name : habcast::test::list_dir(folder))
     if (name != "tile-record.json") files[name] = read_text(folder + "/" + name);
@@ -66,20 +66,20 @@ TEST_CASE("an interrupted --force re-run keeps every tile's outputs and the mosa
   REQUIRE(s.run({"-q", "--threads", "1", "--tile-workers", "1"}) == 0);
   std::map<std::string, Files> before;
   for (int r = 0; r < 2; ++r)
-    for (int c = 0; c < 2; ++c) before[BatchScene::id(r, c)] = tile_files(s.tile_out(s.out(), r, c));
+    for (int c = 0; c < 2; ++c) before[BatchScene::id(r, c)] = tile_output_files(s.tile_out(s.out(), r, c));
 
   habcast::BatchOptions options;
   options.manifest_path = s.manifest();
   options.force = true;
   options.threads = 1;
   options.tile_workers = 1;
-  StopAfterPixels stop(1800);  // inside the second tile
+  StopForceRunAfterPixels stop(1800);  // inside the second tile
   CHECK_THROWS_AS(habcast::run_batch(options, stop, "test"), habcast::Interrupted);
   habcast::raise_stop_for_testing(0);
   for (int r = 0; r < 2; ++r)
     for (int c = 0; c < 2; ++c) {
       INFO(BatchScene::id(r, c));
-      const Files now = tile_files(s.tile_out(s.out(), r, c));
+      const Files now = tile_output_files(s.tile_out(s.out(), r, c));
       CHECK(now.size() == before[BatchScene::id(r, c)].size());
       for (const auto& [name, text] : before[BatchScene::id(r, c)]) CHECK(now.count(name) == 1);
     }
@@ -91,12 +91,12 @@ TEST_CASE("a redone tile that fails keeps its whole earlier set of outputs", "[b
   BatchScene s(1, 2, 30, 20);
   REQUIRE(s.run({"-q"}) == 0);
   const std::string tile = s.tile_out(s.out(), 0, 0);
-  const Files before = tile_files(tile);
+  const Files before = tile_output_files(tile);
   REQUIRE(before.count("novelty.tif") == 1);
   fs::remove(s.file("tiles/" + BatchScene::id(0, 0) + "/elev.tif"));
   std::string out;
   CHECK(s.run({"-q"}, &out) == 6);
-  CHECK(tile_files(tile) == before);  // old rasters, sidecars and report, all of them, unchanged
+  CHECK(tile_output_files(tile) == before);  // old rasters, sidecars and report, all of them, unchanged
   CHECK_THAT(read_text(tile + "/tile-record.json"), Contains("failed"));
 }
 
@@ -106,7 +106,7 @@ TEST_CASE("the region mosaic killed at any step of its commit is the old one or 
   REQUIRE(s.run({"-q", "-o", old_out}) == 0);
   fs::copy(old_out, new_out, fs::copy_options::recursive);
   REQUIRE(s.run({"-q", "-o", new_out, "--mosaic-only", "--cog"}) == 0);
-  const Files old_set = mosaic_files(old_out), new_set = mosaic_files(new_out);
+  const Files old_set = region_mosaic_files(old_out), new_set = region_mosaic_files(new_out);
   REQUIRE(new_set.count("suitability.tif") == 1);
   REQUIRE(old_set.count("suitability.tif") == 0);
   for (int k = 0;; ++k) {
@@ -118,7 +118,7 @@ TEST_CASE("the region mosaic killed at any step of its commit is the old one or 
     const bool crashed = habcast::crash_simulated();
     habcast::arm_commit_fault_for_testing(-1);
     if (!crashed) {
-      CHECK(mosaic_files(out) == new_set);
+      CHECK(region_mosaic_files(out) == new_set);
       CHECK(k > 10);
       break;
     }
@@ -127,7 +127,7 @@ TEST_CASE("the region mosaic killed at any step of its commit is the old one or 
       habcast::recover_output_sets(out);
       habcast::remove_stale_partials(out, habcast::mosaic_owned_names());
     }
-    const Files after = mosaic_files(out);
+    const Files after = region_mosaic_files(out);
     CHECK((after == old_set || after == new_set));
     fs::remove_all(out);
   }
@@ -137,7 +137,7 @@ TEST_CASE("a stop signal during the mosaic step ends the run as interrupted and 
           "[batch][safety]") {
   BatchScene s(1, 2, 30, 20);
   REQUIRE(s.run({"-q"}) == 0);
-  const Files before = mosaic_files(s.out());
+  const Files before = region_mosaic_files(s.out());
   // A temporary an earlier killed mosaic step left (GDAL's overview scratch beside a COG).
   habcast::test::write_text(s.out() + "/.suitability.tif.4242.partial.ovr.tmp", "scratch");
   habcast::BatchOptions options;
@@ -154,7 +154,7 @@ TEST_CASE("a stop signal during the mosaic step ends the run as interrupted and 
     CHECK(static_cast<int>(e.code()) == 143);
   }
   habcast::raise_stop_for_testing(0);
-  CHECK(mosaic_files(s.out()) == before);  // the scratch file is gone too: the run cleaned it
+  CHECK(region_mosaic_files(s.out()) == before);  // the scratch file is gone too: the run cleaned it
 }
 
 TEST_CASE("a second batch run into a region in use is refused with a clear message", "[batch][safety]") {

@@ -14,10 +14,10 @@ using Catch::Matchers::Contains;
 
 namespace {
 
-struct Scene {
+struct MessageScene {
   habcast::test::TempDir dir{"messages"};
   std::string model = dir.file("m.toml");
-  explicit Scene(bool empty_raster = false) {
+  explicit MessageScene(bool empty_raster = false) {
     habcast::test::GridSpec grid{8, 8};
     habcast::test::write_raster(dir.file("x.tif"), grid, "Float32", [](int r, int c) { return r * 0.7 + c * 0.3; });
     habcast::test::write_raster(dir.file("y.tif"), grid, "Float32",
@@ -31,7 +31,7 @@ struct Scene {
 }  // namespace
 
 TEST_CASE("Creation options are checked against GDAL's list before any work, naming the option", "[safety][messages]") {
-  Scene s;
+  MessageScene s;
   const std::string out = s.dir.file("out");
   const std::vector<std::pair<std::string, std::string>> cases = {
       {"BLOCKXSIZE=7", "multiples of 16"},      // libtiff's rule for tiles
@@ -69,7 +69,7 @@ TEST_CASE("A storage failure is named: no space left, a quota, a file-size limit
 }
 
 TEST_CASE("A map without a predicted pixel warns and names the empty covariate", "[safety][messages]") {
-  Scene s(true);
+  MessageScene s(true);
   std::string out, err;
   CHECK(habcast::test::run_cli({"predict", s.model, "-o", s.dir.file("out"), "-q"}, &out, &err) == 0);
   CHECK_THAT(err, Contains("No pixel was predicted") && Contains("y (") && Contains("y.tif"));

@@ -26,11 +26,11 @@ using habcast::test::TempDir;
 using habcast::test::write_text;
 
 /// A small model with covariance and training samples over an 8 x 8 raster x.tif.
-struct Scene {
+struct SafetyScene {
   TempDir dir{"safety"};
   std::string model = dir.file("m.toml");
   std::string raster = dir.file("x.tif");
-  Scene() {
+  SafetyScene() {
     GridSpec grid{8, 8};
     habcast::test::write_raster(raster, grid, "Float32", [](int r, int c) { return r * 0.7 + c * 0.3; });
     write_text(dir.file("t.csv"), "x\n1\n2.5\n6\n");
@@ -68,7 +68,7 @@ TEST_CASE("Two names of one file, by a symbolic or a hard link, are one file to 
 }
 
 TEST_CASE("predict refuses a quicklook named like one of its own outputs, naming both", "[safety]") {
-  Scene s;
+  SafetyScene s;
   const std::string out = s.dir.file("qlc");
   std::string err;
   CHECK(run_cli({"predict", s.model, "-o", out, "-q", "--quicklook", out + "/suitability.tif"}, nullptr, &err) == 2);
@@ -78,7 +78,7 @@ TEST_CASE("predict refuses a quicklook named like one of its own outputs, naming
 
 TEST_CASE("predict refuses, even with --overwrite, a quicklook or output folder that would replace an input",
           "[safety]") {
-  Scene s;
+  SafetyScene s;
   const std::string before = read_text(s.raster);
   std::string err;
   CHECK(run_cli({"predict", s.model, "-o", s.dir.file("o1"), "-q", "--overwrite", "--quicklook", s.raster}, nullptr,
@@ -125,7 +125,7 @@ TEST_CASE("describe's plots refuse an existing file unless --overwrite, and neve
 }
 
 TEST_CASE("evaluate never writes its binary map onto its own --prediction, even with --overwrite", "[safety]") {
-  Scene s;
+  SafetyScene s;
   REQUIRE(run_cli({"predict", s.model, "-o", s.dir.file("out"), "-q"}) == 0);
   const std::string prediction = s.dir.file("out/suitability.tif");
   const std::string before = read_text(prediction);
@@ -139,7 +139,7 @@ TEST_CASE("evaluate never writes its binary map onto its own --prediction, even 
 }
 
 TEST_CASE("fit never writes its samples table over the survey points, even with --overwrite", "[safety]") {
-  Scene s;
+  SafetyScene s;
   const std::string points = s.dir.file("survey.csv");
   write_text(points, "x,y,presence\n500150,3999850,1\n500450,3999450,0\n500250,3999650,1\n");
   const std::string before = read_text(points);
@@ -152,7 +152,7 @@ TEST_CASE("fit never writes its samples table over the survey points, even with 
 }
 
 TEST_CASE("batch refuses up front a tile whose output folder holds an input named like an output", "[safety]") {
-  Scene s;
+  SafetyScene s;
   // output = "." and the tile pattern put each tile's outputs beside its rasters; the covariate
   // "suitability" is read from tiles/a/suitability.tif, which the tile would write.
   const std::string tile = s.dir.file("tiles/a");
@@ -171,7 +171,7 @@ TEST_CASE("batch refuses up front a tile whose output folder holds an input name
 }
 
 TEST_CASE("A second writer into a locked output folder is refused, told who holds it", "[safety]") {
-  Scene s;
+  SafetyScene s;
   const std::string out = s.dir.file("out");
   fs::create_directories(out);
   // Another process's lock: a separate open file description conflicts like another process.

@@ -24,32 +24,32 @@ using Files = std::map<std::string, std::string>;
 
 /// Every file in `folder` but the lock file (a killed run's lock file is harmless: its lock died
 /// with it), name -> bytes.
-Files files_in(const std::string& folder) {
+Files set_files_in(const std::string& folder) {
   Files files;
   for (const std::string& name : habcast::test::list_dir(folder))
     if (name != habcast::kLockFileName) files[name] = read_text(folder + "/" + name);
   return files;
 }
 
-void put(const std::string& folder, const Files& files) {
+void put_set(const std::string& folder, const Files& files) {
   fs::remove_all(folder);
   fs::create_directories(folder);
   for (const auto& [name, text] : files) write_text(folder + "/" + name, text);
 }
 
 /// Arms the fault for one test and disarms it however the test ends.
-struct Fault {
-  explicit Fault(int step) { habcast::arm_commit_fault_for_testing(step); }
-  ~Fault() { habcast::arm_commit_fault_for_testing(-1); }
-  Fault(const Fault&) = delete;
-  Fault& operator=(const Fault&) = delete;
+struct ArmedFault {
+  explicit ArmedFault(int step) { habcast::arm_commit_fault_for_testing(step); }
+  ~ArmedFault() { habcast::arm_commit_fault_for_testing(-1); }
+  ArmedFault(const ArmedFault&) = delete;
+  ArmedFault& operator=(const ArmedFault&) = delete;
 };
 
 /// Commits new_files over `folder` (which holds `old`), crashing at commit step `step` (-1: none).
 /// Returns whether the crash happened.
 bool commit_with_crash_at(const std::string& folder, const Files& new_files, const std::vector<std::string>& owned,
                           int step) {
-  const Fault fault(step);
+  const ArmedFault fault(step);
   try {
     habcast::OutputSet set(folder, "test", owned);
     for (const auto& [name, text] : new_files) {
@@ -66,7 +66,7 @@ bool commit_with_crash_at(const std::string& folder, const Files& new_files, con
 
 /// What the next run does first, itself crashing at `step` (-1: none). Returns whether it crashed.
 bool recover_with_crash_at(const std::string& folder, const std::vector<std::string>& owned, int step) {
-  const Fault fault(step);
+  const ArmedFault fault(step);
   try {
     habcast::recover_output_sets(folder);
     habcast::remove_stale_partials(folder, owned);
@@ -89,10 +89,10 @@ TEST_CASE("A commit killed before any of its steps leaves the old set or the new
   for (const Files& before : {old_set, Files{}}) {
     int steps = 0;
     for (int k = 0;; ++k) {
-      put(folder, before);
+      put_set(folder, before);
       if (!commit_with_crash_at(folder, new_set, owned, k)) {
         steps = k;
-        CHECK(files_in(folder) == new_set);
+        CHECK(set_files_in(folder) == new_set);
         break;
       }
       INFO("crash before commit step " << k);
@@ -107,7 +107,7 @@ TEST_CASE("A commit killed before any of its steps leaves the old set or the new
         if (!crashed) break;
       }
       REQUIRE_FALSE(recover_with_crash_at(folder, owned, -1));
-      const Files after = files_in(folder);
+      const Files after = set_files_in(folder);
       CHECK((after == before || after == new_set));
       CHECK(after == (recorded ? new_set : before));
     }
@@ -142,7 +142,7 @@ TEST_CASE("predict killed at any step of its commit leaves its old outputs or it
   };
   REQUIRE(run(old_model, dir.file("old"), old_args) == 0);
   REQUIRE(run(new_model, dir.file("new"), {"-q", "--checks", "range"}) == 0);
-  const Files old_set = files_in(dir.file("old")), new_set = files_in(dir.file("new"));
+  const Files old_set = set_files_in(dir.file("old")), new_set = set_files_in(dir.file("new"));
   REQUIRE(old_set.count("novelty.tif") == 1);
   REQUIRE(new_set.count("novelty.tif") == 0);
   // The report names its own folder and times: the rasters are compared byte for byte, the
@@ -167,12 +167,12 @@ TEST_CASE("predict killed at any step of its commit leaves its old outputs or it
       if (!first_run) fs::copy(dir.file("old"), out);
       bool crashed = false;
       {
-        const Fault fault(k);
+        const ArmedFault fault(k);
         run(new_model, out, new_args);
         crashed = habcast::crash_simulated();
       }
       if (!crashed) {
-        CHECK(same_set(files_in(out), new_set, "new"));
+        CHECK(same_set(set_files_in(out), new_set, "new"));
         // The record, its rename, 5 renames (3 rasters, a sidecar, the report), the record's
         // removal; a re-run also removes novelty.tif, least_similar.tif and its sidecar.
         CHECK(k == (first_run ? 8 : 11));
@@ -183,7 +183,7 @@ TEST_CASE("predict killed at any step of its commit leaves its old outputs or it
       next.output_dir = out;
       next.overwrite = true;
       { const habcast::PredictFolder folder(next); }
-      const Files after = files_in(out);
+      const Files after = set_files_in(out);
       const bool is_old = first_run ? after.empty() : same_set(after, old_set, "old");
       CHECK((is_old || same_set(after, new_set, "new")));
     }
