@@ -19,7 +19,11 @@
 #include "batch/tile_record.hpp"
 #include "core/model/model_file.hpp"
 #include "pipeline/atomic_file.hpp"
+#include "pipeline/folder_lock.hpp"
+#include "pipeline/output_set.hpp"
+#include "pipeline/run_files.hpp"
 #include "pipeline/stop_signal.hpp"
+#include "predict/predict_folder.hpp"
 #include "predict/predict_run.hpp"
 #include "predict/prediction_report.hpp"
 #include "predict/unit_pass.hpp"
@@ -35,11 +39,6 @@ namespace fs = std::filesystem;
 using json = nlohmann::ordered_json;
 using Clock = std::chrono::steady_clock;
 
-/// Files a tile folder may hold from an earlier attempt; removed before a tile is redone so the
-/// folder never mixes two runs.
-const std::vector<std::string> kTileFiles = {"suitability.tif", "uncertainty.tif", "extrapolation.tif",
-                                             "extrapolation.tif.aux.xml", "report.json", "tile-record.json"};
-
 /// Everything fixed for the whole batch once the manifest and model are read.
 struct BatchPlan {
   BatchManifest manifest;
@@ -53,6 +52,33 @@ struct BatchPlan {
     return tile_fingerprint(tile, model_hash, settings, tool_version);
   }
 };
+
+/// Before any tile runs: no output of any tile, nor of the region, may be an input of a tile
+/// (e.g. output = "." with a covariate raster named suitability.tif in the tile's folder).
+void check_batch_files(const BatchManifest& manifest, const ModelSpec& spec, const std::vector<Tile>& tiles) {
+  RunFiles region;
+  region.input("model file", spec.path);
+  if (spec.training_samples) region.input("training samples", *spec.training_samples);
+  for (const std::string& name : mosaic_owned_names())
+    region.output("region output " + name, (fs::path(manifest.output_dir) / name).string());
+  for (const char* name : {"batch-report.json", "batch-report.csv"})
+    region.output(std::string("region output ") + name, (fs::path(manifest.output_dir) / name).string());
+  for (const Tile& tile : tiles) {
+    RunFiles files;
+    files.input("model file", spec.path);
+    if (spec.training_samples) files.input("training samples", *spec.training_samples);
+    const std::string dir = tile_folder(manifest.output_dir, tile.id);
+    for (const auto& [covariate, path] : tile.rasters) {
+      files.input("tile " + tile.id + " raster of covariate " + covariate, path);
+      region.input("tile " + tile.id + " raster of covariate " + covariate, path);
+    }
+    for (const std::string& name : predict_owned_names())
+      files.output("tile " + tile.id + " output " + name, (fs::path(dir) / name).string());
+    files.output("tile " + tile.id + " record", record_path(dir));
+    files.check();
+  }
+  region.check();
+}
 
 BatchPlan make_plan(const BatchOptions& options, const std::string& tool_version) {
   BatchPlan plan;
@@ -68,7 +94,13 @@ BatchPlan make_plan(const BatchOptions& options, const std::string& tool_version
   if (plan.spec.training_samples && !fs::exists(*plan.spec.training_samples))
     throw InputError(located(plan.spec.path, plan.spec.training_line, "training samples " + *plan.spec.training_samples +
                                                                           " do not exist; check the path (relative to the model file)"));
+  try {
+    check_creation_options(plan.manifest.creation_options);  // not once per tile, failing each
+  } catch (const UsageError& e) {
+    throw UsageError(plan.manifest.path + ": creation_options: " + e.what());
+  }
   plan.tiles = list_tiles(plan.manifest, plan.spec);
+  check_batch_files(plan.manifest, plan.spec, plan.tiles);
   plan.settings = {plan.manifest.level, plan.manifest.block_size, plan.manifest.creation_options, plan.manifest.overviews,
                    nullptr, options.alignment};
   if (!plan.manifest.units_path.empty()) {
@@ -96,15 +128,6 @@ std::int64_t tile_pixels(const Tile& tile) {
   return 0;
 }
 
-void clear_tile_folder(const std::string& dir) {
-  // The record goes first: if anything below is interrupted the tile reads as "not run" next time.
-  for (const std::string& name : kTileFiles) {
-    std::error_code ignored;
-    fs::remove(fs::path(dir) / name, ignored);
-  }
-  remove_stale_partials(dir, {"tile-record.json"});
-}
-
 void check_rasters_exist(const Tile& tile) {
   std::string missing;
   for (const auto& [covariate, path] : tile.rasters)
@@ -125,11 +148,16 @@ TileRun run_tile(const BatchPlan& plan, const Tile& tile, int threads, TileProgr
   TileRun run;
   run.outcome.id = tile.id;
   run.outcome.ran_this_run = true;
+  std::unique_ptr<FolderLock> lock;
   try {
     std::error_code ec;
     fs::create_directories(dir, ec);
     if (ec) throw IoError(dir + ": cannot create the tile's output folder: " + ec.message());
-    clear_tile_folder(dir);
+    // Held through predict (which takes it again) and the record: one writer per tile folder.
+    // Nothing is cleared first: predict replaces the tile's outputs as one set, so an interrupted
+    // or failed redo leaves the earlier outputs whole, and the region's mosaic readable.
+    lock = std::make_unique<FolderLock>(dir);
+    if (lock->held()) remove_stale_partials(dir, {"tile-record.json"});
     check_rasters_exist(tile);
     PredictOptions po;
     po.model_path = plan.spec.path;
@@ -234,6 +262,7 @@ int choose_threads(int requested) {
 /// this process has just done.
 void finish_region(const BatchPlan& plan, const BatchOptions& options, std::map<std::string, TileRun>& known,
                    BatchSummary& summary) {
+  throw_if_stopped();
   std::vector<FinishedTile> finished;
   RegionReportInput in;
   in.tool_version = plan.tool_version;
@@ -291,9 +320,7 @@ void finish_region(const BatchPlan& plan, const BatchOptions& options, std::map<
   }
   report.json["warnings"] = summary.warnings;
   report.json["exit_code"] = exit_code;
-  std::error_code ec;
-  fs::create_directories(plan.manifest.output_dir, ec);
-  remove_stale_partials(plan.manifest.output_dir, {"batch-report.json", "batch-report.csv"});
+  throw_if_stopped();
   for (const std::string& p : write_region_report(plan.manifest.output_dir, report)) summary.outputs.push_back(p);
   summary.report = std::move(report.json);
   summary.exit_code = exit_code;
@@ -309,6 +336,17 @@ BatchSummary run_batch(const BatchOptions& options, Progress& progress, const st
   if (options.threads < 0 || options.tile_workers < 0) throw UsageError("--threads and --tile-workers must be 0 or more");
   ensure_gdal();
   const BatchPlan plan = make_plan(options, tool_version);
+  // One batch per region folder; shards of one batch share it (each tile folder has its own lock).
+  std::error_code ec;
+  fs::create_directories(plan.manifest.output_dir, ec);
+  if (ec) throw IoError(plan.manifest.output_dir + ": cannot create the output folder: " + ec.message());
+  const FolderLock region_lock(plan.manifest.output_dir,
+                               options.shard ? FolderLock::Mode::shared : FolderLock::Mode::exclusive);
+  if (region_lock.held() && !options.shard) {
+    recover_output_sets(plan.manifest.output_dir);
+    remove_stale_partials(plan.manifest.output_dir, {"batch-report.json", "batch-report.csv"});
+    remove_stale_partials(plan.manifest.output_dir, mosaic_owned_names());
+  }
 
   std::vector<std::size_t> selected;
   if (options.shard) selected = shard_positions(plan.tiles.size(), *options.shard);

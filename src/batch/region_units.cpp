@@ -52,9 +52,11 @@ RegionUnits merge_region_units(const BatchManifest& manifest, const ModelSpec& s
   const std::string csv = (out / "units.csv").string();
   const std::string json = (out / "units.json").string();
   // Region outputs are rewritten on every run, like the region report.
-  std::error_code ignored;
-  fs::remove(gpkg, ignored);
-  write_units_geopackage(gpkg, plan.units, unit_status(plan, results), unit_table_columns(plan, results, spec));
+  const std::string temporary = temporary_path_for(gpkg);
+  write_units_geopackage(temporary, plan.units, unit_status(plan, results), unit_table_columns(plan, results, spec));
+  std::error_code ec;
+  fs::rename(temporary, gpkg, ec);
+  if (ec) throw IoError(gpkg + ": cannot rename the finished GeoPackage into place: " + ec.message());
   write_file_atomically(csv, units_csv(plan, results, spec));
   write_file_atomically(json, units_json(plan, results, spec, manifest.level).dump(2) + "\n");
   r.outputs = {gpkg, csv, json};

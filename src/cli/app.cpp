@@ -2,6 +2,8 @@
 
 #include <CLI/CLI.hpp>
 #include <algorithm>
+#include <cmath>
+#include <cstdlib>
 #include <exception>
 #include <ostream>
 
@@ -21,6 +23,24 @@ constexpr const char* kAbout =
     "             predict (model -> maps), evaluate (maps vs independent points)\n"
     "Start with:  habcast COMMAND --help\n"
     "Model file:  docs/model-format.md      Exit codes: docs/exit-codes.md";
+
+/// CLI11 reads "nan" and "inf" as numbers, and its Range checks let NaN through (every
+/// comparison with NaN is false): a NaN threshold would switch a check off without a word. Every
+/// number option of the chosen command must be finite.
+void refuse_non_finite_numbers(const CLI::App& app) {
+  for (const CLI::App* sub : app.get_subcommands()) {
+    for (const CLI::Option* option : sub->get_options()) {
+      if (option->get_type_name().find("FLOAT") == std::string::npos) continue;
+      for (const std::string& text : option->results()) {
+        char* end = nullptr;
+        const double value = std::strtod(text.c_str(), &end);
+        if (end != text.c_str() && !std::isfinite(value))
+          throw UsageError(option->get_name() + " " + text + ": a finite number is required (NaN and infinities are "
+                                                             "not accepted)");
+      }
+    }
+  }
+}
 
 }  // namespace
 
@@ -67,6 +87,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
   }
 
   try {
+    refuse_non_finite_numbers(app);
     return registry.run_selected(app, out, err);
   } catch (const Error& e) {
     err << "habcast: error: " << e.what() << "\n";

@@ -1,5 +1,6 @@
 // `habcast describe`: options -> DescribeSettings -> describe_niche -> text or JSON, and the plot.
 #include <cctype>
+#include <cmath>
 #include <memory>
 #include <ostream>
 
@@ -13,6 +14,9 @@
 #include "core/model/term_plan.hpp"
 #include "core/niche/niche_description.hpp"
 #include "pipeline/atomic_file.hpp"
+#include "pipeline/folder_lock.hpp"
+#include "pipeline/output_guard.hpp"
+#include "pipeline/run_files.hpp"
 #include "render/figure_file.hpp"
 #include "render/niche_plot.hpp"
 #include "render/response_curves_figure.hpp"
@@ -57,6 +61,7 @@ struct DescribeArgs {
   std::string plot_svg;
   std::string plot_png;
   std::vector<std::string> curves;  ///< --curves FILE: .json, or a picture (.svg, .png, .pdf)
+  bool overwrite = false;
 };
 
 /// --curves FILE.json (any case) writes JSON; other extensions name a picture format.
@@ -87,6 +92,7 @@ void translate(DescribeArgs& args) {
       used = 0;
     }
     if (used != text.size()) throw UsageError("--at " + item + ": \"" + text + "\" is not a number");
+    if (!std::isfinite(value)) throw UsageError("--at " + item + ": \"" + text + "\" is not a finite number");
     if (!args.settings.at.emplace(name, value).second) throw UsageError("--at " + name + "=... is given twice");
   }
   for (const std::string& item : args.levels) {
@@ -94,9 +100,6 @@ void translate(DescribeArgs& args) {
     if (!args.settings.levels.emplace(name, level).second) throw UsageError("--level " + name + "=... is given twice");
   }
   // The picture's format follows its extension; an unknown one is refused before any work.
-  if (!args.plot_svg.empty()) figure_format(args.plot_svg);
-  if (!args.plot_png.empty() && figure_format(args.plot_png) != FigureFormat::png)
-    throw UsageError("--plot-png " + args.plot_png + ": the name must end in .png (or use --plot, which takes .svg, .png or .pdf)");
   for (const std::string& path : args.curves) {
     const bool json = is_json_path(path);
     if (!json) figure_format(path);  // refuses an unknown extension, naming the choices
@@ -112,6 +115,7 @@ void translate(DescribeArgs& args) {
 
 void write_plots(const DescribeArgs& args, const ModelSpec& spec, const NicheDescription& d, std::ostream& err) {
   if (args.plot_svg.empty() && args.plot_png.empty()) return;
+  const OutputFolders folders({args.plot_svg, args.plot_png});
   if (!d.pair)
     throw UsageError("--plot needs two continuous covariates to draw; this model has fewer that are not held by --at");
   const Figure figure = niche_plot_figure(layout_niche_plot(spec, d, args.settings.canonical.fraction));
@@ -124,6 +128,8 @@ void write_plots(const DescribeArgs& args, const ModelSpec& spec, const NicheDes
 
 /// --curves: the response curves as JSON or as a picture, by each file's extension.
 void write_curves(const DescribeArgs& args, const ModelSpec& spec, const NicheDescription& d, std::ostream& err) {
+  if (args.curves.empty()) return;
+  const OutputFolders folders(args.curves);
   for (const std::string& path : args.curves) {
     if (is_json_path(path))
       write_file_atomically(path, cli::curves_json(spec, d, args.settings).dump(2) + "\n");
@@ -143,6 +149,23 @@ int run_describe(DescribeArgs& args, std::ostream& out, std::ostream& err) {
   }
   if (!args.weights.empty()) throw UsageError("--weights weighs the models of a set: give two or more model files");
   const ModelSpec spec = read_model_file(args.model_path);
+  // Before any work: the plots may not be the model, its samples or each other, nor replace an
+  // existing file unless asked.
+  RunFiles files;
+  files.input("model file", spec.path);
+  if (spec.training_samples) files.input("training samples", *spec.training_samples);
+  files.output("--plot", args.plot_svg);
+  files.output("--plot-png", args.plot_png);
+  for (const std::string& path : args.curves) files.output("--curves", path);
+  files.check();
+  std::vector<std::string> pictures{args.plot_svg, args.plot_png};
+  pictures.insert(pictures.end(), args.curves.begin(), args.curves.end());
+  refuse_to_clobber(pictures, args.overwrite, ", or choose another file name");
+  // After the clash checks, so that a plot named like an input is reported as that, not as a format.
+  if (!args.plot_svg.empty()) figure_format(args.plot_svg);
+  if (!args.plot_png.empty() && figure_format(args.plot_png) != FigureFormat::png)
+    throw UsageError("--plot-png " + args.plot_png + ": the name must end in .png (or use --plot, which takes .svg, .png or .pdf)");
+
   const TermPlan plan(spec);
   std::optional<TrainingSamples> samples;
   if (spec.training_samples) samples = read_training_samples(spec);
@@ -192,6 +215,7 @@ void register_describe(CLI::App& app, CommandRegistry& registry) {
       ->default_val(101)
       ->check(CLI::Range(2, 100000));
   cmd->add_option("--plot-png", args->plot_png, "FILE.png: the same picture as a PNG as well (300 dpi)");
+  cmd->add_flag("--overwrite", args->overwrite, "Replace existing --plot, --plot-png and --curves files");
   registry.add(cmd, [args](std::ostream& out, std::ostream& err) { return run_describe(*args, out, err); });
 }
 

@@ -17,7 +17,10 @@
 #include "evaluate/binary_map.hpp"
 #include "evaluate/score_source.hpp"
 #include "pipeline/atomic_file.hpp"
+#include "core/model/model_file.hpp"
+#include "pipeline/folder_lock.hpp"
 #include "pipeline/output_guard.hpp"
+#include "pipeline/run_files.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/point_sampler.hpp"
 #include "raster/point_source.hpp"
@@ -205,6 +208,26 @@ std::string background_csv(const BackgroundSample& b, std::uint64_t seed, const 
   return os.str();
 }
 
+/// What evaluate reads (the prediction, or the model with its samples and rasters, and the
+/// points) against what it writes.
+void check_evaluate_files(const EvaluateOptions& o) {
+  RunFiles files;
+  files.input("--prediction", o.prediction_path);
+  files.input("points", o.points.path);
+  if (!o.model_path.empty()) {
+    const ModelSpec spec = read_model_file(o.model_path);
+    files.input("--model", o.model_path);
+    if (spec.training_samples) files.input("training samples", *spec.training_samples);
+    for (const Covariate& c : spec.covariates)
+      if (c.raster) files.input("raster of covariate " + c.name, *c.raster);
+  }
+  for (const auto& [name, path] : o.covariate_rasters) files.input("raster of covariate " + name, path);
+  files.output("--plot", o.svg_path);
+  files.output("--write-binary", o.binary_path);
+  files.output("--write-background", o.background_path);
+  files.check();
+}
+
 }  // namespace
 
 BackgroundSample sample_background(ScoreSource& source, int count, std::uint64_t seed) {
@@ -257,8 +280,10 @@ EvaluateSummary run_evaluate(const EvaluateOptions& o, const std::string& tool_v
   if (!o.background_path.empty() && !o.presence_only)
     throw UsageError("--write-background needs --presence-only (background points are drawn only for presence-only data)");
   if (!o.svg_path.empty()) figure_format(o.svg_path);  // .svg, .png or .pdf; refused before any work
-  refuse_to_clobber({o.svg_path, o.binary_path, o.background_path}, o.overwrite);
   ensure_gdal();
+  check_evaluate_files(o);
+  const OutputFolders folders({o.svg_path, o.binary_path, o.background_path});
+  refuse_to_clobber({o.svg_path, o.binary_path, o.background_path}, o.overwrite);
 
   std::unique_ptr<ScoreSource> source =
       o.model_path.empty() ? ScoreSource::from_raster(o.prediction_path) : ScoreSource::from_model(o.model_path, o.covariate_rasters, o.alignment);

@@ -19,7 +19,9 @@
 #include "core/model/model_values.hpp"
 #include "core/model/model_writer.hpp"
 #include "pipeline/atomic_file.hpp"
+#include "pipeline/folder_lock.hpp"
 #include "pipeline/output_guard.hpp"
+#include "pipeline/run_files.hpp"
 #include "raster/band_profile.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/alignment_plan.hpp"
@@ -323,6 +325,17 @@ void count_shared_pixels(const std::vector<std::int64_t>& pixel, const std::vect
   }
 }
 
+
+/// Item by item what fit reads and writes: the points, the rasters, the model and its samples.
+void check_fit_files(const FitOptions& options, const FitSummary& summary) {
+  RunFiles files;
+  files.input("points", options.points.path);
+  for (const auto& [name, path] : options.covariate_rasters) files.input("raster of covariate " + name, path);
+  files.output("model file (-o)", summary.model_path);
+  files.output("samples table", summary.samples_path);
+  files.check();
+}
+
 }  // namespace
 
 FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
@@ -332,6 +345,8 @@ FitSummary run_fit(const FitOptions& options, const std::string& tool_version) {
   FitSummary summary;
   summary.model_path = options.model_path;
   summary.samples_path = samples_path_for(options);
+  check_fit_files(options, summary);
+  const OutputFolders folders({summary.model_path, summary.samples_path});
   refuse_to_clobber({summary.model_path, summary.samples_path}, options.overwrite, ", or choose another -o");
 
   const std::vector<SamplingInput> inputs = select_inputs(options, summary.warnings);

@@ -3,6 +3,7 @@
 #include <atomic>
 #include <csignal>
 
+#include "core/base/bounded_input.hpp"
 #include "core/base/error.hpp"
 
 namespace habcast {
@@ -27,9 +28,11 @@ StopSignalGuard::StopSignalGuard() {
   action.sa_flags = 0;
   sigaction(SIGINT, &action, &g_previous_int);
   sigaction(SIGTERM, &action, &g_previous_term);
+  set_stop_poll(throw_if_stopped);  // loading in the core polls it too
 }
 
 StopSignalGuard::~StopSignalGuard() {
+  set_stop_poll(nullptr);
   sigaction(SIGINT, &g_previous_int, nullptr);
   sigaction(SIGTERM, &g_previous_term, nullptr);
 }

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <ctime>
 #include <filesystem>
+#include <fstream>
 #include <memory>
 #include <optional>
 #include <thread>
@@ -13,6 +14,7 @@
 #endif
 
 #include "core/base/utc_time.hpp"
+#include "pipeline/atomic_file.hpp"
 #include "core/domain/extrapolation_flags.hpp"
 #include "core/domain/novelty_model.hpp"
 #include "core/domain/training_domain.hpp"
@@ -22,12 +24,12 @@
 #include "core/model/output_precision.hpp"
 #include "core/model/term_plan.hpp"
 #include "core/prediction/block_predictor.hpp"
-#include "pipeline/atomic_file.hpp"
 #include "pipeline/ordered_parallel.hpp"
-#include "pipeline/output_guard.hpp"
 #include "pipeline/recycling_pool.hpp"
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
+#include "predict/empty_map.hpp"
+#include "predict/predict_folder.hpp"
 #include "predict/prediction_folder.hpp"
 #include "predict/prediction_report.hpp"
 #include "predict/unit_pass.hpp"
@@ -56,6 +58,14 @@ void return_free_memory() {
 #if defined(__GLIBC__)
   malloc_trim(0);
 #endif
+}
+
+/// Writes `bytes` to `path` (a temporary of the output set). Throws IoError naming the file.
+void write_bytes(const std::string& path, const std::string& bytes) {
+  std::ofstream out(path, std::ios::binary | std::ios::trunc);
+  out << bytes;
+  out.flush();
+  if (!out) throw IoError(path + ": writing failed (disk full?)");
 }
 
 constexpr const char* kCaution =
@@ -266,17 +276,6 @@ Outputs create_outputs(const PredictOptions& options, const ModelSpec& spec, con
                             (novelty->options().mess || novelty->options().nt2);
   const bool with_least_similar = with_novelty && novelty->options().mess;
 
-  std::vector<std::string> finals{suitability_path, out.report_path};
-  if (with_se) finals.push_back(uncertainty_path);
-  if (with_flags) finals.push_back(extrapolation_path);
-  if (with_novelty) finals.push_back(novelty_path);
-  if (with_least_similar) finals.push_back(least_similar_path);
-  refuse_to_clobber(finals, options.overwrite,
-                    " (the old file is kept until the new one is complete), or choose another output folder with -o");
-  std::vector<std::string> names;
-  for (const std::string& f : finals) names.push_back(fs::path(f).filename().string());
-  remove_stale_partials(dir.string(), names);
-
   const auto metadata = common_metadata(spec, version);
   const std::string units = spec.family == Family::binomial ? "probability" : spec.response;
 
@@ -379,11 +378,13 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
                      "1e-4), got " + format_value(*options.max_error));
   check_novelty_options(options.novelty);
   ensure_gdal();
+  check_creation_options(options.creation_options);
 
   // Everything that can be wrong with the inputs is found before any output is created.
   const ModelSpec spec = read_model_file(options.model_path);
   const TermPlan plan(spec);
   const std::vector<CovariateInput> inputs = resolve_inputs(spec, options);
+  check_predict_files(options, spec, inputs);  // no output may be an input, or another output
   const AlignmentPlan alignment = plan_inputs(spec, inputs, options);
   const RasterGrid& grid = alignment.target;
   std::optional<TrainingSamples> samples;
@@ -400,12 +401,8 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   if (!options.units.map_path.empty()) {
     if (!unit_plan) throw UsageError("--units-map draws the units of --units: give --units POLYGONS too");
     figure_format(options.units.map_path);
-    refuse_to_clobber({options.units.map_path}, options.overwrite, ", or choose another --units-map path");
   }
-  if (!options.quicklook_path.empty()) {
-    figure_format(options.quicklook_path);  // .png, .pdf or .svg; anything else is refused before the run
-    refuse_to_clobber({options.quicklook_path}, options.overwrite, ", or choose another --quicklook path");
-  }
+  if (!options.quicklook_path.empty()) figure_format(options.quicklook_path);  // .png, .pdf or .svg, refused before the run
   if (options.max_extrapolated_percent && !domain)
     throw InputError(located(spec.path, 0, "--max-extrapolated needs training samples: add [training] samples = \"FILE.csv\""));
 
@@ -421,10 +418,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     workers.push_back(std::make_unique<Worker>(alignment, spec, plan, options.level, quantum,
                                                domain ? &*domain : nullptr, novelty ? &*novelty : nullptr, &certainty));
 
-  std::error_code ec;
-  fs::create_directories(options.output_dir, ec);
-  if (ec || !fs::is_directory(options.output_dir))
-    throw IoError(options.output_dir + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
+  const PredictFolder folder(options);  // created, locked, leftovers of killed runs resolved
   Outputs out = create_outputs(options, spec, grid, spec.covariance.has_value(), domain.has_value(),
                                novelty ? &*novelty : nullptr, tool_version, threads);
   const fs::path out_dir(options.output_dir);
@@ -432,8 +426,6 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   const std::string units_csv_path = (out_dir / "units.csv").string();
   const std::string units_json_path = (out_dir / "units.json").string();
   if (unit_plan) {
-    refuse_to_clobber({units_gpkg, units_csv_path, units_json_path}, options.overwrite,
-                      " (the old file is kept until the new one is complete), or choose another output folder with -o");
     for (auto& w : workers) w->unit_slots.assign(unit_plan->units.size(), 0);
   }
   std::vector<UnitSums> unit_totals(unit_plan ? unit_plan->units.size() : 0);
@@ -492,37 +484,28 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     throw_if_stopped();
     r->close();
   }
-  // Rename only when every raster is complete, so a run leaves all its outputs or none.
-  for (OutputRaster* r : out.all()) r->commit();
-  // The quicklook is a convenience: if it cannot be drawn, the committed rasters still stand.
-  std::string quicklook_problem;
-  if (!options.quicklook_path.empty()) {
-    try {
-      const Figure quicklook = quicklook_figure(out.suitability->final_path(), out.extrapolation ? out.extrapolation->final_path() : "",
-                                                spec.name.empty() ? "habcast prediction" : spec.name, spec.description);
-      write_file_atomically(options.quicklook_path, encode_figure(quicklook, options.quicklook_path));
-    } catch (const Error& e) {
-      quicklook_problem = std::string("no quicklook was written: ") + e.what();
-    }
-  }
+  // Nothing is renamed until every file of the set is complete: then all of it at once.
+  PredictCommit commit(options);
+  commit.take_rasters(out.all());
+  // The quicklook is a convenience: if it cannot be drawn, the rasters still stand.
+  const std::string quicklook_problem = commit.add_quicklook([&](const std::string& temporary) {
+    const Figure quicklook = quicklook_figure(commit.finished(out.suitability->final_path()),
+                                              out.extrapolation ? commit.finished(out.extrapolation->final_path()) : "",
+                                              spec.name.empty() ? "habcast prediction" : spec.name, spec.description);
+    write_bytes(temporary, encode_figure(quicklook, options.quicklook_path));
+  });
 
   std::optional<UnitResults> unit_results;
   if (unit_plan) {
     const Evaluator evaluator(spec, options.level, 0.0);
     unit_results = summarise_units(*unit_plan, unit_totals, spec, evaluator.z(), options.level);
-    write_units_geopackage(units_gpkg, unit_plan->units, unit_status(*unit_plan, *unit_results),
-                           unit_table_columns(*unit_plan, *unit_results, spec));
-    write_file_atomically(units_csv_path, units_csv(*unit_plan, *unit_results, spec));
-    write_file_atomically(units_json_path, units_json(*unit_plan, *unit_results, spec, options.level).dump(2) + "\n");
-    // Like the quicklook, a convenience: if it cannot be drawn, the tables still stand.
-    if (!options.units.map_path.empty()) {
-      try {
-        write_file_atomically(options.units.map_path,
-                              encode_figure(units_map(*unit_plan, *unit_results, spec, grid), options.units.map_path));
-      } catch (const Error& e) {
-        unit_results->warnings.push_back(std::string("no units map was written: ") + e.what());
-      }
-    }
+    // The unit tables are part of the set: committed with the rasters, or not at all.
+    commit.add_written(units_gpkg, [&](const std::string& temporary) {
+      write_units_geopackage(temporary, unit_plan->units, unit_status(*unit_plan, *unit_results),
+                             unit_table_columns(*unit_plan, *unit_results, spec));
+    });
+    commit.add_report(units_csv_path, units_csv(*unit_plan, *unit_results, spec));
+    commit.add_report(units_json_path, units_json(*unit_plan, *unit_results, spec, options.level).dump(2) + "\n");
   }
 
   ReportContext ctx;
@@ -544,7 +527,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     ctx.outputs.emplace_back("units", units_gpkg);
     ctx.outputs.emplace_back("units_table", units_csv_path);
     ctx.outputs.emplace_back("units_json", units_json_path);
-    if (!options.units.map_path.empty() && fs::exists(options.units.map_path)) ctx.outputs.emplace_back("units_map", options.units.map_path);
+    if (!options.units.map_path.empty()) ctx.outputs.emplace_back("units_map", options.units.map_path);
   }
   ctx.outputs.emplace_back("report", out.report_path);
   ctx.tally = &total;
@@ -554,6 +537,8 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   PredictSummary summary;
   summary.warnings = prediction_warnings(ctx);
   for (std::string& w : alignment_warnings(alignment, missing, target_pixels)) summary.warnings.push_back(std::move(w));
+  if (samples) summary.warnings.insert(summary.warnings.begin(), samples->warnings.begin(), samples->warnings.end());
+  if (total.predicted == 0 && total.pixels > 0) summary.warnings.push_back(empty_map_warning(inputs, grid));
   if (!quicklook_problem.empty()) summary.warnings.push_back(quicklook_problem);
   if (unit_results)
     summary.warnings.insert(summary.warnings.end(), unit_results->warnings.begin(), unit_results->warnings.end());
@@ -574,7 +559,18 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     }
   }
   summary.report["exit_code"] = static_cast<int>(summary.exit_code);
-  write_file_atomically(out.report_path, summary.report.dump(2) + "\n");
+  commit.add_report(out.report_path, summary.report.dump(2) + "\n");
+  commit.commit();
+  // The units map, like a quicklook outside the folder, follows the committed set; if it cannot be
+  // drawn, the set still stands and the warning says so.
+  if (unit_results && !options.units.map_path.empty()) {
+    try {
+      write_file_atomically(options.units.map_path,
+                            encode_figure(units_map(*unit_plan, *unit_results, spec, grid), options.units.map_path));
+    } catch (const Error& e) {
+      summary.warnings.push_back(std::string("no units map was written: ") + e.what());
+    }
+  }
   for (const auto& [role, path] : ctx.outputs) {
     (void)role;
     summary.outputs.push_back(path);

@@ -1,9 +1,15 @@
 #include "raster/creation_options.hpp"
 
+#include <cpl_minixml.h>
+#include <gdal.h>
+
 #include <algorithm>
 #include <cctype>
+#include <cstdlib>
+#include <map>
 
 #include "core/base/error.hpp"
+#include "raster/gdal_session.hpp"
 
 namespace habcast {
 namespace {
@@ -37,7 +43,67 @@ bool takes_predictor(const std::string& compress) {
   return method == "DEFLATE" || method == "LZW" || method == "ZSTD" || method == "LZMA";
 }
 
+/// The GeoTIFF driver's own list of creation options: name -> (type, allowed values).
+struct DriverOption {
+  std::string type;
+  std::vector<std::string> values;  ///< for string-select; upper case
+};
+
+std::map<std::string, DriverOption> gtiff_option_list() {
+  ensure_gdal();
+  std::map<std::string, DriverOption> options;
+  GDALDriverH driver = GDALGetDriverByName("GTiff");
+  const char* xml = driver ? GDALGetMetadataItem(driver, GDAL_DMD_CREATIONOPTIONLIST, nullptr) : nullptr;
+  if (xml == nullptr) return options;
+  CPLXMLNode* root = CPLParseXMLString(xml);
+  if (root == nullptr) return options;
+  for (const CPLXMLNode* node = root->psChild; node != nullptr; node = node->psNext) {
+    if (node->eType != CXT_Element || std::string(node->pszValue) != "Option") continue;
+    DriverOption option;
+    option.type = CPLGetXMLValue(node, "type", "");
+    for (const CPLXMLNode* value = node->psChild; value != nullptr; value = value->psNext)
+      if (value->eType == CXT_Element && std::string(value->pszValue) == "Value")
+        option.values.push_back(upper(CPLGetXMLValue(value, "", "")));
+    options[upper(CPLGetXMLValue(node, "name", ""))] = std::move(option);
+  }
+  CPLDestroyXMLNode(root);
+  return options;
+}
+
 }  // namespace
+
+void check_creation_options(const std::vector<std::string>& user_options) {
+  if (user_options.empty()) return;
+  const std::map<std::string, DriverOption> known = gtiff_option_list();
+  for (const std::string& text : user_options) {
+    const auto [key, value] = parse_option(text, "--co " + text);
+    const auto it = known.find(key);
+    if (!known.empty() && it == known.end())
+      throw UsageError("--co " + text + ": GDAL's GeoTIFF driver has no creation option " + key +
+                       " (the driver's list: gdalinfo --format GTiff)");
+    const std::string v = upper(value);
+    if (it != known.end() && it->second.type == "string-select" && !it->second.values.empty() &&
+        std::find(it->second.values.begin(), it->second.values.end(), v) == it->second.values.end()) {
+      std::string allowed;
+      for (const std::string& a : it->second.values) allowed += (allowed.empty() ? "" : ", ") + a;
+      throw UsageError("--co " + text + ": " + key + " takes one of " + allowed);
+    }
+    if (it != known.end() && it->second.type == "int") {
+      char* end = nullptr;
+      const long number = std::strtol(value.c_str(), &end, 10);
+      if (end == value.c_str() || *end != '\0' || number < 0)
+        throw UsageError("--co " + text + ": " + key + " takes a whole number");
+      // libtiff's rule for tiles (habcast's outputs are tiled): edges are multiples of 16.
+      if ((key == "BLOCKXSIZE" || key == "BLOCKYSIZE") && (number < 16 || number % 16 != 0))
+        throw UsageError("--co " + text + ": tile edges must be multiples of 16 (16, 256, 512 ...)");
+    }
+    // JPEG and WEBP hold 8-bit (JPEG also 12-bit) values only: habcast's Float32 outputs
+    // (suitability, uncertainty, novelty) cannot be stored with them.
+    if (key == "COMPRESS" && (v == "JPEG" || v == "WEBP" || v == "JXL"))
+      throw UsageError("--co " + text + ": " + v + " cannot store the Float32 outputs (suitability, uncertainty); "
+                       "choose DEFLATE, ZSTD, LZW or LERC_ZSTD, or --max-error for smaller lossy files");
+  }
+}
 
 std::string option_value(const std::vector<CreationOption>& options, const std::string& key) {
   const auto found =

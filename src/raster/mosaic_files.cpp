@@ -58,32 +58,9 @@ void copy_band_labels(GDALDatasetH vrt, const std::string& first_tile) {
   }
 }
 
-/// Removes the temporary file (and its .aux.xml) unless it was renamed into place.
-class TemporaryName {
- public:
-  explicit TemporaryName(std::string final_path)
-      : final_(std::move(final_path)), temporary_(temporary_path_for(final_)) {}
-  ~TemporaryName() {
-    if (committed_) return;
-    std::error_code ignored;
-    std::filesystem::remove(temporary_, ignored);
-    std::filesystem::remove(sidecar_of(temporary_), ignored);
-  }
-  TemporaryName(const TemporaryName&) = delete;
-  TemporaryName& operator=(const TemporaryName&) = delete;
-  [[nodiscard]] const std::string& path() const { return temporary_; }
-  void commit() {
-    std::error_code ec;
-    std::filesystem::rename(temporary_, final_, ec);
-    if (ec) throw IoError(final_ + ": cannot rename the finished file into place: " + ec.message());
-    committed_ = true;
-    move_sidecar(temporary_, final_);
-  }
-
- private:
-  std::string final_, temporary_;
-  bool committed_ = false;
-};
+int CPL_STDCALL ask_keep_going(double, const char*, void* data) {
+  return (*static_cast<const std::function<bool()>*>(data))() ? TRUE : FALSE;
+}
 
 }  // namespace
 
@@ -97,10 +74,9 @@ void build_vrt(const std::string& vrt_path, const std::vector<std::string>& sour
   const char* argv[] = {"-r", "nearest", nullptr};
   std::unique_ptr<GDALBuildVRTOptions, BuildVrtOptionsFree> options(
       GDALBuildVRTOptionsNew(const_cast<char**>(argv), nullptr));
-  TemporaryName out(vrt_path);
   int usage_error = 0;
   take_gdal_error();
-  GDALDatasetH vrt = GDALBuildVRT(out.path().c_str(), static_cast<int>(names.size()), nullptr, names.data(),
+  GDALDatasetH vrt = GDALBuildVRT(vrt_path.c_str(), static_cast<int>(names.size()), nullptr, names.data(),
                                   options.get(), &usage_error);
   if (!vrt) throw IoError(vrt_path + ": building the mosaic failed (" + gdal_reason() + ")");
   try {
@@ -110,10 +86,10 @@ void build_vrt(const std::string& vrt_path, const std::vector<std::string>& sour
     throw;
   }
   if (!close_checked(vrt)) throw IoError(vrt_path + ": writing the mosaic failed (" + gdal_reason() + ")");
-  out.commit();
 }
 
-void write_cog(const std::string& source, const std::string& cog_path, const std::string& overview_resampling) {
+void write_cog(const std::string& source, const std::string& cog_path, const std::string& overview_resampling,
+               const std::function<bool()>& keep_going) {
   ensure_gdal();
   DatasetPtr input = open_input_raster(source);
   const std::string resampling = "OVERVIEW_RESAMPLING=" + overview_resampling;
@@ -121,13 +97,12 @@ void write_cog(const std::string& source, const std::string& cog_path, const std
                         "-co", resampling.c_str(), nullptr};
   std::unique_ptr<GDALTranslateOptions, TranslateOptionsFree> options(
       GDALTranslateOptionsNew(const_cast<char**>(argv), nullptr));
-  TemporaryName out(cog_path);
+  GDALTranslateOptionsSetProgress(options.get(), ask_keep_going, const_cast<std::function<bool()>*>(&keep_going));
   int usage_error = 0;
   take_gdal_error();
-  GDALDatasetH cog = GDALTranslate(out.path().c_str(), GDALDataset::ToHandle(input.get()), options.get(), &usage_error);
+  GDALDatasetH cog = GDALTranslate(cog_path.c_str(), GDALDataset::ToHandle(input.get()), options.get(), &usage_error);
   if (!cog) throw IoError(cog_path + ": writing the Cloud Optimized GeoTIFF failed (" + gdal_reason() + ")");
   if (!close_checked(cog)) throw IoError(cog_path + ": writing the Cloud Optimized GeoTIFF failed (" + gdal_reason() + ")");
-  out.commit();
 }
 
 }  // namespace habcast

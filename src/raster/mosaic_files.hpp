@@ -1,7 +1,9 @@
 #pragma once
 // Region-wide files made from finished tiles with GDAL's own utilities: a VRT that shows many
-// GeoTIFFs as one layer, and a Cloud Optimized GeoTIFF copy of it. Both appear atomically: they are
-// written under a temporary name in their folder and renamed when GDAL closed them cleanly.
+// GeoTIFFs as one layer, and a Cloud Optimized GeoTIFF copy of it. Each is written exactly at the
+// path given, which the caller makes a temporary name and commits with the rest of its set
+// (pipeline/output_set.hpp), so old mosaics stay until the new ones are all complete.
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -14,6 +16,8 @@ void build_vrt(const std::string& vrt_path, const std::vector<std::string>& sour
 
 /// GDALTranslate of `source` into a COG at `cog_path` (DEFLATE, overviews resampled with
 /// `overview_resampling`, e.g. "AVERAGE" or "NEAREST"). Throws IoError naming the file.
-void write_cog(const std::string& source, const std::string& cog_path, const std::string& overview_resampling);
+/// `keep_going` is asked as GDAL progresses; when it says no, the copy stops (IoError).
+void write_cog(const std::string& source, const std::string& cog_path, const std::string& overview_resampling,
+               const std::function<bool()>& keep_going = [] { return true; });
 
 }  // namespace habcast

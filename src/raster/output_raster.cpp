@@ -1,5 +1,9 @@
 #include "raster/output_raster.hpp"
 
+#include <sys/statvfs.h>
+
+#include <cerrno>
+
 #include <cpl_conv.h>
 #include <cpl_error.h>
 #include <cpl_string.h>
@@ -157,6 +161,16 @@ struct OutputRaster::Impl {
   Impl& operator=(const Impl&) = delete;
 
   [[nodiscard]] std::string describe() const { return spec.final_path + " (temporary file " + temporary_path + ")"; }
+  /// Why a write failed, in the user's terms: a full device or quota or file-size limit when
+  /// the error number or the free space says so (GDAL's own words, e.g. libtiff's "Error
+  /// fetching directory count", do not), else GDAL's reason.
+  [[nodiscard]] std::string write_failure_reason(int error_number) const {
+    const std::string gdal = gdal_reason();
+    const fs::path folder = fs::path(spec.final_path).parent_path();
+    const std::string storage = storage_problem(folder.empty() ? "." : folder.string(), error_number);
+    return storage.empty() ? "(" + gdal + "). Check free disk space and permissions, then run again"
+                           : storage + " (" + gdal + ")";
+  }
   void create(const RasterGrid& grid);
   void georeference(const RasterGrid& grid);
   void describe_bands();
@@ -233,13 +247,14 @@ void OutputRaster::Impl::write(int band, const Window& window, const T* values, 
                             " is outside " + spec.final_path);
   }
   take_gdal_error();
+  errno = 0;
   // RasterIO takes a non-const buffer for both directions; GF_Write only reads from it.
   const CPLErr result =
       dataset->GetRasterBand(band)->RasterIO(GF_Write, window.x, window.y, window.width, window.height,
                                              const_cast<T*>(values), window.width, window.height, type, 0, 0, nullptr);
   if (result != CE_None) {
     throw IoError("writing band " + std::to_string(band) + ", " + window_text(window) + ", of " + describe() +
-                  " failed (" + gdal_reason() + "). Check free disk space and permissions.");
+                  " failed: " + write_failure_reason(errno));
   }
 }
 
@@ -263,12 +278,12 @@ void OutputRaster::Impl::flush_completed_blocks(const Window& window) {
       for (int band = 1; band <= dataset->GetRasterCount(); ++band) {
         GDALRasterBlock* block = dataset->GetRasterBand(band)->TryGetLockedBlockRef(bx, by);
         if (block == nullptr) continue;
+        errno = 0;
         const CPLErr written = block->GetDirty() ? block->Write() : CE_None;
         block->DropLock();
         if (written != CE_None) {
           throw IoError("writing block " + std::to_string(bx) + "," + std::to_string(by) + " of band " +
-                        std::to_string(band) + " of " + describe() + " failed (" + gdal_reason() +
-                        "). Check free disk space and permissions.");
+                        std::to_string(band) + " of " + describe() + " failed: " + write_failure_reason(errno));
         }
       }
     }
@@ -333,10 +348,10 @@ void OutputRaster::build_overviews() {
   const ThreadConfig predictor("PREDICTOR_OVERVIEW", option_value(self.options, "PREDICTOR"));
   const char* resampling = self.spec.type == OutputType::float32 ? "AVERAGE" : "NEAREST";
   take_gdal_error();
+  errno = 0;
   if (self.dataset->BuildOverviews(resampling, static_cast<int>(factors.size()), factors.data(), 0, nullptr, nullptr,
                                    nullptr) != CE_None) {
-    throw IoError("building overviews of " + self.describe() + " failed (" + gdal_reason() +
-                  "). Check free disk space.");
+    throw IoError("building overviews of " + self.describe() + " failed: " + self.write_failure_reason(errno));
   }
 }
 
@@ -347,11 +362,12 @@ void OutputRaster::close() {
   CPLErrorReset();
   // GDALClose returns nothing in GDAL 3.6; a failed flush of the last blocks or of the TIFF
   // directory (disk full, quota) is only visible as the thread's last error.
+  errno = 0;
   GDALClose(GDALDataset::ToHandle(self.dataset.release()));
+  const int error_number = errno;
   const CPLErr last = CPLGetLastErrorType();
   if (last == CE_Failure || last == CE_Fatal) {
-    self.close_error = "finishing " + self.describe() + " failed (" + gdal_reason() +
-                       "). Check free disk space and permissions, then run again.";
+    self.close_error = "finishing " + self.describe() + " failed: " + self.write_failure_reason(error_number);
     throw IoError(self.close_error);
   }
 }
@@ -371,6 +387,28 @@ void OutputRaster::commit() {
   }
   self.committed = true;
   move_sidecar(self.temporary_path, self.spec.final_path);
+}
+
+std::string OutputRaster::hand_over() {
+  Impl& self = *impl_;
+  close();
+  if (!self.close_error.empty()) throw IoError(self.close_error);
+  self.committed = true;  // no longer ours to delete
+  return self.temporary_path;
+}
+
+std::string storage_problem(const std::string& folder, int error_number) {
+  struct statvfs info {};
+  const bool known = statvfs(folder.empty() ? "." : folder.c_str(), &info) == 0;
+  const unsigned long long free_bytes = known ? static_cast<unsigned long long>(info.f_bavail) * info.f_frsize : 0;
+  if (error_number == ENOSPC || (known && free_bytes < (1ull << 20)))
+    return "no space left on the device holding " + folder + " (" + std::to_string(free_bytes >> 10) +
+           " KiB free); free some space or write elsewhere, then run again";
+  if (error_number == EDQUOT) return "disk quota exceeded on " + folder + "; free some space or write elsewhere";
+  if (error_number == EFBIG)
+    return "the file would exceed the largest file allowed here (the process's file-size limit, ulimit -f, or the "
+           "filesystem's); write elsewhere or raise the limit";
+  return "";
 }
 
 std::string sidecar_of(const std::string& path) { return path + ".aux.xml"; }

@@ -82,6 +82,11 @@ class OutputRaster {
   /// final_path by an earlier run is removed.
   void commit();
 
+  /// For outputs committed as a set (pipeline/output_set.hpp): closes the file (checked, as
+  /// commit() does) and hands its temporary file, and any sidecar beside it, to the caller, who
+  /// renames or deletes it; this object no longer deletes it. Returns the temporary path.
+  std::string hand_over();
+
   [[nodiscard]] const std::string& temporary_path() const;
   [[nodiscard]] const std::string& final_path() const;
 
@@ -90,8 +95,19 @@ class OutputRaster {
   std::unique_ptr<Impl> impl_;
 };
 
+/// Checks the user's GeoTIFF creation options before any work, against GDAL's own list for the
+/// GeoTIFF driver (unknown key, value not among the allowed ones, not a whole number) and
+/// libtiff's rules that GDAL's list does not state (tile edges multiples of 16; no 8-bit-only
+/// compression for Float32 outputs). Throws UsageError naming the option.
+void check_creation_options(const std::vector<std::string>& user_options);
+
 /// Temporary name used for `final_path`: ".<name>.<pid>.partial" in the same folder.
 std::string temporary_path_for(const std::string& final_path);
+
+/// What a failed write into `folder` says about its storage, in the user's words ("no space left
+/// on ...", a quota, a file-size limit), from `error_number` (errno after the failure) or the
+/// folder's free space; empty when neither points at the storage.
+std::string storage_problem(const std::string& folder, int error_number);
 
 /// GDAL's .aux.xml sidecar of a raster file (category names, attribute table).
 std::string sidecar_of(const std::string& path);
@@ -101,8 +117,9 @@ std::string sidecar_of(const std::string& path);
 /// final_path goes when there is no new one. Throws IoError naming the sidecar.
 void move_sidecar(const std::string& temporary_path, const std::string& final_path);
 
-/// Deletes leftover "*.partial" files in `folder` for `final_names` whose writer process is gone
-/// (after a SIGKILL). Returns how many were removed.
+/// Deletes leftover temporary files (".NAME.PID.partial" and what GDAL put beside them) of
+/// `final_names` in `folder`, whatever their pid. Call it only while holding the folder's lock
+/// (pipeline/folder_lock.hpp): then no live run writes there. Returns how many were removed.
 int remove_stale_partials(const std::string& folder, const std::vector<std::string>& final_names);
 
 }  // namespace habcast

@@ -1,13 +1,8 @@
 // Naming of temporary outputs and clean-up of those left by a killed run.
-#include <sys/types.h>
 #include <unistd.h>
 
-#include <cerrno>
-#include <charconv>
-#include <csignal>
 #include <filesystem>
-#include <limits>
-#include <optional>
+#include <string_view>
 
 #include "raster/output_raster.hpp"
 
@@ -17,29 +12,16 @@ namespace {
 namespace fs = std::filesystem;
 
 constexpr std::string_view partial_suffix = ".partial";
-constexpr std::string_view sidecar_suffix = ".aux.xml";  // GDAL's PAM file for categories etc.
 
-/// The writer's pid when `file` is a partial of `name` (".<name>.<pid>.partial").
-std::optional<pid_t> partial_pid(std::string_view file, const std::string& name) {
+/// True when `file` is a temporary of `name`: ".<name>.<pid>.partial", possibly followed by what
+/// GDAL adds beside it (".aux.xml", ".ovr.tmp").
+bool is_partial_of(std::string_view file, const std::string& name) {
   const std::string prefix = "." + name + ".";
-  if (file.size() <= prefix.size() + partial_suffix.size() || !file.starts_with(prefix) ||
-      !file.ends_with(partial_suffix)) {
-    return std::nullopt;
-  }
-  const std::string_view digits = file.substr(prefix.size(), file.size() - prefix.size() - partial_suffix.size());
-  long long pid = 0;
-  const auto [end, error] = std::from_chars(digits.data(), digits.data() + digits.size(), pid);
-  // pid 0 and negative pids address process groups in kill(); never treat them as a writer.
-  if (error != std::errc() || end != digits.data() + digits.size() || pid <= 0 ||
-      pid > std::numeric_limits<pid_t>::max()) {
-    return std::nullopt;
-  }
-  return static_cast<pid_t>(pid);
-}
-
-bool process_is_gone(pid_t pid) {
-  // EPERM means the process exists under another user: its file is not ours to delete.
-  return kill(pid, 0) != 0 && errno == ESRCH;
+  if (!file.starts_with(prefix)) return false;
+  std::string_view rest = file.substr(prefix.size());
+  std::size_t digits = 0;
+  while (digits < rest.size() && rest[digits] >= '0' && rest[digits] <= '9') ++digits;
+  return digits > 0 && rest.substr(digits).starts_with(partial_suffix);
 }
 
 }  // namespace
@@ -55,21 +37,20 @@ std::string temporary_path_for(const std::string& final_path) {
 
 int remove_stale_partials(const std::string& folder, const std::vector<std::string>& final_names) {
   // Best effort: an unreadable folder or a file we cannot delete is left for the user, because
-  // writing the new outputs will report any real problem with the folder.
+  // writing the new outputs will report any real problem with the folder. The caller holds the
+  // folder's lock, so no live habcast run writes here: the pid in a name decides nothing (it may
+  // be reused, or belong to another node or pid namespace).
   std::vector<fs::path> stale;
   std::error_code error;
   for (fs::directory_iterator entry(folder, error), end; !error && entry != end; entry.increment(error)) {
     const std::string file = entry->path().filename().string();
-    for (const auto& final_name : final_names) {
-      const auto pid = partial_pid(file, fs::path(final_name).filename().string());
-      if (pid && process_is_gone(*pid)) stale.push_back(entry->path());
-    }
+    for (const auto& final_name : final_names)
+      if (is_partial_of(file, fs::path(final_name).filename().string())) stale.push_back(entry->path());
   }
   int removed = 0;
   for (const auto& path : stale) {
     std::error_code ignored;
     if (fs::remove(path, ignored)) ++removed;
-    fs::remove(path.string() + std::string(sidecar_suffix), ignored);
   }
   return removed;
 }

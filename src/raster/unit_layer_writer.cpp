@@ -20,8 +20,7 @@ void write_units_geopackage(const std::string& path, const ManagementUnits& unit
 
   GDALDriver* driver = GetGDALDriverManager()->GetDriverByName("GPKG");
   if (!driver) throw IoError("GDAL has no GeoPackage driver, so " + path + " cannot be written");
-  // The temporary keeps the .gpkg ending (the driver checks it) behind the usual partial name.
-  const std::string temporary = temporary_path_for(path) + ".gpkg";
+  const std::string& temporary = path;  // the caller's temporary name: it renames the finished file
   std::error_code ignored;
   std::filesystem::remove(temporary, ignored);
   GDALDataset* raw = driver->Create(temporary.c_str(), 0, 0, 0, GDT_Unknown, nullptr);
@@ -77,9 +76,6 @@ void write_units_geopackage(const std::string& path, const ManagementUnits& unit
     const CPLErr last = CPLGetLastErrorType();
     if (last == CE_Failure || last == CE_Fatal)
       throw IoError(path + ": finishing the GeoPackage failed (" + gdal_reason() + "); check free disk space and permissions");
-    std::error_code ec;
-    std::filesystem::rename(temporary, path, ec);
-    if (ec) throw IoError(path + ": cannot rename the finished GeoPackage into place: " + ec.message());
   } catch (...) {
     discard();
     throw;

@@ -14,7 +14,8 @@ struct UnitTableColumn {
   std::vector<std::optional<double>> values;  ///< per unit; nullopt writes a null field
 };
 
-/// Writes `path` (a GeoPackage, through a temporary name in the same folder, renamed when complete):
+/// Writes the GeoPackage `path` (the caller's temporary name; it renames the finished file, and
+/// `path` is deleted when writing fails):
 /// layer "units" with the source's geometry of each unit, a text field `unit_id`, a text field
 /// `status`, and one Real field per column. Throws IoError naming the file when writing fails.
 void write_units_geopackage(const std::string& path, const ManagementUnits& units, const std::vector<std::string>& status,

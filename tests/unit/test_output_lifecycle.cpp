@@ -139,24 +139,26 @@ TEST_CASE("Committing replaces an earlier output and its sidecar", "[raster][out
   CHECK(contents(final_path) != "output of an earlier run");
 }
 
-TEST_CASE("Stale partials of dead writers are removed and those of live writers kept", "[raster][output]") {
+TEST_CASE("Under the folder's lock every temporary of an owned name is a leftover, whatever its pid", "[raster][output]") {
+  // The caller holds the folder's lock, so no live habcast run writes there: a pid in a name
+  // proves nothing (reused, or another node's), and GDAL's scratch files beside it go too.
   TempFolder folder;
   const std::string dead = std::to_string(pid_of_finished_child());
   const std::string live = std::to_string(getpid());
   touch(folder.file(".suitability.tif." + dead + ".partial"));
   touch(folder.file(".suitability.tif." + dead + ".partial.aux.xml"));
-  // Far above any pid the kernel hands out (pid_max is at most 2^22).
   touch(folder.file(".flags.tif.999999999.partial"));
   touch(folder.file(".suitability.tif." + live + ".partial"));
+  touch(folder.file(".suitability.tif." + live + ".partial.ovr.tmp"));
   touch(folder.file(".other.tif." + dead + ".partial"));  // not one of our outputs
-  touch(folder.file(".suitability.tif.0.partial"));       // pid 0 would address a process group
+  touch(folder.file(".suitability.tif.x.partial"));       // not a name of ours either
   touch(folder.file("suitability.tif"));
 
-  CHECK(remove_stale_partials(folder.path().string(), {"suitability.tif", "flags.tif"}) == 2);
+  CHECK(remove_stale_partials(folder.path().string(), {"suitability.tif", "flags.tif"}) == 5);
   auto names = folder.names();
   std::sort(names.begin(), names.end());
-  std::vector<std::string> expected = {".other.tif." + dead + ".partial", ".suitability.tif.0.partial",
-                                       ".suitability.tif." + live + ".partial", "suitability.tif"};
+  std::vector<std::string> expected = {".other.tif." + dead + ".partial", ".suitability.tif.x.partial",
+                                       "suitability.tif"};
   std::sort(expected.begin(), expected.end());
   CHECK(names == expected);
 }

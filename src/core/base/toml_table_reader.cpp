@@ -30,6 +30,11 @@ std::optional<std::string> TomlTableReader::string(const std::string& key) {
   const toml::node* n = get(key);
   if (!n) return std::nullopt;
   if (!n->is_string()) fail(*n, where(key) + " must be a quoted string");
+  // Names, units, descriptions and paths are short; one of megabytes would be copied into every
+  // output's metadata and the report (docs/limits.md).
+  if (n->as_string()->get().size() > kMaxTextFieldBytes)
+    fail(*n, where(key) + " is longer than " + std::to_string(kMaxTextFieldBytes) + " characters, the most a text "
+                          "field may hold (docs/limits.md)");
   return n->value<std::string>();
 }
 

@@ -7,9 +7,14 @@
 #include <cstdint>
 #include <optional>
 #include <set>
+#include <cstddef>
 #include <string>
 
 namespace habcast {
+
+/// Longest text a string value of a model file or manifest may hold (docs/limits.md).
+constexpr std::size_t kMaxTextFieldBytes = 4096;
+
 
 /// The line of `node` in its file (1-based).
 long toml_line(const toml::node& node);

@@ -10,6 +10,7 @@
 #include <sstream>
 #include <toml++/toml.h>
 
+#include "core/base/bounded_input.hpp"
 #include "core/base/error.hpp"
 #include "core/base/toml_table_reader.hpp"
 #include "core/model/term_plan.hpp"
@@ -396,12 +397,7 @@ ModelSpec parse_model_text(const std::string& text, const std::string& path) {
 }
 
 ModelSpec read_model_file(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) throw InputError(path + ": cannot open the model file; check the path and that it is readable");
-  std::ostringstream buffer;
-  buffer << in.rdbuf();
-  if (in.bad()) throw InputError(path + ": cannot read the model file");
-  return parse_model_text(buffer.str(), path);
+  return parse_model_text(read_text_file_bounded(path, kMaxModelFileBytes, "a model file"), path);
 }
 
 }  // namespace habcast
