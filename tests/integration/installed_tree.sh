@@ -83,7 +83,7 @@ if [[ $mode == deb ]]; then
   depends=$(dpkg-deb --field "$deb" Depends)
   [[ -n $depends ]] || fail "the package declares no Depends"
   while read -r soname; do
-    lib=$(ldconfig -p | awk -v so="$soname" '$1 == so {print $NF; exit}')
+    lib=$(ldconfig -p | awk -v so="$soname" '$1 == so && !found {print $NF; found = 1}')  # no early exit: SIGPIPE under pipefail
     [[ -n $lib ]] || fail "the binary needs $soname, which this system does not have"
     # dpkg knows a library by the path its package installed (merged /usr: maybe not the real one).
     owner=$( (dpkg -S "$lib" || dpkg -S "$(readlink -f "$lib")") 2>/dev/null | awk -F: 'NR == 1 {print $1}')
