@@ -31,4 +31,13 @@ void write_file_atomically(const std::string& path, const std::string& content) 
   }
 }
 
+void write_whole_file(const std::string& path, const std::string& content, const std::string& final_path) {
+  const std::string& shown = final_path.empty() ? path : final_path;
+  std::ofstream out(path, std::ios::binary | std::ios::trunc);
+  if (!out) throw IoError(shown + ": cannot create " + path + "; check that the folder exists and is writable");
+  out << content;
+  out.flush();
+  if (!out) throw IoError(shown + ": writing failed (disk full?); the earlier outputs are unchanged");
+}
+
 }  // namespace habcast

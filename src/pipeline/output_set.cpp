@@ -8,6 +8,7 @@
 #include <sstream>
 
 #include "core/base/error.hpp"
+#include "pipeline/run_files.hpp"
 #include "raster/output_raster.hpp"
 
 namespace habcast {
@@ -31,10 +32,18 @@ void fault_point() {
   }
 }
 
-/// A record names files of its own folder only: a name with a slash, or "." / "..", is not ours.
+/// A record names files in its own folder or its sub-folders only ("a.tif", "ssp1/change.tif"):
+/// an absolute name, an empty component, or "." / ".." anywhere is not ours.
 bool plain_name(const std::string& name) {
-  return !name.empty() && name != "." && name != ".." && name.find('/') == std::string::npos &&
-         name.find('\n') == std::string::npos && name.find('\t') == std::string::npos;
+  if (name.empty() || name.find('\n') != std::string::npos || name.find('\t') != std::string::npos) return false;
+  std::size_t start = 0;
+  while (true) {
+    const std::size_t slash = name.find('/', start);
+    const std::string part = name.substr(start, slash == std::string::npos ? std::string::npos : slash - start);
+    if (part.empty() || part == "." || part == "..") return false;
+    if (slash == std::string::npos) return true;
+    start = slash + 1;
+  }
 }
 
 /// The temporary files GDAL may add beside a temporary raster (sidecar, overview scratch).
@@ -125,9 +134,13 @@ OutputSet::~OutputSet() {
 
 void OutputSet::add(const std::string& temporary, const std::string& final_name) {
   const fs::path t(temporary);
-  if (!plain_name(final_name) || !plain_name(t.filename().string()))
+  // The temporary file lies beside its final name: same sub-folder of the set's folder.
+  const std::string relative = (fs::path(final_name).parent_path() / t.filename()).string();
+  if (!plain_name(final_name) || !plain_name(relative) ||
+      real_path(t.parent_path().empty() ? "." : t.parent_path().string()) !=
+          real_path((fs::path(folder_) / final_name).parent_path().string()))
     throw std::logic_error("OutputSet::add: " + temporary + " -> " + final_name + " is not a name in " + folder_);
-  renames_.emplace_back(t.filename().string(), final_name);
+  renames_.emplace_back(relative, final_name);
 }
 
 void OutputSet::commit() {

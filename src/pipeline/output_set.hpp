@@ -22,16 +22,18 @@ namespace habcast {
 
 class OutputSet {
  public:
-  /// `folder` holds every file of the set; `name` names the set's commit record; `owned` are
-  /// the final names (file names, no folders) the set may hold: those the new set does not
-  /// provide are removed at the commit.
+  /// `folder` holds every file of the set, directly or in sub-folders; `name` names the set's
+  /// commit record (kept in `folder`); `owned` are the final names relative to `folder`
+  /// ("report.json", "ssp1/change.tif") the set may hold: those the new set does not provide are
+  /// removed at the commit.
   OutputSet(std::string folder, std::string name, std::vector<std::string> owned);
   /// Before the commit point, deletes the temporary files; after it, leaves them to recovery.
   ~OutputSet();
   OutputSet(const OutputSet&) = delete;
   OutputSet& operator=(const OutputSet&) = delete;
 
-  /// `temporary` (complete, in the folder) is to become `final_name` (a name in the folder).
+  /// `temporary` (complete, beside its final name) is to become `final_name` (relative to the
+  /// folder).
   /// The set owns the temporary file from now on.
   void add(const std::string& temporary, const std::string& final_name);
 

@@ -43,6 +43,13 @@ void ChangeRasters::write(const Window& w, const ChangeOutputs& c) {
   }
 }
 
+const std::vector<std::string>& change_owned_names() {
+  static const std::vector<std::string> names{"change.tif",       sidecar_of("change.tif"), "change_class.tif",
+                                              sidecar_of("change_class.tif"), "change_class.png", "change_class.svg",
+                                              "change_class.pdf"};
+  return names;
+}
+
 ChangeRasters create_change_rasters(const PredictOptions& options, const ModelSpec& spec, const std::string& models, const Scenario& scenario,
                                     const std::string& folder, const RasterGrid& grid, std::optional<double> threshold,
                                     const std::string& version, int threads) {

@@ -4,6 +4,7 @@
 #include <memory>
 #include <optional>
 #include <string>
+#include <vector>
 
 #include "core/model/model_spec.hpp"
 #include "core/prediction/change_combiner.hpp"
@@ -22,6 +23,10 @@ struct ChangeRasters {
   /// Writes one window's change outputs and flushes the blocks it completes (window order).
   void write(const Window& window, const ChangeOutputs& outputs);
 };
+
+/// The names a scenario's folder may hold beside a prediction's: change.tif, change_class.tif,
+/// their sidecars and the change-class pictures.
+const std::vector<std::string>& change_owned_names();
 
 /// Creates them under temporary names in `folder` (refusing to replace finished files unless
 /// options.overwrite); `models` names the model file(s) in the metadata; change_class.tif only

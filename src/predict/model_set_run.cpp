@@ -19,7 +19,9 @@
 #include "core/model/term_plan.hpp"
 #include "pipeline/atomic_file.hpp"
 #include "pipeline/ordered_parallel.hpp"
+#include "pipeline/output_folder.hpp"
 #include "pipeline/output_guard.hpp"
+#include "pipeline/run_files.hpp"
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "core/prediction/averaged_change.hpp"
@@ -112,6 +114,25 @@ struct Outputs {
   }
 };
 
+/// Every name a model-set run may write, relative to its output folder: the averaged prediction in
+/// the folder itself, or (with scenarios) in baseline/ and each scenario's folder with the change.
+std::vector<std::string> model_set_owned_names(const std::vector<Scenario>& scenarios) {
+  std::vector<std::string> per_folder;
+  for (const char* raster : {"suitability.tif", "uncertainty.tif", "model_choice.tif", "extrapolation.tif"}) {
+    per_folder.emplace_back(raster);
+    per_folder.push_back(sidecar_of(raster));
+  }
+  per_folder.emplace_back("report.json");
+  if (scenarios.empty()) return per_folder;
+  std::vector<std::string> owned{"scenarios.json"};
+  for (const std::string& name : per_folder) owned.push_back("baseline/" + name);
+  for (const Scenario& s : scenarios) {
+    for (const std::string& name : per_folder) owned.push_back(s.name + "/" + name);
+    for (const std::string& name : change_owned_names()) owned.push_back(s.name + "/" + name);
+  }
+  return owned;
+}
+
 const char* form_text(UnconditionalForm form) {
   return form == UnconditionalForm::revised
              ? "sqrt(sum w_i (se_i^2 + (mu_i - mu_bar)^2)) (Burnham & Anderson 2002, revised form, eq. 6.12 from memory)"
@@ -121,14 +142,8 @@ const char* form_text(UnconditionalForm form) {
 Outputs create_set_outputs(const ModelSetOptions& options, const ModelSpec& first, const RasterGrid& grid,
                            bool with_flags, const std::string& version, int threads, const std::string& report_path) {
   const fs::path dir(options.predict.output_dir);
+  (void)report_path;
   const std::vector<std::string> names{"suitability.tif", "uncertainty.tif", "model_choice.tif", "extrapolation.tif"};
-  std::vector<std::string> finals{report_path};
-  for (std::size_t i = 0; i < names.size(); ++i)
-    if (i < 3 || with_flags) finals.push_back((dir / names[i]).string());
-  refuse_to_clobber(finals, options.predict.overwrite, ", or choose another output folder with -o");
-  std::vector<std::string> short_names;
-  for (const std::string& f : finals) short_names.push_back(fs::path(f).filename().string());
-  remove_stale_partials(dir.string(), short_names);
 
   std::string paths;
   for (const std::string& p : options.model_paths) paths += (paths.empty() ? "" : "; ") + p;
@@ -345,16 +360,33 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
     workers.push_back(std::move(w));
   }
 
+  // Every file the run reads and writes is resolved first; the whole tree is locked, and
+  // committed as one set.
   const fs::path top(po.output_dir);
   std::vector<std::string> folders{scenarios.empty() ? top.string() : (top / "baseline").string()};
   for (const Scenario& sc : scenarios) folders.push_back((top / sc.name).string());
-  for (const std::string& f : folders) {
-    std::error_code ec;
-    fs::create_directories(f, ec);
-    if (ec || !fs::is_directory(f)) throw IoError(f + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
-  }
   const std::string json_path = (top / "scenarios.json").string();
-  if (!scenarios.empty()) refuse_to_clobber({json_path}, po.overwrite, ", or choose another output folder with -o");
+  const std::vector<std::string> owned = model_set_owned_names(scenarios);
+  {
+    RunFiles files;
+    for (const SetModel& m : all) {
+      files.input("model file", m.spec.path);
+      if (m.spec.training_samples) files.input("training samples of " + m.spec.path, *m.spec.training_samples);
+    }
+    files.input("scenario file", options.scenarios.path);
+    for (std::size_t j = 0; j < stacks; ++j)
+      for (std::size_t m = 0; m < M; ++m)
+        for (const CovariateInput& in : stack_inputs[j][m])
+          files.input((j == 0 ? std::string("baseline") : "scenario " + scenarios[j - 1].name) + " raster of covariate " +
+                          in.name,
+                      in.path);
+    for (const std::string& name : owned) files.output("output " + name, (top / name).string());
+    files.output("--quicklook", po.quicklook_path);
+    files.check();
+  }
+  const OutputFolder output_folder(po.output_dir, owned, po.overwrite,
+                                   " (the old outputs stay until the new ones are complete, then are replaced as a "
+                                   "set), or choose another output folder with -o");
   std::string model_list;
   for (const std::string& p : options.model_paths) model_list += (model_list.empty() ? "" : "; ") + p;
   std::vector<Outputs> outs;
@@ -448,21 +480,19 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
   for (OutputRaster* r : all_rasters) {
     if (po.overviews) r->build_overviews();
     throw_if_stopped();
-    r->close();
   }
-  // Rename only when every raster of every folder is complete: a run leaves all or nothing.
-  for (OutputRaster* r : all_rasters) r->commit();
+  // Every raster, picture and report of every folder is committed together at the end: a run
+  // leaves the complete old set or the complete new one (pipeline/output_set.hpp).
+  OutputCommit commit(po.output_dir, "model-set", owned, po.quicklook_path);
+  commit.take_rasters(all_rasters);
   std::vector<std::string> quicklook_problems;
-  if (!po.quicklook_path.empty()) {
-    try {
-      const Figure quicklook = quicklook_figure(outs[0].suitability->final_path(),
-                                                outs[0].extrapolation ? outs[0].extrapolation->final_path() : "",
-                                                "habcast model set (" + std::to_string(models.size()) + " models)");
-      write_file_atomically(po.quicklook_path, encode_figure(quicklook, po.quicklook_path));
-    } catch (const Error& e) {
-      quicklook_problems.push_back(std::string("no quicklook was written: ") + e.what());
-    }
-  }
+  const std::string quicklook_problem = commit.add_outside_picture([&](const std::string& temporary) {
+    const Figure quicklook = quicklook_figure(commit.finished(outs[0].suitability->final_path()),
+                                              outs[0].extrapolation ? commit.finished(outs[0].extrapolation->final_path()) : "",
+                                              "habcast model set (" + std::to_string(models.size()) + " models)");
+    write_whole_file(temporary, encode_figure(quicklook, po.quicklook_path), po.quicklook_path);
+  });
+  if (!quicklook_problem.empty()) quicklook_problems.push_back(quicklook_problem);
   const double best_aic = *std::min_element(aic_values.begin(), aic_values.end());
   ModelSetSummary summary;
 
@@ -564,7 +594,7 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
       }
     }
     r["exit_code"] = static_cast<int>(summary.exit_code);
-    write_file_atomically(report_path, r.dump(2) + "\n");
+    commit.add_file(report_path, r.dump(2) + "\n");
     for (const auto& [role, path] : files.items()) {
       (void)role;
       summary.outputs.push_back(path.get<std::string>());
@@ -578,7 +608,10 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
       summary.warnings = warnings;
     }
   }
-  if (scenarios.empty()) return summary;
+  if (scenarios.empty()) {
+    commit.commit();
+    return summary;
+  }
 
   // ---- the change of the averaged prediction under each scenario: scenarios.json ----
   json r;
@@ -624,7 +657,8 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
   }
   r["scenarios"] = list;
   r["warnings"] = summary.warnings;
-  write_file_atomically(json_path, r.dump(2) + "\n");
+  commit.add_file(json_path, r.dump(2) + "\n");
+  commit.commit();
   summary.outputs.push_back(json_path);
   summary.report = r;
   return summary;

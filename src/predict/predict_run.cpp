@@ -60,14 +60,6 @@ void return_free_memory() {
 #endif
 }
 
-/// Writes `bytes` to `path` (a temporary of the output set). Throws IoError naming the file.
-void write_bytes(const std::string& path, const std::string& bytes) {
-  std::ofstream out(path, std::ios::binary | std::ios::trunc);
-  out << bytes;
-  out.flush();
-  if (!out) throw IoError(path + ": writing failed (disk full?)");
-}
-
 constexpr const char* kCaution =
     "Model output, not ground truth. Check extrapolation.tif and uncertainty.tif, verify in the field, and follow "
     "local regulations and licensed practice before acting on this map.";
@@ -488,11 +480,11 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
   PredictCommit commit(options);
   commit.take_rasters(out.all());
   // The quicklook is a convenience: if it cannot be drawn, the rasters still stand.
-  const std::string quicklook_problem = commit.add_quicklook([&](const std::string& temporary) {
+  const std::string quicklook_problem = commit.add_outside_picture([&](const std::string& temporary) {
     const Figure quicklook = quicklook_figure(commit.finished(out.suitability->final_path()),
                                               out.extrapolation ? commit.finished(out.extrapolation->final_path()) : "",
                                               spec.name.empty() ? "habcast prediction" : spec.name, spec.description);
-    write_bytes(temporary, encode_figure(quicklook, options.quicklook_path));
+    write_whole_file(temporary, encode_figure(quicklook, options.quicklook_path), options.quicklook_path);
   });
 
   std::optional<UnitResults> unit_results;
@@ -504,8 +496,8 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
       write_units_geopackage(temporary, unit_plan->units, unit_status(*unit_plan, *unit_results),
                              unit_table_columns(*unit_plan, *unit_results, spec));
     });
-    commit.add_report(units_csv_path, units_csv(*unit_plan, *unit_results, spec));
-    commit.add_report(units_json_path, units_json(*unit_plan, *unit_results, spec, options.level).dump(2) + "\n");
+    commit.add_file(units_csv_path, units_csv(*unit_plan, *unit_results, spec));
+    commit.add_file(units_json_path, units_json(*unit_plan, *unit_results, spec, options.level).dump(2) + "\n");
   }
 
   ReportContext ctx;
@@ -559,7 +551,7 @@ PredictSummary run_predict(const PredictOptions& options, Progress& progress, co
     }
   }
   summary.report["exit_code"] = static_cast<int>(summary.exit_code);
-  commit.add_report(out.report_path, summary.report.dump(2) + "\n");
+  commit.add_file(out.report_path, summary.report.dump(2) + "\n");
   commit.commit();
   // The units map, like a quicklook outside the folder, follows the committed set; if it cannot be
   // drawn, the set still stands and the warning says so.

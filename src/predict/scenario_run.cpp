@@ -17,12 +17,13 @@
 #include "core/model/term_plan.hpp"
 #include "core/prediction/block_predictor.hpp"
 #include "core/prediction/change_combiner.hpp"
-#include "pipeline/atomic_file.hpp"
+#include "pipeline/output_folder.hpp"
 #include "pipeline/ordered_parallel.hpp"
-#include "pipeline/output_guard.hpp"
+#include "pipeline/run_files.hpp"
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "predict/change_rasters.hpp"
+#include "predict/predict_folder.hpp"
 #include "predict/prediction_folder.hpp"
 #include "predict/prediction_members.hpp"
 #include "predict/prediction_report.hpp"
@@ -96,6 +97,16 @@ struct BlockResult {
 
 }  // namespace
 
+std::vector<std::string> scenario_owned_names(const std::vector<Scenario>& scenarios) {
+  std::vector<std::string> owned{"scenarios.json", "scenarios.csv"};
+  for (const std::string& name : predict_owned_names()) owned.push_back("baseline/" + name);
+  for (const Scenario& s : scenarios) {
+    for (const std::string& name : predict_owned_names()) owned.push_back(s.name + "/" + name);
+    for (const std::string& name : change_owned_names()) owned.push_back(s.name + "/" + name);
+  }
+  return owned;
+}
+
 ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progress, const std::string& tool_version) {
   const auto t0 = std::chrono::steady_clock::now();
   const std::string started = utc_now();
@@ -164,21 +175,27 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
     workers.push_back(std::move(w));
   }
 
-  // Folders: baseline/ and one per scenario, each exactly as predict writes it.
+  // Folders: baseline/ and one per scenario, each exactly as predict writes it. Every file the run
+  // reads and writes is resolved first; the whole tree is locked, and committed as one set.
   const fs::path top(po.output_dir);
   std::vector<std::string> folders{(top / "baseline").string()};
   for (const Scenario& s : scenarios) folders.push_back((top / s.name).string());
   const std::string json_path = (top / "scenarios.json").string();
   const std::string csv_path = (top / "scenarios.csv").string();
-  for (const std::string& f : folders) {
-    std::error_code ec;
-    fs::create_directories(f, ec);
-    if (ec || !fs::is_directory(f)) throw IoError(f + ": cannot create the output folder: " + (ec ? ec.message() : "not a folder"));
-  }
-  std::vector<std::string> top_files{json_path, csv_path};
-  if (!ql.empty())
-    for (std::size_t s = 0; s < scenarios.size(); ++s) top_files.push_back((fs::path(folders[s + 1]) / ("change_class." + ql)).string());
-  refuse_to_clobber(top_files, po.overwrite, ", or choose another output folder with -o");
+  const std::vector<std::string> owned = scenario_owned_names(scenarios);
+  RunFiles files;
+  files.input("model file", spec.path);
+  if (spec.training_samples) files.input("training samples", *spec.training_samples);
+  files.input("scenario file", options.scenarios.path);
+  for (std::size_t m = 0; m < members; ++m)
+    for (const CovariateInput& in : member_inputs[m])
+      files.input((m == 0 ? std::string("baseline") : "scenario " + scenarios[m - 1].name) + " raster of covariate " + in.name,
+                  in.path);
+  for (const std::string& name : owned) files.output("output " + name, (top / name).string());
+  files.check();
+  const OutputFolder folder(po.output_dir, owned, po.overwrite,
+                            " (the old outputs stay until the new ones are complete, then are replaced as a set), or "
+                            "choose another output folder with -o");
   std::vector<std::unique_ptr<PredictionFolder>> outputs;
   for (std::size_t m = 0; m < members; ++m) {
     PredictOptions mo = po;
@@ -243,22 +260,23 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
   for (OutputRaster* r : all_rasters) {
     if (po.overviews) r->build_overviews();
     throw_if_stopped();
-    r->close();
   }
-  // Rename only when every raster of every folder is complete: a run leaves all or nothing.
-  for (OutputRaster* r : all_rasters) r->commit();
+  // Every raster, picture, table and report of every folder is committed together at the end:
+  // a run leaves the complete old set or the complete new one (pipeline/output_set.hpp).
+  OutputCommit commit(po.output_dir, "scenarios", owned);
+  commit.take_rasters(all_rasters);
 
   ScenarioSummary summary;
-  // The pictures are a convenience: if one cannot be drawn, the committed rasters still stand.
+  // The pictures are a convenience: if one cannot be drawn, the rasters still stand.
   std::vector<std::string> picture_problems;
   if (!ql.empty()) {
     for (std::size_t s = 0; s < scenarios.size(); ++s) {
       const std::string path = (fs::path(folders[s + 1]) / ("change_class." + ql)).string();
       try {
-        const Figure f = change_class_figure(change_outputs[s].classes->final_path(),
+        const Figure f = change_class_figure(commit.finished(change_outputs[s].classes->final_path()),
                                              "Scenario " + scenarios[s].name + " against the baseline",
                                              "at suitability " + format_value(*threshold));
-        write_file_atomically(path, encode_figure(f, path));
+        commit.add_file(path, encode_figure(f, path));
         summary.outputs.push_back(path);
       } catch (const Error& e) {
         picture_problems.push_back("no change quicklook for scenario " + scenarios[s].name + ": " + e.what());
@@ -291,7 +309,7 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
     nlohmann::ordered_json report = prediction_report(ctx, warnings);
     report["scenario"] = m == 0 ? "baseline" : scenarios[m - 1].name;
     report["exit_code"] = 0;
-    write_file_atomically(outputs[m]->report_path(), report.dump(2) + "\n");
+    commit.add_file(outputs[m]->report_path(), report.dump(2) + "\n");
     for (const auto& [role, path] : ctx.outputs) {
       (void)role;
       summary.outputs.push_back(path);
@@ -320,8 +338,9 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
   summary.warnings = scenario_warnings(sc);
   summary.warnings.insert(summary.warnings.end(), picture_problems.begin(), picture_problems.end());
   summary.report = scenario_report(sc, summary.warnings);
-  write_file_atomically(csv_path, scenario_csv(sc));
-  write_file_atomically(json_path, summary.report.dump(2) + "\n");
+  commit.add_file(csv_path, scenario_csv(sc));
+  commit.add_file(json_path, summary.report.dump(2) + "\n");
+  commit.commit();
   summary.outputs.push_back(csv_path);
   summary.outputs.push_back(json_path);
   return summary;

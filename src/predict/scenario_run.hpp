@@ -36,4 +36,8 @@ struct ScenarioSummary {
 /// folder, and scenarios.json, scenarios.csv at the top. Leaves no partial output when it throws.
 ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progress, const std::string& tool_version);
 
+/// Every name such a run may write, relative to its output folder ("scenarios.json",
+/// "baseline/report.json", "warm/change.tif", ...): what it locks, checks and commits as one set.
+std::vector<std::string> scenario_owned_names(const std::vector<Scenario>& scenarios);
+
 }  // namespace habcast

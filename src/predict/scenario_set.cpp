@@ -24,8 +24,9 @@ std::string resolve(const std::string& file, const std::string& relative) {
   return (fs::path(file).parent_path() / p).lexically_normal().string();
 }
 
-const char* kNameRule = "letters, digits, '_', '-' and '.' only (it names the scenario's output folder), not "
-                        "\"baseline\"";
+const char* kNameRule = "letters, digits, '_', '-' and '.' only, starting with a letter or digit (it names the "
+                        "scenario's output folder), not \"baseline\" and not a name of the run's own files "
+                        "(scenarios.json, scenarios.csv)";
 
 Scenario read_scenario(const toml::table& table, const std::string& path, std::size_t index) {
   const std::string place = "in [[scenario]] number " + std::to_string(index + 1);
@@ -63,7 +64,11 @@ void check_unique(const ScenarioSet& set) {
 }  // namespace
 
 bool valid_scenario_name(const std::string& name) {
-  if (name.empty() || name.size() > 64 || name == "." || name == ".." || name == "baseline") return false;
+  if (name.empty() || name.size() > 64 || name == "baseline" || name == "scenarios.json" || name == "scenarios.csv")
+    return false;
+  // A leading '.' or '-' would hide the folder or read as an option; it also keeps the names of
+  // habcast's own hidden files (lock, temporaries, commit records) out of reach.
+  if (!std::isalnum(static_cast<unsigned char>(name.front()))) return false;
   for (const char c : name)
     if (!(std::isalnum(static_cast<unsigned char>(c)) || c == '_' || c == '-' || c == '.')) return false;
   return true;

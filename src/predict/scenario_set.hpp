@@ -31,8 +31,9 @@ ScenarioSet read_scenario_file(const std::string& path);
 /// appearance. Throws UsageError on a malformed argument or a covariate given twice for a name.
 void add_scenario_arguments(const std::vector<std::string>& arguments, ScenarioSet& set);
 
-/// Whether `name` can name a scenario and its folder: letters, digits, '_', '-', '.', not "." or
-/// "..", not "baseline" (the baseline's folder), at most 64 characters.
+/// Whether `name` can name a scenario and its folder: letters, digits, '_', '-', '.', starting
+/// with a letter or digit, not "baseline" (the baseline's folder) nor "scenarios.json" or
+/// "scenarios.csv" (the run's own files), at most 64 characters.
 bool valid_scenario_name(const std::string& name);
 
 }  // namespace habcast
