@@ -5,16 +5,19 @@
 #include <gdal_priv.h>
 #include <ogrsf_frmts.h>
 
+#include <algorithm>
 #include <cmath>
 #include <fstream>
 #include <map>
 #include <nlohmann/json.hpp>
 #include <sstream>
 #include <string>
+#include <tuple>
 #include <vector>
 
 #include "core/base/error.hpp"
 #include "core/numeric/cell_coverage.hpp"
+#include "core/prediction/unit_sums.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/unit_layer.hpp"
 #include "render/figure_file.hpp"
@@ -459,4 +462,40 @@ TEST_CASE("The units map draws every unit, hatches mostly extrapolated ones and 
   CHECK(s.predict("out", {"--units-map", s.dir.file("map.pdf")}) == 2);  // no --units
   REQUIRE(s.predict("out", {"--units", s.dir.file("u.gpkg"), "--units-map", s.dir.file("map.pdf")}) == 0);
   CHECK(habcast::test::read_text(s.dir.file("map.pdf")).substr(0, 5) == "%PDF-");
+}
+
+TEST_CASE("A block's unit cover is sorted by pixel, then unit, as a comparison sort orders it", "[units]") {
+  // Entries as cover_window adds them: unit by unit, in increasing unit order, each pixel of a
+  // unit once, pixels within a unit in any order.
+  habcast::BlockUnitCover cover;
+  std::vector<std::tuple<std::uint32_t, std::uint32_t, double>> want;
+  std::uint32_t state = 12345;
+  auto next = [&] { return state = state * 1103515245u + 12345u; };
+  for (std::uint32_t u = 0; u < 40; ++u) {
+    std::vector<std::uint32_t> pixels;
+    for (std::uint32_t k = 0; k < 30; ++k) pixels.push_back((next() >> 8) % 500);
+    std::sort(pixels.begin(), pixels.end());
+    pixels.erase(std::unique(pixels.begin(), pixels.end()), pixels.end());
+    std::reverse(pixels.begin(), pixels.end());
+    for (const std::uint32_t p : pixels) {
+      const double area = 0.001 * static_cast<double>(next() % 1000);
+      cover.pixel.push_back(p);
+      cover.unit.push_back(u);
+      cover.area_ha.push_back(area);
+      want.emplace_back(p, u, area);
+    }
+  }
+  std::sort(want.begin(), want.end(), [](const auto& a, const auto& b) {
+    return std::get<0>(a) != std::get<0>(b) ? std::get<0>(a) < std::get<0>(b) : std::get<1>(a) < std::get<1>(b);
+  });
+  for (int round = 0; round < 2; ++round) {  // the scratch buffers are reused
+    cover.sort();
+    REQUIRE(cover.size() == want.size());
+    for (std::size_t i = 0; i < want.size(); ++i) {
+      INFO("entry " << i);
+      CHECK(cover.pixel[i] == std::get<0>(want[i]));
+      CHECK(cover.unit[i] == std::get<1>(want[i]));
+      CHECK(cover.area_ha[i] == std::get<2>(want[i]));
+    }
+  }
 }

@@ -23,18 +23,25 @@ void UnitSums::merge(const UnitSums& other) {
 }
 
 void BlockUnitCover::sort() {
-  std::vector<std::size_t> order(pixel.size());
-  std::iota(order.begin(), order.end(), std::size_t{0});
-  std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) {
-    return pixel[a] != pixel[b] ? pixel[a] < pixel[b] : unit[a] < unit[b];
-  });
-  auto permute = [&](auto& v) {
-    auto copy = v;
-    for (std::size_t i = 0; i < order.size(); ++i) v[i] = copy[order[i]];
-  };
-  permute(pixel);
-  permute(unit);
-  permute(area_ha);
+  const std::size_t n = pixel.size();
+  if (n == 0) return;
+  const std::uint32_t largest = *std::max_element(pixel.begin(), pixel.end());
+  start_.assign(static_cast<std::size_t>(largest) + 2, 0);
+  for (const std::uint32_t p : pixel) ++start_[p + 1];
+  std::partial_sum(start_.begin(), start_.end(), start_.begin());
+  pixel_scratch_.resize(n);
+  unit_scratch_.resize(n);
+  area_scratch_.resize(n);
+  // Stable: within one pixel the entries keep their order of addition, which is unit order.
+  for (std::size_t i = 0; i < n; ++i) {
+    const std::uint32_t to = start_[pixel[i]]++;
+    pixel_scratch_[to] = pixel[i];
+    unit_scratch_[to] = unit[i];
+    area_scratch_[to] = area_ha[i];
+  }
+  pixel.swap(pixel_scratch_);
+  unit.swap(unit_scratch_);
+  area_ha.swap(area_scratch_);
 }
 
 UnitSums& BlockUnitSums::at(std::uint32_t unit, std::vector<std::uint32_t>& slot_of) {

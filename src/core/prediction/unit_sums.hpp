@@ -49,8 +49,16 @@ struct BlockUnitCover {
     area_ha.clear();
   }
   [[nodiscard]] std::size_t size() const { return pixel.size(); }
-  /// Sorts the entries by pixel, then unit (the order in which the predictor adds them).
+  /// Sorts the entries by pixel, then unit (the order in which the predictor adds them). The
+  /// entries must have been added unit by unit in increasing unit order, each (pixel, unit) pair
+  /// once, as cover_window adds them: then a stable counting sort by pixel gives that order in
+  /// linear time (a comparison sort took 6 % of a run's CPU with 1,000 units).
   void sort();
+
+ private:
+  std::vector<std::uint32_t> start_;   ///< scratch: first position of each pixel's entries
+  std::vector<std::uint32_t> pixel_scratch_, unit_scratch_;
+  std::vector<double> area_scratch_;
 };
 
 /// Sums of the units touched by one block; merged into the run's totals in block order.
