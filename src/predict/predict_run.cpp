@@ -29,6 +29,7 @@
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "predict/empty_map.hpp"
+#include "predict/covariate_inputs.hpp"
 #include "predict/predict_folder.hpp"
 #include "predict/prediction_folder.hpp"
 #include "predict/prediction_report.hpp"
@@ -63,33 +64,6 @@ void return_free_memory() {
 constexpr const char* kCaution =
     "Model output, not ground truth. Check extrapolation.tif and uncertainty.tif, verify in the field, and follow "
     "local regulations and licensed practice before acting on this map.";
-
-std::string covariate_list(const ModelSpec& spec) {
-  std::string s;
-  for (const Covariate& c : spec.covariates) s += (s.empty() ? "" : ", ") + c.name;
-  return s;
-}
-
-/// Which raster each covariate is read from: the -c override, else the model file's default.
-std::vector<CovariateInput> resolve_inputs(const ModelSpec& spec, const PredictOptions& options) {
-  for (const auto& [name, path] : options.covariate_rasters) {
-    (void)path;
-    if (spec.covariate_index(name) < 0)
-      throw UsageError("-c " + name + "=...: the model has no covariate \"" + name + "\"; its covariates are " +
-                       covariate_list(spec));
-  }
-  std::vector<CovariateInput> inputs;
-  for (const Covariate& c : spec.covariates) {
-    CovariateInput in{c.name, "", c.band};
-    if (auto it = options.covariate_rasters.find(c.name); it != options.covariate_rasters.end()) in.path = it->second;
-    else if (c.raster) in.path = *c.raster;
-    else
-      throw UsageError("covariate \"" + c.name + "\" has no raster: pass -c " + c.name + "=FILE.tif, or set raster = " +
-                       "\"FILE.tif\" in [covariates." + c.name + "] of " + spec.path);
-    inputs.push_back(in);
-  }
-  return inputs;
-}
 
 /// The target grid and how each covariate reaches it (raster/alignment_plan.hpp): covariates on it
 /// are read as they are, the others warped window by window.

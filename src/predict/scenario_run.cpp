@@ -23,6 +23,7 @@
 #include "pipeline/resource_limits.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "predict/change_rasters.hpp"
+#include "predict/covariate_inputs.hpp"
 #include "predict/predict_folder.hpp"
 #include "predict/prediction_folder.hpp"
 #include "predict/prediction_members.hpp"
@@ -41,33 +42,6 @@ namespace habcast {
 namespace {
 
 namespace fs = std::filesystem;
-
-std::string covariate_list(const ModelSpec& spec) {
-  std::string s;
-  for (const Covariate& c : spec.covariates) s += (s.empty() ? "" : ", ") + c.name;
-  return s;
-}
-
-/// The baseline's raster per covariate: the -c override, else the model file's default.
-std::vector<CovariateInput> baseline_inputs(const ModelSpec& spec, const PredictOptions& options) {
-  for (const auto& [name, path] : options.covariate_rasters) {
-    (void)path;
-    if (spec.covariate_index(name) < 0)
-      throw UsageError("-c " + name + "=...: the model has no covariate \"" + name + "\"; its covariates are " +
-                       covariate_list(spec));
-  }
-  std::vector<CovariateInput> inputs;
-  for (const Covariate& c : spec.covariates) {
-    CovariateInput in{c.name, "", c.band};
-    if (auto it = options.covariate_rasters.find(c.name); it != options.covariate_rasters.end()) in.path = it->second;
-    else if (c.raster) in.path = *c.raster;
-    else
-      throw UsageError("covariate \"" + c.name + "\" has no baseline raster: pass -c " + c.name + "=FILE.tif, or set " +
-                       "raster = \"FILE.tif\" in [covariates." + c.name + "] of " + spec.path);
-    inputs.push_back(in);
-  }
-  return inputs;
-}
 
 /// A scenario's rasters: the baseline's, with the scenario's replacements.
 std::vector<CovariateInput> scenario_inputs(const ModelSpec& spec, const std::vector<CovariateInput>& baseline,
@@ -135,7 +109,7 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
                                            "uncertainty: add covariance = [[...]] to [coefficients]"));
   const TermPlan plan(spec);
   const std::vector<Scenario>& scenarios = options.scenarios.scenarios;
-  std::vector<std::vector<CovariateInput>> member_inputs{baseline_inputs(spec, po)};
+  std::vector<std::vector<CovariateInput>> member_inputs{resolve_inputs(spec, po)};
   for (const Scenario& s : scenarios) member_inputs.push_back(scenario_inputs(spec, member_inputs.front(), s));
   std::vector<PredictionMember> member_list;
   for (const auto& inputs : member_inputs) member_list.push_back({&spec, &plan, nullptr, nullptr, inputs});

@@ -8,30 +8,6 @@
 
 namespace habcast {
 
-namespace {
-
-float to_float(double v) {
-  if (!std::isfinite(v) || std::fabs(v) > static_cast<double>(std::numeric_limits<float>::max())) return kFloatNodata;
-  const auto f = static_cast<float>(v);
-  return f == kFloatNodata ? std::nextafter(kFloatNodata, 0.0f) : f;
-}
-
-bool extrapolated(const std::vector<std::uint8_t>& flags, std::size_t o) {
-  return !flags.empty() && flags[o] != 0 && flags[o] != flag::nodata;
-}
-
-}  // namespace
-
-void begin_change_outputs(Eigen::Index rows, bool with_classes, ChangeOutputs& out) {
-  const auto n = static_cast<std::size_t>(rows);
-  out.change.assign(n, kFloatNodata);
-  out.se.assign(n, kFloatNodata);
-  out.lower.assign(n, kFloatNodata);
-  out.upper.assign(n, kFloatNodata);
-  out.p_decline.assign(n, kFloatNodata);
-  out.classes.assign(with_classes ? n : 0, change_class::nodata);
-}
-
 void average_changes(const std::vector<double>& weights, const std::vector<const ChangeOutputs*>& per_model,
                      const AverageOutputs& baseline, const AverageOutputs& scenario, double z,
                      std::optional<double> threshold, UnconditionalForm form, Eigen::Index first, Eigen::Index rows,
@@ -58,15 +34,15 @@ void average_changes(const std::vector<double>& weights, const std::vector<const
     tally.sum_change += a.mean;
     tally.declined += upper < 0.0 ? 1 : 0;
     tally.rose += lower > 0.0 ? 1 : 0;
-    out.change[o] = to_float(a.mean);
-    out.se[o] = to_float(a.se);
-    out.lower[o] = to_float(lower);
-    out.upper[o] = to_float(upper);
+    out.change[o] = change_to_float(a.mean);
+    out.se[o] = change_to_float(a.se);
+    out.lower[o] = change_to_float(lower);
+    out.upper[o] = change_to_float(upper);
     out.p_decline[o] = static_cast<float>(probability_of_decline(a.mean, a.se));
     if (threshold) {
       const std::uint8_t cls =
           change_class::classify(baseline.suitability[o], scenario.suitability[o], *threshold, lower, upper);
-      const bool xb = extrapolated(baseline.flags, o), xs = extrapolated(scenario.flags, o);
+      const bool xb = flagged_as_extrapolated(baseline.flags, o), xs = flagged_as_extrapolated(scenario.flags, o);
       out.classes[o] = static_cast<std::uint8_t>(cls | (xb ? change_class::baseline_extrapolated : 0) |
                                                  (xs ? change_class::scenario_extrapolated : 0));
       ++tally.classes[cls][(xb ? 1 : 0) | (xs ? 2 : 0)];

@@ -15,13 +15,10 @@ namespace habcast {
 
 /// For the chunk [first, first + rows): `per_model[i]` holds model i's change outputs (filled by
 /// its ChangeCombiner), `baseline` and `scenario` the averaged outputs of the two stacks. `out`
-/// must have been sized by a ChangeCombiner::begin-like call (see begin_change_outputs).
+/// must have been sized by a ChangeCombiner::begin-like call (begin_change_outputs in change_combiner.hpp).
 void average_changes(const std::vector<double>& weights, const std::vector<const ChangeOutputs*>& per_model,
                      const AverageOutputs& baseline, const AverageOutputs& scenario, double z,
                      std::optional<double> threshold, UnconditionalForm form, Eigen::Index first, Eigen::Index rows,
                      ChangeOutputs& out, ChangeTally& tally);
-
-/// Sizes `out` to `rows` pixels of nodata (classes only with a threshold).
-void begin_change_outputs(Eigen::Index rows, bool with_classes, ChangeOutputs& out);
 
 }  // namespace habcast

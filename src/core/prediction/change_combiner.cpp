@@ -30,30 +30,28 @@ ChangeCombiner::ChangeCombiner(Link link, Eigen::MatrixXd V, double z, std::opti
     : link_(link), V_(std::move(V)), z_(z), threshold_(threshold) {}
 
 void ChangeCombiner::begin(Eigen::Index rows, ChangeOutputs& out) const {
+  begin_change_outputs(rows, threshold_.has_value(), out);
+}
+
+void begin_change_outputs(Eigen::Index rows, bool with_classes, ChangeOutputs& out) {
   const auto n = static_cast<std::size_t>(rows);
   out.change.assign(n, kFloatNodata);
   out.se.assign(n, kFloatNodata);
   out.lower.assign(n, kFloatNodata);
   out.upper.assign(n, kFloatNodata);
   out.p_decline.assign(n, kFloatNodata);
-  out.classes.assign(threshold_ ? n : 0, change_class::nodata);
+  out.classes.assign(with_classes ? n : 0, change_class::nodata);
 }
 
-namespace {
-
-/// A finite value that Float32 can hold, else nodata; moved one step off the marker if it lands
-/// on it (a change can be any value, so -9999 is possible for counts).
-float to_float(double v) {
+float change_to_float(double v) {
   if (!std::isfinite(v) || std::fabs(v) > static_cast<double>(std::numeric_limits<float>::max())) return kFloatNodata;
   const auto f = static_cast<float>(v);
   return f == kFloatNodata ? std::nextafter(kFloatNodata, 0.0f) : f;
 }
 
-bool extrapolated(const std::vector<std::uint8_t>& flags, std::size_t o) {
+bool flagged_as_extrapolated(const std::vector<std::uint8_t>& flags, std::size_t o) {
   return !flags.empty() && flags[o] != 0 && flags[o] != flag::nodata;
 }
-
-}  // namespace
 
 void ChangeCombiner::chunk(Eigen::Index first, Eigen::Index rows, const BlockPredictor& baseline,
                            const BlockPredictor& scenario, const BlockOutputs& out_b, const BlockOutputs& out_s,
@@ -88,15 +86,15 @@ void ChangeCombiner::chunk(Eigen::Index first, Eigen::Index rows, const BlockPre
     tally.sum_change += change;
     tally.declined += upper < 0.0 ? 1 : 0;
     tally.rose += lower > 0.0 ? 1 : 0;
-    out.change[o] = to_float(change);
-    out.se[o] = to_float(se);
-    out.lower[o] = to_float(lower);
-    out.upper[o] = to_float(upper);
+    out.change[o] = change_to_float(change);
+    out.se[o] = change_to_float(se);
+    out.lower[o] = change_to_float(lower);
+    out.upper[o] = change_to_float(upper);
     out.p_decline[o] = static_cast<float>(probability_of_decline(change, se));
     if (threshold_) {
       const std::uint8_t cls = change_class::classify(out_b.suitability[o], out_s.suitability[o], *threshold_, lower, upper);
-      const bool xb = extrapolated(flags_b, o);
-      const bool xs = extrapolated(flags_s, o);
+      const bool xb = flagged_as_extrapolated(flags_b, o);
+      const bool xs = flagged_as_extrapolated(flags_s, o);
       out.classes[o] = static_cast<std::uint8_t>(cls | (xb ? change_class::baseline_extrapolated : 0) |
                                                  (xs ? change_class::scenario_extrapolated : 0));
       ++tally.classes[cls][(xb ? 1 : 0) | (xs ? 2 : 0)];

@@ -68,4 +68,16 @@ class ChangeCombiner {
 /// Phi(-change / se); with se = 0 the distribution is a point, so 1 below zero, else 0.
 double probability_of_decline(double change, double se);
 
+/// Sizes `out` to `rows` pixels of nodata (classes only with a threshold): what
+/// ChangeCombiner::begin does, for combiners of several models' changes.
+void begin_change_outputs(Eigen::Index rows, bool with_classes, ChangeOutputs& out);
+
+/// A change output's Float32 value: nodata where Float32 cannot hold it, moved one step off the
+/// marker where it lands on it (a change can take any value, so -9999 is possible for counts).
+float change_to_float(double v);
+
+/// Whether pixel `o` of a block's flags is extrapolated (flagged, and not nodata); false when the
+/// block has no flags.
+bool flagged_as_extrapolated(const std::vector<std::uint8_t>& flags, std::size_t o);
+
 }  // namespace habcast
