@@ -96,13 +96,6 @@ int run_predict_command(PredictArgs& args, std::ostream& out, std::ostream& err)
 
   StopSignalGuard guard;
   args.options.model_path = args.models.front();
-  const AlignmentOptions& asked = args.options.alignment;
-  const bool alignment_asked = !asked.target.covariate.empty() || !asked.target.template_path.empty() ||
-                               !asked.target.crs.empty() || !asked.resampling.empty() || asked.error_threshold != 0.0;
-  if (alignment_asked && (args.models.size() > 1 || args.scenarios.any()))
-    throw UsageError("--grid-of, --grid-like, --grid-crs, --resampling and --warp-error align the covariates of a single "
-                     "prediction; scenarios and model sets read covariates on one shared grid for now: align them "
-                     "first (gdalwarp), or run predict once per stack");
   if (args.models.size() > 1)
     return run_predict_model_set(args.options, args.models, args.model_set, args.scenarios, *progress,
                                  args.log_format == "json", args.quiet, out);

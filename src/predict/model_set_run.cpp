@@ -31,6 +31,7 @@
 #include "predict/recorded_threshold.hpp"
 #include "predict/prediction_members.hpp"
 #include "predict/prediction_report.hpp"
+#include "raster/alignment_plan.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/output_raster.hpp"
 #include "render/figure_file.hpp"
@@ -326,7 +327,8 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
       members.push_back({&models[m].spec, models[m].plan.get(), models[m].domain ? &*models[m].domain : nullptr,
                          models[m].novelty ? &*models[m].novelty : nullptr, stack_inputs[j][m]});
   const MemberSources sources(members);
-  const RasterGrid grid = sources.check_co_registered();
+  const AlignmentPlan alignment = sources.align(po.alignment);  // covariates on other grids: warped
+  const RasterGrid& grid = alignment.target;
   if (!po.quicklook_path.empty()) figure_format(po.quicklook_path);  // .png, .pdf or .svg, checked before the run
   if (!po.quicklook_path.empty()) refuse_to_clobber({po.quicklook_path}, po.overwrite, ", or choose another --quicklook path");
   std::string threshold_source;
@@ -347,7 +349,7 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
   std::vector<std::unique_ptr<Worker>> workers;
   for (int t = 0; t < threads; ++t) {
     auto w = std::make_unique<Worker>();
-    w->members = std::make_unique<MemberWindow>(members, sources, po.level, 0.0);
+    w->members = std::make_unique<MemberWindow>(members, sources, alignment, po.level, 0.0);
     for (std::size_t j = 0; j < stacks; ++j) {
       w->averages.push_back(std::make_unique<AverageCombiner>(models.front().spec.family, used_weights, options.form, z, with_flags));
       w->averages.back()->set_certainty(certainty);
@@ -494,6 +496,10 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
   });
   if (!quicklook_problem.empty()) quicklook_problems.push_back(quicklook_problem);
   const double best_aic = *std::min_element(aic_values.begin(), aic_values.end());
+  std::vector<std::int64_t> missing(sources.sources.size(), 0);
+  for (const auto& w : workers)
+    for (std::size_t i = 0; i < missing.size(); ++i) missing[i] += w->members->missing()[i];
+  const std::int64_t target_pixels = static_cast<std::int64_t>(grid.width) * grid.height;
   ModelSetSummary summary;
 
   // ---- one report per stack (folder) ----
@@ -581,6 +587,11 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
     if (j == 0 && !po.quicklook_path.empty() && quicklook_problems.empty()) files["quicklook"] = po.quicklook_path;
     files["report"] = report_path;
     r["outputs"] = files;
+    std::vector<std::size_t> stack_members;
+    for (std::size_t m = 0; m < M; ++m) stack_members.push_back(j * M + m);
+    const auto [stack_alignment, stack_missing] = members_alignment(alignment, sources, stack_members, missing);
+    for (std::string& w : alignment_warnings(stack_alignment, stack_missing, target_pixels)) warnings.push_back(std::move(w));
+    r["alignment"] = alignment_json(stack_alignment, stack_missing, target_pixels);
     r["warnings"] = warnings;
     if (po.max_extrapolated_percent && with_flags) {
       const double pct = 100.0 * share(total.flagged, total.checked);

@@ -4,20 +4,37 @@
 #include <filesystem>
 #include <map>
 
+#include "core/base/error.hpp"
 #include "pipeline/resource_limits.hpp"
 
 namespace habcast {
 
 MemberSources::MemberSources(const std::vector<PredictionMember>& members) {
   std::map<std::pair<std::string, int>, std::size_t> index;
+  std::vector<std::string> first_reader;  // per source: "covariate X of MODEL", for messages
   for (const PredictionMember& m : members) {
     std::vector<std::size_t> mine;
-    for (const CovariateInput& in : m.inputs) {
+    for (std::size_t c = 0; c < m.inputs.size(); ++c) {
+      const CovariateInput& in = m.inputs[c];
+      const Covariate& covariate = m.spec->covariates[c];
+      const std::string reader = "covariate " + covariate.name + " of " + m.spec->path;
       const auto key = std::make_pair(std::filesystem::path(in.path).lexically_normal().string(), in.band);
       auto it = index.find(key);
       if (it == index.end()) {
         it = index.emplace(key, sources.size()).first;
         sources.push_back(in);
+        alignment_inputs.push_back({in.name, in.path, in.band, covariate.categorical, covariate.resampling});
+        first_reader.push_back(reader);
+      } else {
+        const AlignmentInput& seen = alignment_inputs[it->second];
+        if (seen.categorical != covariate.categorical || seen.resampling != covariate.resampling)
+          throw InputError(in.path + " is read as " + first_reader[it->second] + " (" +
+                           (seen.categorical ? "categorical" : "continuous") + ", resampling " +
+                           (seen.resampling ? to_string(*seen.resampling) : std::string("by the default rule")) +
+                           ") and as " + reader + " (" + (covariate.categorical ? "categorical" : "continuous") +
+                           ", resampling " +
+                           (covariate.resampling ? to_string(*covariate.resampling) : std::string("by the default rule")) +
+                           "); one raster must be aligned one way: make the two covariates' declarations agree");
       }
       mine.push_back(it->second);
     }
@@ -25,18 +42,33 @@ MemberSources::MemberSources(const std::vector<PredictionMember>& members) {
   }
 }
 
-RasterGrid MemberSources::check_co_registered() const {
-  const RasterGrid reference = read_grid(sources.front().path, sources.front().band);
-  check_raster_size(sources.front().path, reference);
-  for (std::size_t i = 1; i < sources.size(); ++i)
-    check_same_grid(sources.front().path, reference, sources[i].path, read_grid(sources[i].path, sources[i].band));
-  return reference;
+AlignmentPlan MemberSources::align(const AlignmentOptions& options) const {
+  AlignmentPlan plan = plan_alignment(alignment_inputs, options);
+  check_raster_size(sources.front().path, plan.target);
+  return plan;
 }
 
-MemberWindow::MemberWindow(const std::vector<PredictionMember>& members, const MemberSources& sources, double level,
-                           double quantum)
-    : members_(members), sources_(sources) {
-  for (const CovariateInput& in : sources.sources) readers_.emplace_back(in.path, in.band);
+std::pair<AlignmentPlan, std::vector<std::int64_t>> members_alignment(const AlignmentPlan& plan,
+                                                                      const MemberSources& sources,
+                                                                      const std::vector<std::size_t>& members,
+                                                                      const std::vector<std::int64_t>& missing) {
+  std::vector<bool> used(sources.sources.size(), false);
+  for (const std::size_t m : members)
+    for (const std::size_t s : sources.of_member[m]) used[s] = true;
+  std::pair<AlignmentPlan, std::vector<std::int64_t>> part{plan, {}};
+  part.first.covariates.clear();
+  for (std::size_t s = 0; s < used.size(); ++s) {
+    if (!used[s]) continue;
+    part.first.covariates.push_back(plan.covariates[s]);
+    part.second.push_back(missing[s]);
+  }
+  return part;
+}
+
+MemberWindow::MemberWindow(const std::vector<PredictionMember>& members, const MemberSources& sources,
+                           const AlignmentPlan& alignment, double level, double quantum)
+    : members_(members), sources_(sources), missing_(sources.sources.size(), 0) {
+  for (std::size_t s = 0; s < sources.sources.size(); ++s) readers_.push_back(open_covariate_source(alignment, s));
   for (const PredictionMember& m : members) {
     evaluators_.push_back(std::make_unique<Evaluator>(*m.spec, level, quantum));
     predictors_.push_back(std::make_unique<BlockPredictor>(*m.spec, *m.plan, *evaluators_.back(), m.domain, m.novelty));
@@ -53,7 +85,7 @@ void MemberWindow::run(const Window& window, std::vector<BlockOutputs>& outputs,
   decoded_.resize(n, static_cast<Eigen::Index>(sources_.sources.size()));
   for (std::size_t s = 0; s < sources_.sources.size(); ++s) {
     source_valid_[s].assign(un, 1);
-    readers_[s].read(window, decoded_.col(static_cast<Eigen::Index>(s)).data(), source_valid_[s].data());
+    missing_[s] += readers_[s]->read(window, decoded_.col(static_cast<Eigen::Index>(s)).data(), source_valid_[s].data());
   }
   const std::size_t members = members_.size();
   outputs.resize(members);

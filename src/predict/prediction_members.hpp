@@ -9,6 +9,7 @@
 #include <cstdint>
 #include <functional>
 #include <memory>
+#include <utility>
 #include <vector>
 
 #include "core/domain/novelty_model.hpp"
@@ -18,7 +19,8 @@
 #include "core/model/term_plan.hpp"
 #include "core/prediction/block_predictor.hpp"
 #include "predict/prediction_report.hpp"
-#include "raster/covariate_reader.hpp"
+#include "raster/alignment_plan.hpp"
+#include "raster/covariate_source.hpp"
 #include "raster/raster_grid.hpp"
 #include "raster/window.hpp"
 
@@ -36,16 +38,31 @@ struct PredictionMember {
 struct MemberSources {
   std::vector<CovariateInput> sources;
   std::vector<std::vector<std::size_t>> of_member;  ///< [member][covariate] -> source
+  std::vector<AlignmentInput> alignment_inputs;     ///< per source: name, categorical, resampling
 
+  /// Throws InputError when one raster is read as covariates that must be resampled differently
+  /// (categorical in one model, continuous in another; two different `resampling` keys): which
+  /// rule would apply is ambiguous, and both readings are named.
   explicit MemberSources(const std::vector<PredictionMember>& members);
-  /// The common grid of every source; throws naming the first file that differs.
-  [[nodiscard]] RasterGrid check_co_registered() const;
+  /// The target grid and how every source reaches it (raster/alignment_plan.hpp), as predict
+  /// decides it for one stack: `--grid-of NAME` takes the first source of that covariate (the
+  /// baseline's), `--resampling NAME=...` applies to every source of it.
+  [[nodiscard]] AlignmentPlan align(const AlignmentOptions& options) const;
 };
+
+/// The alignment of the sources that `members` read (in source order), with their missing-pixel
+/// counts taken from `missing` (per source of the whole run): one folder's share of the plan, for
+/// its report.
+std::pair<AlignmentPlan, std::vector<std::int64_t>> members_alignment(const AlignmentPlan& plan,
+                                                                      const MemberSources& sources,
+                                                                      const std::vector<std::size_t>& members,
+                                                                      const std::vector<std::int64_t>& missing);
 
 /// One worker's readers, predictors and scratch windows for every member.
 class MemberWindow {
  public:
-  MemberWindow(const std::vector<PredictionMember>& members, const MemberSources& sources, double level, double quantum);
+  MemberWindow(const std::vector<PredictionMember>& members, const MemberSources& sources, const AlignmentPlan& alignment,
+               double level, double quantum);
   MemberWindow(const MemberWindow&) = delete;
   MemberWindow& operator=(const MemberWindow&) = delete;
 
@@ -56,11 +73,14 @@ class MemberWindow {
 
   [[nodiscard]] const BlockPredictor& predictor(std::size_t member) const { return *predictors_[member]; }
   [[nodiscard]] std::size_t size() const { return predictors_.size(); }
+  /// Per source: target pixels it gave no value for in the windows this worker read.
+  [[nodiscard]] const std::vector<std::int64_t>& missing() const { return missing_; }
 
  private:
   const std::vector<PredictionMember>& members_;
   const MemberSources& sources_;
-  std::vector<CovariateReader> readers_;
+  std::vector<std::unique_ptr<CovariateSource>> readers_;
+  std::vector<std::int64_t> missing_;
   std::vector<std::unique_ptr<Evaluator>> evaluators_;
   std::vector<std::unique_ptr<BlockPredictor>> predictors_;
   Eigen::ArrayXXd decoded_;                           ///< window x sources

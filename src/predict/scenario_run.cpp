@@ -30,6 +30,7 @@
 #include "predict/prediction_report.hpp"
 #include "predict/recorded_threshold.hpp"
 #include "predict/scenario_report.hpp"
+#include "raster/alignment_plan.hpp"
 #include "raster/gdal_session.hpp"
 #include "raster/output_raster.hpp"
 #include "raster/raster_grid.hpp"
@@ -114,7 +115,8 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
   std::vector<PredictionMember> member_list;
   for (const auto& inputs : member_inputs) member_list.push_back({&spec, &plan, nullptr, nullptr, inputs});
   const MemberSources sources(member_list);
-  const RasterGrid grid = sources.check_co_registered();
+  const AlignmentPlan alignment = sources.align(po.alignment);  // covariates on other grids: warped
+  const RasterGrid& grid = alignment.target;
   std::optional<TrainingSamples> samples;
   std::optional<TrainingDomain> domain;
   std::optional<NoveltyModel> novelty;
@@ -144,7 +146,7 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
   std::vector<std::unique_ptr<Worker>> workers;
   for (int t = 0; t < threads; ++t) {
     auto w = std::make_unique<Worker>();
-    w->members = std::make_unique<MemberWindow>(member_list, sources, po.level, quantum);
+    w->members = std::make_unique<MemberWindow>(member_list, sources, alignment, po.level, quantum);
     for (std::size_t s = 0; s < scenarios.size(); ++s) w->combiners.emplace_back(spec.link, *spec.covariance, z, threshold);
     workers.push_back(std::move(w));
   }
@@ -258,6 +260,10 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
     }
   }
   const double elapsed = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  std::vector<std::int64_t> missing(sources.sources.size(), 0);
+  for (const auto& w : workers)
+    for (std::size_t i = 0; i < missing.size(); ++i) missing[i] += w->members->missing()[i];
+  const std::int64_t target_pixels = static_cast<std::int64_t>(grid.width) * grid.height;
   // Each folder's report.json, as predict writes it, for that folder's stack.
   for (std::size_t m = 0; m < members; ++m) {
     ReportContext ctx;
@@ -279,9 +285,12 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
     ctx.tally = &totals[m];
     ctx.started_utc = started;
     ctx.elapsed_seconds = elapsed;
-    const std::vector<std::string> warnings = prediction_warnings(ctx);
+    std::vector<std::string> warnings = prediction_warnings(ctx);
+    const auto [folder_alignment, folder_missing] = members_alignment(alignment, sources, {m}, missing);
+    for (std::string& w : alignment_warnings(folder_alignment, folder_missing, target_pixels)) warnings.push_back(std::move(w));
     nlohmann::ordered_json report = prediction_report(ctx, warnings);
     report["scenario"] = m == 0 ? "baseline" : scenarios[m - 1].name;
+    report["alignment"] = alignment_json(folder_alignment, folder_missing, target_pixels);
     report["exit_code"] = 0;
     commit.add_file(outputs[m]->report_path(), report.dump(2) + "\n");
     for (const auto& [role, path] : ctx.outputs) {
@@ -310,8 +319,10 @@ ScenarioSummary run_scenarios(const ScenarioRunOptions& options, Progress& progr
   sc.started_utc = started;
   sc.elapsed_seconds = elapsed;
   summary.warnings = scenario_warnings(sc);
+  for (std::string& w : alignment_warnings(alignment, missing, target_pixels)) summary.warnings.push_back(std::move(w));
   summary.warnings.insert(summary.warnings.end(), picture_problems.begin(), picture_problems.end());
   summary.report = scenario_report(sc, summary.warnings);
+  summary.report["alignment"] = alignment_json(alignment, missing, target_pixels);
   commit.add_file(csv_path, scenario_csv(sc));
   commit.add_file(json_path, summary.report.dump(2) + "\n");
   commit.commit();

@@ -195,3 +195,53 @@ TEST_CASE("alignment errors in predict leave no output", "[predict][align]") {
   }
   CHECK(habcast::test::list_dir(out).empty());
 }
+
+TEST_CASE("scenarios and model sets align covariates on other grids as a single predict does", "[alignment][scenarios]") {
+  MixedScene scene;
+  // The scenario and the model set need the covariance matrix; the second model of the set is the
+  // first under another name, so the set's average is that model's prediction exactly.
+  std::string text = std::string(kModel) + "covariance = [[0.04, 0, 0, 0], [0, 1e-6, 0, 0], [0, 0, 0.01, 0], [0, 0, 0, 0.02]]\n";
+  text.insert(text.find("[covariates"), "aic = 10\n");  // the last key of [model]
+  habcast::test::write_text(scene.model, text);
+  const std::string twin = scene.dir.file("twin.toml");
+  habcast::test::write_text(twin, habcast::test::read_text(scene.model));
+  GridSpec geo{40, 40};
+  geo.origin_x = -3.05;
+  geo.origin_y = 36.2;
+  geo.pixel = 0.005;
+  geo.epsg = 4326;
+  habcast::test::write_raster(scene.dir.file("temp_warm.tif"), geo, "Float32",
+                              [](int r, int c) { return 14.0 + std::sin(c * 0.4) * 3 + std::cos(r * 0.3) * 2; });
+  for (const std::vector<std::string>& grid_args : {std::vector<std::string>{}, std::vector<std::string>{"--grid-of", "cover"}}) {
+    INFO("grid options: " << (grid_args.empty() ? "default" : grid_args[1]));
+    auto run = [&](std::vector<std::string> args, const std::string& out) {
+      args.insert(args.end(), {"-o", scene.dir.file(out), "-q", "--overwrite"});
+      args.insert(args.end(), grid_args.begin(), grid_args.end());
+      std::string o, e;
+      const int code = habcast::test::run_cli(args, &o, &e);
+      INFO(e);
+      REQUIRE(code == 0);
+    };
+    run({"predict", scene.model}, "single");
+    run({"predict", scene.model, "-c", "temp=" + scene.dir.file("temp_warm.tif")}, "single-warm");
+    run({"predict", scene.model, "--scenario", "warm:temp=" + scene.dir.file("temp_warm.tif")}, "scenarios");
+    run({"predict", scene.model, twin}, "set");
+    for (const char* name : {"suitability.tif", "uncertainty.tif"}) {
+      INFO(name);
+      CHECK(habcast::test::read_band(scene.dir.file("scenarios/baseline/") + name) ==
+            habcast::test::read_band(scene.dir.file("single/") + name));
+      CHECK(habcast::test::read_band(scene.dir.file("scenarios/warm/") + name) ==
+            habcast::test::read_band(scene.dir.file("single-warm/") + name));
+    }
+    CHECK(habcast::test::read_band(scene.dir.file("set/suitability.tif")) ==
+          habcast::test::read_band(scene.dir.file("single/suitability.tif")));
+    // The reports say how each raster was aligned: the scenario's temp raster among them.
+    const auto report = nlohmann::json::parse(habcast::test::read_text(scene.dir.file("scenarios/scenarios.json")));
+    bool warm_listed = false;
+    for (const auto& c : report.at("alignment").at("covariates"))
+      warm_listed = warm_listed || c.at("source").get<std::string>().find("temp_warm.tif") != std::string::npos;
+    CHECK(warm_listed);
+    const auto folder = nlohmann::json::parse(habcast::test::read_text(scene.dir.file("scenarios/warm/report.json")));
+    CHECK(folder.at("alignment").at("covariates").size() == 3);
+  }
+}
