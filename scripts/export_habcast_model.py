@@ -29,6 +29,9 @@ Rules the model must follow (a ValueError says which one is broken):
   give it as a habcast expression (offset="log(effort)"), or let the exporter find the column of
   `training_data` whose x, log(x) (or, for exposure, x) reproduces it; either way it is checked
   against the model's own offset values;
+- a column patsy has to quote (Q("Solar.R")) is renamed to a valid habcast name (Solar_R): the
+  mapping is printed and recorded in the model's description, and the training table, rasters and
+  per-covariate options use the new name;
 - models without a formula need `term_names` (habcast labels, one per column of exog).
 Uses only numpy and statsmodels (Debian: python3-numpy, python3-statsmodels).
 """
@@ -176,6 +179,31 @@ def _spline_lines(model, var):
     return ["bs = { " + ", ".join(items) + " }"]
 
 
+_QUOTED = re.compile(r"""Q\((["'])(.+?)\1\)""")
+
+
+def _valid_names(exog_names, columns):
+    """patsy's Q("Solar.R") quotes a column whose name is not a Python name; habcast names are
+    letters, digits and '_' starting with a letter. Returns the exog names with every quoted name
+    replaced by a valid one (Solar.R -> Solar_R) and the mapping {original: new}."""
+    renames = {}
+    for name in exog_names:
+        for _, original in _QUOTED.findall(name):
+            new = re.sub(r"[^A-Za-z0-9_]", "_", original)
+            if not re.match(r"[A-Za-z]", new):
+                new = "x" + new
+            if original in renames:
+                continue
+            renames[original] = new
+            clash = [c for c in columns if c == new and c != original] + \
+                [o for o, n in renames.items() if n == new and o != original]
+            if clash:
+                raise ValueError('column "%s" would become the habcast name "%s", which "%s" already has; rename one '
+                                 "of them in the data" % (original, new, clash[0]))
+    renamed = [_QUOTED.sub(lambda m: renames[m.group(2)], n) for n in exog_names]
+    return renamed, renames
+
+
 def habcast_terms(exog_names):
     """statsmodels/patsy column names -> (habcast term labels, covariates in order, factor names)."""
     labels, covariates, factors = [], [], {}
@@ -255,7 +283,14 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
     if link is None:
         raise ValueError("link %s is not supported" % type(model.family.link).__name__)
     offset_text, offset_var = _offset_expression(model, training_data, offset)
-    exog_names = list(model.exog_names)
+    exog_names, renames = _valid_names(list(model.exog_names), list(training_data.columns))
+    if renames:
+        # The data and every per-covariate option now use the habcast names.
+        training_data = training_data.rename(columns=renames)
+        standardisation, categorical, rasters, units = (
+            {renames.get(k, k): v for k, v in d.items()} for d in (standardisation, categorical, rasters, units))
+        print("covariate names changed to valid habcast names: " +
+              ", ".join("%s -> %s" % item for item in renames.items()), file=sys.stderr)
     if term_names is not None:
         if len(term_names) != len(exog_names):
             raise ValueError("term_names has %d labels for %d columns" % (len(term_names), len(exog_names)))
@@ -342,7 +377,9 @@ def export_habcast_model(result, model_path, training_data, standardisation=None
     if name:
         lines.append("name = " + _q(name))
     lines += ["response = " + _q(endog), "family = " + _q(family), "link = " + _q(link),
-              "description = " + _q("statsmodels GLM: " + str(getattr(model, "formula", "") or ", ".join(exog_names))),
+              "description = " + _q("statsmodels GLM: " + str(getattr(model, "formula", "") or ", ".join(exog_names)) +
+                                    ("; covariates renamed: " + ", ".join("%s -> %s" % item for item in renames.items())
+                                     if renames else "")),
               "deviance = " + _fmt17(result.deviance), "null_deviance = " + _fmt17(result.null_deviance),
               "aic = " + _fmt17(result.aic), "n = %d" % int(result.nobs),
               "", "[training]", "samples = " + _q(os.path.basename(samples_path))]

@@ -148,17 +148,22 @@ TEST_CASE("The R exporter refuses level codes that would make a level name ambig
   CHECK_THAT(err, Catch::Contains("the level named \"1\" (code 2) and the level with code 1 (named \"0\")"));
 }
 
-TEST_CASE("statsmodels models with np.log terms and an exposure export and predict like statsmodels", "[fit]") {
+TEST_CASE("statsmodels models with np.log terms, a quoted dotted name and an exposure export and predict like statsmodels",
+          "[fit]") {
   // Source: statsmodels 0.13.5 GLM, written by tests/reference/export_practice.py (cpunish data
   // shipped with Debian python3-statsmodels; MASS::Insurance via export_practice.R).
   const std::string base = "tests/reference/export_practice/";
-  for (const char* c : {"py_cpunish", "py_cpunish_std", "py_insurance"}) {
+  for (const char* c : {"py_cpunish", "py_cpunish_dotted", "py_cpunish_std", "py_insurance"}) {
     INFO(c);
     require_predictions_match(test::source_path(base + c + "/model.toml"), test::source_path(base + c + "/predictions.csv"));
   }
   const ModelSpec cp = read_model_file(test::source_path(base + "py_cpunish/model.toml"));
   CHECK(cp.covariates[3].name == "VC100k96");
   CHECK(cp.covariates[3].transform == Transform::log);
+  // Q("PER.BLACK") in the formula: renamed to a valid habcast name, and the rename recorded.
+  const ModelSpec dotted = read_model_file(test::source_path(base + "py_cpunish_dotted/model.toml"));
+  CHECK(dotted.covariates[2].name == "PER_BLACK");
+  CHECK_THAT(dotted.description, Catch::Contains("covariates renamed: PER.BLACK -> PER_BLACK"));
   const ModelSpec ins = read_model_file(test::source_path(base + "py_insurance/model.toml"));
   REQUIRE(ins.offset_term);
   CHECK(*ins.offset_term == "log(Holders)");  // found from exposure=Holders
@@ -179,7 +184,7 @@ TEST_CASE("The Python exporter, run now on practitioners' models, writes models 
   const std::string cmd = "cd '" + std::string(HABCAST_SOURCE_DIR) + "' && /usr/bin/python3 tests/reference/export_practice.py '" +
                           dir.path().string() + "' >/dev/null 2>&1";
   REQUIRE(std::system(cmd.c_str()) == 0);
-  for (const char* c : {"py_cpunish", "py_cpunish_std", "py_insurance"})
+  for (const char* c : {"py_cpunish", "py_cpunish_dotted", "py_cpunish_std", "py_insurance"})
     require_predictions_match(dir.file(std::string(c) + "/model.toml"),
                               test::source_path(std::string("tests/reference/export_practice/") + c + "/predictions.csv"));
 }
