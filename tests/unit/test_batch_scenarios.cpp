@@ -181,7 +181,16 @@ TEST_CASE("the region report adds each scenario's tile counts up to the whole gr
 TEST_CASE("a region of scenarios can be moved as a whole: the sub-folder mosaics point at the tiles relatively",
           "[batch][scenarios]") {
   ScenarioBatch b;
-  REQUIRE(b.s.run({}) == 0);
+  REQUIRE(b.s.run({"--cog"}) == 0);
+  // With --cog each sub-folder layer is also one GeoTIFF, its classes kept (nearest overviews).
+  for (const char* layer : {"warm/change_class", "cool/change", "baseline/extrapolation"}) {
+    INFO(layer);
+    CHECK(scenario_batch_same_bits(b.s.out() + "/" + layer + ".tif", b.s.out() + "/" + layer + ".vrt", 1));
+  }
+  for (const auto& entry : fs::recursive_directory_iterator(b.s.out())) {
+    INFO(entry.path().string());
+    CHECK(entry.path().filename().string().find(".partial") == std::string::npos);
+  }
   const std::string vrt_text = read_text(b.s.out() + "/warm/change.vrt");
   CHECK_THAT(vrt_text, Contains("relativeToVRT=\"1\">../tiles/t0_0/warm/change.tif"));
   CHECK(vrt_text.find(b.s.out()) == std::string::npos);
@@ -342,4 +351,19 @@ TEST_CASE("a model-set batch gives every tile what predict M1 M2 gives it, and t
   std::string out;
   REQUIRE(s.run({}, &out) == 0);
   CHECK_THAT(out, Contains("2 run, 0 up to date"));
+}
+
+TEST_CASE("a region whose tiles now run scenarios loses its earlier top-level mosaic in the same commit",
+          "[batch][scenarios]") {
+  ScenarioBatch b;
+  b.s.write_manifest("");
+  REQUIRE(b.s.run({}) == 0);
+  REQUIRE(fs::exists(b.s.out() + "/suitability.vrt"));
+  b.s.write_manifest(std::string("[predict]\nthreshold = 2.5\n") + kTwoScenarios);
+  std::string out;
+  REQUIRE(b.s.run({}, &out) == 0);
+  CHECK_THAT(out, Contains("2 run, 0 up to date"));
+  CHECK_FALSE(fs::exists(b.s.out() + "/suitability.vrt"));
+  CHECK(fs::exists(b.s.out() + "/baseline/suitability.vrt"));
+  CHECK(fs::exists(b.s.out() + "/warm/change_class.vrt"));
 }
