@@ -18,6 +18,7 @@
 #include "batch/region_units.hpp"
 #include "batch/tile_list.hpp"
 #include "batch/tile_record.hpp"
+#include "core/base/number_text.hpp"
 #include "core/model/model_file.hpp"
 #include "pipeline/atomic_file.hpp"
 #include "pipeline/folder_lock.hpp"
@@ -177,13 +178,21 @@ void scenario_and_set_settings(BatchPlan& plan) {
   if (plan.model_set())
     plan.settings.model_set = {{"models", m.model_paths}, {"weights", m.weights}, {"average_se", m.average_se}};
   if (!plan.scenarios()) return;
-  try {
-    // Checked once here, not failing every tile: a threshold file that cannot be read, or two
-    // thresholds that disagree.
-    std::string source;
-    (void)choose_threshold(m.threshold, m.threshold_from, ScenarioSet{}, source);
-  } catch (const Error& e) {
-    throw InputError(located(m.path, m.threshold_line, e.what()));
+  // Checked once here, not failing every tile: a threshold file that cannot be read, or two
+  // thresholds that disagree (refused naming both, in the manifest's words).
+  if (!m.threshold_from.empty()) {
+    RecordedThreshold recorded;
+    try {
+      recorded = read_recorded_threshold(m.threshold_from);
+    } catch (const Error& e) {
+      throw InputError(located(m.path, m.threshold_from_line, std::string("predict.threshold_from: ") + e.what()));
+    }
+    if (m.threshold && *m.threshold != recorded.value)
+      throw InputError(located(m.path, m.threshold_line,
+                               "two thresholds: predict.threshold = " + significant(*m.threshold, 6) + " (line " +
+                                   std::to_string(m.threshold_line) + ") and " + significant(recorded.value, 6) +
+                                   " from predict.threshold_from (line " + std::to_string(m.threshold_from_line) + ", the " +
+                                   recorded.rule + "); keep one of them"));
   }
   plan.settings.threshold = {{"value", m.threshold ? json(*m.threshold) : json()},
                              {"from", m.threshold_from.empty() ? json() : input_stamp("threshold_from", m.threshold_from)}};

@@ -152,7 +152,8 @@ void read_predict(const toml::table& root, BatchManifest& m) {
     if (!n->is_string())
       t.fail(*n, "predict.threshold_from must be a quoted path to habcast evaluate's JSON report or its binary map");
     m.threshold_from = resolve(m.path, *n->value<std::string>());
-    if (m.threshold_line == 0) m.threshold_line = toml_line(*n);
+    m.threshold_from_line = toml_line(*n);
+    if (m.threshold_line == 0) m.threshold_line = m.threshold_from_line;
   }
   t.reject_unknown("level, block_size, creation_options, overviews, max_extrapolated, threshold, threshold_from");
 }

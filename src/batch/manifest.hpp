@@ -52,6 +52,7 @@ struct BatchManifest {
   std::optional<double> threshold;  ///< predict.threshold: the change classes' suitability threshold
   std::string threshold_from;       ///< predict.threshold_from: evaluate's JSON report or binary map (absolute)
   long threshold_line = 0;          ///< line of threshold or threshold_from
+  long threshold_from_line = 0;
 
   // [units]: per-unit summaries in every tile, merged into the region's (docs/units.md).
   std::string units_path;       ///< absolute; empty: no units

@@ -7,6 +7,7 @@
 
 #include <catch2/catch.hpp>
 #include <algorithm>
+#include <chrono>
 #include <cstring>
 #include <filesystem>
 #include <nlohmann/json.hpp>
@@ -366,4 +367,35 @@ TEST_CASE("a region whose tiles now run scenarios loses its earlier top-level mo
   CHECK_FALSE(fs::exists(b.s.out() + "/suitability.vrt"));
   CHECK(fs::exists(b.s.out() + "/baseline/suitability.vrt"));
   CHECK(fs::exists(b.s.out() + "/warm/change_class.vrt"));
+}
+
+TEST_CASE("threshold_from takes evaluate's threshold for every tile; a new report redoes them all",
+          "[batch][scenarios]") {
+  ScenarioBatch b;
+  habcast::test::write_text(b.s.file("eval.json"), "{\"max_tss\": {\"threshold\": 2.5}}\n");
+  b.s.write_manifest(std::string("[predict]\nthreshold_from = \"eval.json\"\n") + kTwoScenarios);
+  REQUIRE(b.s.run({}) == 0);
+  const ScenarioJson tile = ScenarioJson::parse(read_text(b.s.tile_out(b.s.out(), 0, 1) + "/scenarios.json"));
+  CHECK(tile["threshold"]["value"] == 2.5);
+  CHECK_THAT(tile["threshold"]["source"].get<std::string>(), Contains("maximising TSS") && Contains("eval.json"));
+  std::string out, err;
+
+  SECTION("the report rewritten") {
+    const auto before = fs::last_write_time(b.s.file("eval.json"));
+    habcast::test::write_text(b.s.file("eval.json"), "{\"max_tss\": {\"threshold\": 2.0}}\n");
+    fs::last_write_time(b.s.file("eval.json"), before + std::chrono::seconds(1));
+    REQUIRE(b.s.run({}, &out) == 0);
+    CHECK_THAT(out, Contains("2 run, 0 up to date"));
+  }
+  SECTION("a threshold beside it that disagrees is refused with both lines") {
+    b.s.write_manifest(std::string("[predict]\nthreshold = 3\nthreshold_from = \"eval.json\"\n") + kTwoScenarios);
+    CHECK(b.s.run({}, &out, &err) == 3);
+    CHECK_THAT(err, Contains("region.toml:5:") && Contains("predict.threshold = 3 (line 5)") && Contains("2.5") &&
+                        Contains("(line 6"));
+  }
+  SECTION("one that agrees is accepted") {
+    b.s.write_manifest(std::string("[predict]\nthreshold = 2.5\nthreshold_from = \"eval.json\"\n") + kTwoScenarios);
+    REQUIRE(b.s.run({}, &out) == 0);
+    CHECK_THAT(out, Contains("2 run, 0 up to date"));  // the fingerprint holds both as given
+  }
 }
