@@ -14,9 +14,11 @@
 #include "batch/manifest.hpp"
 #include "batch/mosaic.hpp"
 #include "batch/region_report.hpp"
+#include "batch/region_scenarios.hpp"
 #include "batch/region_units.hpp"
 #include "batch/tile_list.hpp"
 #include "batch/tile_record.hpp"
+#include "core/base/number_text.hpp"
 #include "core/model/model_file.hpp"
 #include "pipeline/atomic_file.hpp"
 #include "pipeline/folder_lock.hpp"
@@ -24,7 +26,10 @@
 #include "pipeline/run_files.hpp"
 #include "pipeline/stop_signal.hpp"
 #include "predict/predict_folder.hpp"
+#include "predict/model_set_run.hpp"
 #include "predict/predict_run.hpp"
+#include "predict/recorded_threshold.hpp"
+#include "predict/scenario_run.hpp"
 #include "predict/prediction_report.hpp"
 #include "predict/unit_pass.hpp"
 #include "raster/gdal_session.hpp"
@@ -39,40 +44,81 @@ namespace fs = std::filesystem;
 using json = nlohmann::ordered_json;
 using Clock = std::chrono::steady_clock;
 
-/// Everything fixed for the whole batch once the manifest and model are read.
+/// Everything fixed for the whole batch once the manifest and model(s) are read.
 struct BatchPlan {
   BatchManifest manifest;
-  ModelSpec spec;
-  std::vector<Tile> tiles;  ///< sorted by id
+  ModelSpec spec;                         ///< the model, or the first model of a set
+  std::vector<ModelSpec> specs;           ///< every model (one without a set)
+  std::vector<double> weights;            ///< a set's weights as used (normalised); empty for one model
+  std::vector<Tile> tiles;                ///< sorted by id
   TileSettings settings;
   std::string model_hash;
   std::string tool_version;
+  std::vector<std::string> tile_owned;    ///< every name a tile's run may write in its folder
+  std::vector<std::string> region_owned;  ///< every name the region's mosaic may write
 
   [[nodiscard]] json fingerprint(const Tile& tile) const {
     return tile_fingerprint(tile, model_hash, settings, tool_version);
   }
+  [[nodiscard]] bool scenarios() const { return !manifest.scenarios.empty(); }
+  [[nodiscard]] bool model_set() const { return manifest.model_set(); }
+
+  /// The manifest's scenarios with this tile's rasters, as predict --scenarios reads them.
+  [[nodiscard]] ScenarioSet scenario_set(const Tile& tile) const {
+    ScenarioSet set;
+    set.path = manifest.path;
+    for (std::size_t i = 0; i < manifest.scenarios.size(); ++i) {
+      const ManifestScenario& m = manifest.scenarios[i];
+      set.scenarios.push_back({m.name, m.description, tile.scenarios[i].rasters, manifest.path + ":" + std::to_string(m.line)});
+    }
+    return set;
+  }
 };
 
+/// Scenarios with their names only: what the owned names of a tile's run depend on.
+std::vector<Scenario> named_scenarios(const BatchManifest& manifest) {
+  std::vector<Scenario> v;
+  for (const ManifestScenario& m : manifest.scenarios) v.push_back({m.name, m.description, {}, ""});
+  return v;
+}
+
 /// Before any tile runs: no output of any tile, nor of the region, may be an input of a tile
-/// (e.g. output = "." with a covariate raster named suitability.tif in the tile's folder).
-void check_batch_files(const BatchManifest& manifest, const ModelSpec& spec, const std::vector<Tile>& tiles) {
+/// (e.g. output = "." with a covariate raster named suitability.tif in the tile's folder, or a
+/// scenario raster inside a tile's output folder).
+void check_batch_files(const BatchPlan& plan) {
+  const BatchManifest& manifest = plan.manifest;
+  auto shared_inputs = [&](RunFiles& files) {
+    for (const ModelSpec& spec : plan.specs) {
+      files.input("model file", spec.path);
+      if (spec.training_samples) files.input("training samples of " + spec.path, *spec.training_samples);
+    }
+    files.input("predict.threshold_from", manifest.threshold_from);
+    files.input("[units] path", manifest.units_path);
+  };
   RunFiles region;
-  region.input("model file", spec.path);
-  if (spec.training_samples) region.input("training samples", *spec.training_samples);
-  for (const std::string& name : mosaic_owned_names())
+  shared_inputs(region);
+  for (const std::string& name : plan.region_owned)
     region.output("region output " + name, (fs::path(manifest.output_dir) / name).string());
   for (const char* name : {"batch-report.json", "batch-report.csv"})
     region.output(std::string("region output ") + name, (fs::path(manifest.output_dir) / name).string());
-  for (const Tile& tile : tiles) {
+  if (!manifest.units_path.empty())
+    for (const char* name : {"units.gpkg", "units.csv", "units.json"})
+      region.output(std::string("region output ") + name, (fs::path(manifest.output_dir) / name).string());
+  for (const Tile& tile : plan.tiles) {
     RunFiles files;
-    files.input("model file", spec.path);
-    if (spec.training_samples) files.input("training samples", *spec.training_samples);
+    shared_inputs(files);
     const std::string dir = tile_folder(manifest.output_dir, tile.id);
     for (const auto& [covariate, path] : tile.rasters) {
       files.input("tile " + tile.id + " raster of covariate " + covariate, path);
       region.input("tile " + tile.id + " raster of covariate " + covariate, path);
     }
-    for (const std::string& name : predict_owned_names())
+    for (const TileScenario& sc : tile.scenarios)
+      for (const auto& [covariate, path] : sc.rasters) {
+        const std::string role = "tile " + tile.id + " scenario " + sc.name + " raster of covariate " + covariate;
+        files.input(role, path);
+        region.input(role, path);
+      }
+    for (const std::string& name : plan.tile_owned)
       files.output("tile " + tile.id + " output " + name, (fs::path(dir) / name).string());
     files.output("tile " + tile.id + " record", record_path(dir));
     files.check();
@@ -80,29 +126,106 @@ void check_batch_files(const BatchManifest& manifest, const ModelSpec& spec, con
   region.check();
 }
 
+/// Reads every model of the manifest and checks what would otherwise fail every tile alike.
+void read_models(const BatchOptions& options, BatchPlan& plan) {
+  const BatchManifest& m = plan.manifest;
+  for (const std::string& path : m.model_paths) {
+    if (!fs::exists(path))
+      throw InputError(located(m.path, m.model_line,
+                               "model file " + path + " does not exist; model paths are relative to the manifest's folder"));
+    plan.specs.push_back(read_model_file(path));
+  }
+  plan.spec = plan.specs.front();
+  for (const ModelSpec& spec : plan.specs) {
+    if (m.max_extrapolated_percent && !spec.training_samples)
+      throw InputError(located(m.path, m.max_extrapolated_line,
+                               "predict.max_extrapolated needs training samples: add [training] samples = \"FILE.csv\" to " +
+                                   spec.path));
+    if (spec.training_samples && !fs::exists(*spec.training_samples))
+      throw InputError(located(spec.path, spec.training_line, "training samples " + *spec.training_samples +
+                                                                  " do not exist; check the path (relative to the model file)"));
+    if ((plan.scenarios() || plan.model_set()) && !spec.covariance)
+      throw InputError(located(spec.path, 0, std::string(plan.model_set() ? "a model set needs every model's covariance "
+                                                                          "matrix for the unconditional standard error"
+                                                                        : "the change between scenarios needs the model's "
+                                                                          "covariance matrix for its uncertainty") +
+                                                 ": add covariance = [[...]] to [coefficients]"));
+  }
+  const AlignmentOptions& a = options.alignment;
+  const bool alignment_asked = !a.target.covariate.empty() || !a.target.template_path.empty() || !a.target.crs.empty() ||
+                               !a.resampling.empty() || a.error_threshold != 0.0;
+  if (alignment_asked && (plan.scenarios() || plan.model_set()))
+    throw UsageError("--grid-of, --resampling and --warp-error align the covariates of a single prediction; scenarios and "
+                     "model sets read each tile's covariates on one shared grid for now: align the tiles first (gdalwarp)");
+  if (!plan.model_set()) return;
+  std::vector<const ModelSpec*> specs;
+  for (const ModelSpec& spec : plan.specs) specs.push_back(&spec);
+  check_model_set_compatible(specs);
+  std::vector<std::optional<double>> aic;
+  for (const ModelSpec& spec : plan.specs) {
+    if (m.weights.empty() && !spec.aic)
+      throw InputError(located(spec.path, 0, "no aic in [model], so no Akaike weight can be formed; add aic = ... (the "
+                                             "model's AIC) or give weights = [W1, W2, ...] in " + m.path));
+    aic.push_back(spec.aic);
+  }
+  plan.weights = model_set_weights(m.weights, m.model_paths, aic);
+}
+
+/// What a tile's outputs depend on beyond its rasters, the model files and [predict]: the set's
+/// weights and form, the threshold, the scenarios' definitions.
+void scenario_and_set_settings(BatchPlan& plan) {
+  const BatchManifest& m = plan.manifest;
+  if (plan.model_set())
+    plan.settings.model_set = {{"models", m.model_paths}, {"weights", m.weights}, {"average_se", m.average_se}};
+  if (!plan.scenarios()) return;
+  // Checked once here, not failing every tile: a threshold file that cannot be read, or two
+  // thresholds that disagree (refused naming both, in the manifest's words).
+  if (!m.threshold_from.empty()) {
+    RecordedThreshold recorded;
+    try {
+      recorded = read_recorded_threshold(m.threshold_from);
+    } catch (const Error& e) {
+      throw InputError(located(m.path, m.threshold_from_line, std::string("predict.threshold_from: ") + e.what()));
+    }
+    if (m.threshold && *m.threshold != recorded.value)
+      throw InputError(located(m.path, m.threshold_line,
+                               "two thresholds: predict.threshold = " + significant(*m.threshold, 6) + " (line " +
+                                   std::to_string(m.threshold_line) + ") and " + significant(recorded.value, 6) +
+                                   " from predict.threshold_from (line " + std::to_string(m.threshold_from_line) + ", the " +
+                                   recorded.rule + "); keep one of them"));
+  }
+  plan.settings.threshold = {{"value", m.threshold ? json(*m.threshold) : json()},
+                             {"from", m.threshold_from.empty() ? json() : input_stamp("threshold_from", m.threshold_from)}};
+  for (const ManifestScenario& sc : m.scenarios)
+    plan.settings.scenarios.push_back({{"name", sc.name}, {"description", sc.description}, {"covariates", sc.covariates}});
+}
+
 BatchPlan make_plan(const BatchOptions& options, const std::string& tool_version) {
   BatchPlan plan;
   plan.manifest = read_batch_manifest(options.manifest_path);
   if (!options.output_dir.empty())
     plan.manifest.output_dir = fs::absolute(options.output_dir).lexically_normal().string();
-  if (!fs::exists(plan.manifest.model_path))
-    throw InputError(located(plan.manifest.path, plan.manifest.model_line,
-                             "model file " + plan.manifest.model_path + " does not exist; model paths are relative to the manifest's folder"));
-  plan.spec = read_model_file(plan.manifest.model_path);
-  if (plan.manifest.max_extrapolated_percent && !plan.spec.training_samples)
-    throw InputError(located(plan.manifest.path, 0, "predict.max_extrapolated needs training samples: add [training] samples = \"FILE.csv\" to " + plan.spec.path));
-  if (plan.spec.training_samples && !fs::exists(*plan.spec.training_samples))
-    throw InputError(located(plan.spec.path, plan.spec.training_line, "training samples " + *plan.spec.training_samples +
-                                                                          " do not exist; check the path (relative to the model file)"));
+  read_models(options, plan);
   try {
     check_creation_options(plan.manifest.creation_options);  // not once per tile, failing each
   } catch (const UsageError& e) {
     throw UsageError(plan.manifest.path + ": creation_options: " + e.what());
   }
-  plan.tiles = list_tiles(plan.manifest, plan.spec);
-  check_batch_files(plan.manifest, plan.spec, plan.tiles);
-  plan.settings = {plan.manifest.level, plan.manifest.block_size, plan.manifest.creation_options, plan.manifest.overviews,
-                   nullptr, options.alignment};
+  std::vector<const ModelSpec*> specs;
+  for (const ModelSpec& spec : plan.specs) specs.push_back(&spec);
+  plan.tiles = list_tiles(plan.manifest, specs);
+  const std::vector<Scenario> scenarios = named_scenarios(plan.manifest);
+  plan.tile_owned = plan.model_set()   ? model_set_owned_names(scenarios)
+                    : plan.scenarios() ? scenario_owned_names(scenarios)
+                                       : predict_owned_names();
+  plan.region_owned = mosaic_owned_names(plan.tile_owned);
+  check_batch_files(plan);
+  plan.settings.level = plan.manifest.level;
+  plan.settings.block_size = plan.manifest.block_size;
+  plan.settings.creation_options = plan.manifest.creation_options;
+  plan.settings.overviews = plan.manifest.overviews;
+  plan.settings.alignment = options.alignment;
+  scenario_and_set_settings(plan);
   if (!plan.manifest.units_path.empty()) {
     // Checked before any tile runs: a bad layer, id field or threshold would fail every tile.
     (void)read_unit_ids({plan.manifest.units_path, plan.manifest.units_layer, plan.manifest.units_id});
@@ -110,7 +233,10 @@ BatchPlan make_plan(const BatchOptions& options, const std::string& tool_version
     plan.settings.units = units_stamp(plan.manifest.units_path, plan.manifest.units_layer, plan.manifest.units_id,
                                       plan.manifest.units_threshold);
   }
-  plan.model_hash = model_fingerprint(plan.spec.path, plan.spec.training_samples ? &*plan.spec.training_samples : nullptr);
+  std::vector<std::string> hashes;
+  for (const ModelSpec& spec : plan.specs)
+    hashes.push_back(model_fingerprint(spec.path, spec.training_samples ? &*spec.training_samples : nullptr));
+  plan.model_hash = model_set_fingerprint(hashes);
   plan.tool_version = tool_version;
   return plan;
 }
@@ -133,6 +259,39 @@ void check_rasters_exist(const Tile& tile) {
   for (const auto& [covariate, path] : tile.rasters)
     if (!fs::exists(path)) missing += (missing.empty() ? "" : "; ") + covariate + " (" + path + " does not exist)";
   if (!missing.empty()) throw InputError("tile \"" + tile.id + "\" lacks a covariate raster: " + missing);
+  for (const TileScenario& sc : tile.scenarios) {
+    for (const auto& [covariate, path] : sc.rasters)
+      if (!fs::exists(path)) missing += (missing.empty() ? "" : "; ") + covariate + " (" + path + " does not exist)";
+    if (!missing.empty())
+      throw InputError("tile \"" + tile.id + "\" lacks a raster of scenario " + sc.name + ": " + missing);
+  }
+}
+
+/// Runs what the manifest asks of one tile into its folder: predict, predict --scenarios, or a
+/// model set (with or without scenarios). Returns the files written.
+std::vector<std::string> predict_tile(const BatchPlan& plan, const Tile& tile, const PredictOptions& po,
+                                      TileProgress& progress) {
+  if (!plan.model_set() && !plan.scenarios()) return run_predict(po, progress, plan.tool_version).outputs;
+  const BatchManifest& m = plan.manifest;
+  if (!plan.model_set()) {
+    ScenarioRunOptions so;
+    so.predict = po;
+    so.scenarios = plan.scenario_set(tile);
+    so.threshold = m.threshold;
+    so.threshold_from = m.threshold_from;
+    return run_scenarios(so, progress, plan.tool_version).outputs;
+  }
+  ModelSetOptions mo;
+  mo.predict = po;
+  mo.model_paths = m.model_paths;
+  mo.weights = m.weights;
+  mo.form = m.average_se == "2002" ? UnconditionalForm::form_2002 : UnconditionalForm::revised;
+  if (plan.scenarios()) {
+    mo.scenarios = plan.scenario_set(tile);
+    mo.threshold = m.threshold;
+    mo.threshold_from = m.threshold_from;
+  }
+  return run_model_set(mo, progress, plan.tool_version).outputs;
 }
 
 struct TileRun {
@@ -172,8 +331,8 @@ TileRun run_tile(const BatchPlan& plan, const Tile& tile, int threads, TileProgr
     po.units.layer = {plan.manifest.units_path, plan.manifest.units_layer, plan.manifest.units_id};
     po.units.threshold_text = plan.manifest.units_threshold;
     po.alignment = plan.settings.alignment;
-    const PredictSummary summary = run_predict(po, progress, plan.tool_version);
-    run.record = done_record(tile.id, fingerprint, summary.outputs, seconds());
+    const std::vector<std::string> outputs = predict_tile(plan, tile, po, progress);
+    run.record = done_record(tile.id, dir, fingerprint, outputs, seconds());
     // Written last: a tile is done exactly when its record says so.
     write_file_atomically(record_path(dir), run.record.dump(2) + "\n");
     run.outcome.status = "done";
@@ -264,6 +423,7 @@ void finish_region(const BatchPlan& plan, const BatchOptions& options, std::map<
                    BatchSummary& summary) {
   throw_if_stopped();
   std::vector<FinishedTile> finished;
+  std::vector<TileScenarioReport> scenario_reports;
   RegionReportInput in;
   in.tool_version = plan.tool_version;
   in.manifest_path = plan.manifest.path;
@@ -281,12 +441,14 @@ void finish_region(const BatchPlan& plan, const BatchOptions& options, std::map<
     RegionTile row{o.id, o.status, o.reason, o.ran_this_run, o.seconds, nullptr};
     if (o.status == "done" || o.status == "up_to_date") {
       finished.push_back({tile.id, dir, it->second.record});
-      row.tile_report = read_json((fs::path(dir) / "report.json").string());
+      // With scenarios the tile rows describe the baseline; each scenario is merged below.
+      row.tile_report = read_json((fs::path(dir) / (plan.scenarios() ? "baseline/report.json" : "report.json")).string());
+      if (plan.scenarios()) scenario_reports.push_back({tile.id, read_json((fs::path(dir) / "scenarios.json").string())});
     }
     in.tiles.push_back(std::move(row));
   }
   if (!finished.empty()) {
-    summary.outputs = build_region_mosaic(plan.manifest.output_dir, finished, options.cog);
+    summary.outputs = build_region_mosaic(plan.manifest.output_dir, finished, options.cog, plan.region_owned);
   } else {
     summary.warnings.push_back("No tile is done, so no mosaic was built.");
   }
@@ -305,8 +467,28 @@ void finish_region(const BatchPlan& plan, const BatchOptions& options, std::map<
     }
   }
   in.mosaic = summary.outputs;
+  in.model_set = plan.model_set();
+  if (plan.model_set()) in.model_paths = plan.manifest.model_paths;
+  for (const ModelSpec& spec : plan.specs) in.every_model_trained = in.every_model_trained && spec.training_samples;
   RegionReport report = region_report(in);
   if (units) report.json["units"] = units->report;
+  if (plan.model_set()) {
+    json models = json::array();
+    for (std::size_t i = 0; i < plan.specs.size(); ++i)
+      models.push_back({{"path", plan.specs[i].path},
+                        {"aic", plan.specs[i].aic ? json(*plan.specs[i].aic) : json()},
+                        {"weight", plan.weights[i]}});
+    report.json["model_set"] = {{"models", models},
+                                {"weights_from", plan.manifest.weights.empty()
+                                                     ? "Akaike weights exp(-dAIC/2) / sum, from each model file's aic"
+                                                     : "weights of the manifest, normalised to sum 1"},
+                                {"average_se", plan.manifest.average_se}};
+  }
+  if (plan.scenarios()) {
+    std::vector<std::string> names;
+    for (const ManifestScenario& sc : plan.manifest.scenarios) names.push_back(sc.name);
+    report.json["scenarios"] = merge_region_scenarios(names, scenario_reports, static_cast<int>(plan.tiles.size()));
+  }
   summary.not_done = not_done;
   int exit_code = 0;
   if (not_done > 0) {
@@ -345,7 +527,7 @@ BatchSummary run_batch(const BatchOptions& options, Progress& progress, const st
   if (region_lock.held() && !options.shard) {
     recover_output_sets(plan.manifest.output_dir);
     remove_stale_partials(plan.manifest.output_dir, {"batch-report.json", "batch-report.csv"});
-    remove_stale_partials(plan.manifest.output_dir, mosaic_owned_names());
+    remove_stale_mosaic_partials(plan.manifest.output_dir, plan.region_owned);
   }
 
   std::vector<std::size_t> selected;

@@ -1,6 +1,7 @@
 #pragma once
-// `habcast batch` as a library call: every tile of a manifest through run_predict (resumable, in
-// parallel), then the region mosaic and report. See docs/batch.md.
+// `habcast batch` as a library call: every tile of a manifest through run_predict, or run_scenarios
+// and run_model_set when the manifest has scenarios or a model set (resumable, in parallel), then
+// the region mosaic and report. See docs/batch.md.
 #include <nlohmann/json.hpp>
 #include <optional>
 #include <string>

@@ -28,6 +28,11 @@ struct RegionReportInput {
   std::vector<RegionTile> tiles;  ///< every tile of the manifest, in id order
   std::vector<std::string> mosaic;
   std::optional<double> max_extrapolated_percent;
+  /// The tiles ran a model set: their report.json gives the union of the models' flags, without
+  /// valid pixels, causes or covariates (those are per model); the report leaves them null.
+  bool model_set = false;
+  std::vector<std::string> model_paths;  ///< every model of a set (for "model"); empty: spec's
+  bool every_model_trained = true;       ///< false when some model of the set has no training samples
 };
 
 struct RegionReport {

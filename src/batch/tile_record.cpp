@@ -5,6 +5,7 @@
 #include <filesystem>
 #include <fstream>
 #include <sstream>
+#include <stdexcept>
 
 #include "batch/content_hash.hpp"
 
@@ -24,25 +25,67 @@ json file_stamp(const std::string& covariate, const std::string& path) {
   return {{"covariate", covariate}, {"path", path}, {"size", static_cast<long long>(st.st_size)}, {"mtime_ns", mtime_ns}};
 }
 
+const json& record_entry(const json& j, const char* key) {
+  static const json none;
+  return j.is_object() && j.contains(key) ? j[key] : none;
+}
+
+/// Which scenario differs, in words ("scenario ssp5: raster of tmin changed (...)").
+std::string scenario_difference(const json& a, const json& b) {
+  if (!a.is_array() || a.size() != b.size()) return "the scenarios changed (added, removed or reordered)";
+  for (std::size_t i = 0; i < b.size(); ++i) {
+    const std::string name = b[i].value("name", "?");
+    if (record_entry(a[i], "name") != record_entry(b[i], "name")) return "the scenarios changed (added, removed or reordered)";
+    if (record_entry(a[i], "description") != record_entry(b[i], "description") || record_entry(a[i], "covariates") != record_entry(b[i], "covariates"))
+      return "scenario " + name + " was redefined";
+    const json& ra = record_entry(a[i], "inputs");
+    const json& rb = record_entry(b[i], "inputs");
+    if (!ra.is_array() || ra.size() != rb.size()) return "scenario " + name + " was redefined";
+    for (std::size_t k = 0; k < rb.size(); ++k)
+      if (ra[k] != rb[k])
+        return "scenario " + name + ": raster of " + rb[k].value("covariate", "?") + " changed (" + rb[k].value("path", "") + ")";
+  }
+  return "the scenarios changed";
+}
+
 /// Which part of the fingerprint differs, in words, for the summary ("input precip changed").
 std::string difference(const json& old_fp, const json& new_fp) {
   if (old_fp.value("habcast_version", "") != new_fp.value("habcast_version", "")) return "habcast version changed";
   if (old_fp.value("model_hash", "") != new_fp.value("model_hash", "")) return "model file or training table changed";
-  if (old_fp["options"] != new_fp["options"]) return "predict options changed";
-  const json& a = old_fp["inputs"];
-  const json& b = new_fp["inputs"];
+  const json& oo = record_entry(old_fp, "options");
+  const json& no = record_entry(new_fp, "options");
+  if (record_entry(oo, "model_set") != record_entry(no, "model_set")) return "the model set (models, weights or average_se) changed";
+  if (record_entry(oo, "threshold") != record_entry(no, "threshold")) return "the change classes' threshold changed";
+  if (oo != no) return "predict options changed";
+  const json& a = record_entry(old_fp, "inputs");
+  const json& b = record_entry(new_fp, "inputs");
   if (!a.is_array() || a.size() != b.size()) return "covariates changed";
   for (std::size_t i = 0; i < b.size(); ++i)
     if (a[i] != b[i]) return "input " + b[i].value("covariate", "?") + " changed (" + b[i].value("path", "") + ")";
+  if (record_entry(old_fp, "scenarios") != record_entry(new_fp, "scenarios"))
+    return scenario_difference(record_entry(old_fp, "scenarios"), record_entry(new_fp, "scenarios"));
   return "record differs";
+}
+
+/// A recorded output name is a plain name in the tile folder or one of its sub-folders.
+bool plain_output_name(const std::string& file) {
+  const fs::path p(file);
+  if (file.empty() || p.is_absolute()) return false;
+  for (const fs::path& part : p)
+    if (part == ".." || part == "." || part.empty()) return false;
+  return true;
 }
 
 bool output_verifies(const std::string& tile_dir, const json& entry, std::string& why) {
   const std::string file = entry.value("file", "");
+  if (!plain_output_name(file)) {
+    why = "its record names an output outside the tile's folder (\"" + file + "\")";
+    return false;
+  }
   const fs::path path = fs::path(tile_dir) / file;
   std::error_code ec;
   const auto size = fs::file_size(path, ec);
-  if (file.empty() || ec) {
+  if (ec) {
     why = "output " + file + " is missing";
     return false;
   }
@@ -74,14 +117,32 @@ json tile_fingerprint(const Tile& tile, const std::string& model_hash, const Til
                {"overviews", s.overviews}};
   // Only when asked for, so that records of runs without units or alignment options stay valid.
   if (!s.units.is_null()) options["units"] = s.units;
+  if (!s.model_set.is_null()) options["model_set"] = s.model_set;
+  if (!s.threshold.is_null()) options["threshold"] = s.threshold;
   const AlignmentOptions& a = s.alignment;
   if (!a.target.covariate.empty() || !a.resampling.empty() || a.error_threshold != 0.0) {
     json methods = json::object();
     for (const auto& [name, method] : a.resampling) methods[name] = to_string(method);
     options["alignment"] = {{"grid_of", a.target.covariate}, {"resampling", methods}, {"warp_error", a.error_threshold}};
   }
-  return {{"habcast_version", tool_version}, {"model_hash", model_hash}, {"options", options}, {"inputs", inputs}};
+  json fp{{"habcast_version", tool_version}, {"model_hash", model_hash}, {"options", options}, {"inputs", inputs}};
+  if (!tile.scenarios.empty()) {
+    // The definitions (name, description, covariates) are the manifest's; the rasters, this tile's.
+    json scenarios = json::array();
+    for (std::size_t i = 0; i < tile.scenarios.size(); ++i) {
+      const TileScenario& ts = tile.scenarios[i];
+      json entry = i < s.scenarios.size() ? s.scenarios[i] : json{{"name", ts.name}};
+      json rasters = json::array();
+      for (const auto& [covariate, path] : ts.rasters) rasters.push_back(file_stamp(covariate, path));
+      entry["inputs"] = rasters;
+      scenarios.push_back(entry);
+    }
+    fp["scenarios"] = scenarios;
+  }
+  return fp;
 }
+
+json input_stamp(const std::string& role, const std::string& path) { return file_stamp(role, path); }
 
 json units_stamp(const std::string& path, const std::string& layer, const std::string& id, const std::string& threshold) {
   json j{{"file", file_stamp("units", path)}, {"layer", layer}, {"id", id}, {"threshold", threshold}};
@@ -98,16 +159,26 @@ std::string model_fingerprint(const std::string& model_path, const std::string* 
   return hex64(fnv1a64(both));
 }
 
+std::string model_set_fingerprint(const std::vector<std::string>& model_hashes) {
+  if (model_hashes.size() == 1) return model_hashes.front();
+  std::string all;
+  for (const std::string& h : model_hashes) all += h;
+  return hex64(fnv1a64(all));
+}
+
 std::string tile_folder(const std::string& output_dir, const std::string& id) {
   return (fs::path(output_dir) / "tiles" / id).string();
 }
 
 std::string record_path(const std::string& tile_dir) { return (fs::path(tile_dir) / "tile-record.json").string(); }
 
-json done_record(const std::string& id, const json& fingerprint, const std::vector<std::string>& outputs, double seconds) {
+json done_record(const std::string& id, const std::string& tile_dir, const json& fingerprint,
+                 const std::vector<std::string>& outputs, double seconds) {
   json files = json::array();
   for (const std::string& path : outputs) {
-    files.push_back({{"file", fs::path(path).filename().string()},
+    const std::string name = fs::path(path).lexically_normal().lexically_relative(fs::path(tile_dir).lexically_normal()).generic_string();
+    if (!plain_output_name(name)) throw std::logic_error("done_record: " + path + " does not lie in " + tile_dir);
+    files.push_back({{"file", name},
                      {"size", static_cast<long long>(fs::file_size(path))},
                      {"fnv1a64", hex64(fnv1a64_file(path))}});
   }

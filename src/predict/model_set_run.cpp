@@ -55,21 +55,9 @@ struct SetModel {
 
 /// The same response, family and training data: averaging models of different things is refused.
 void check_compatible(const std::vector<SetModel>& models) {
-  const ModelSpec& a = models.front().spec;
-  for (std::size_t i = 1; i < models.size(); ++i) {
-    const ModelSpec& b = models[i].spec;
-    auto refuse = [&](const std::string& what, const std::string& va, const std::string& vb) {
-      throw InputError(b.path + ": " + what + " is " + vb + ", but " + a.path + " has " + va +
-                       "; a model set averages models of the same response fitted on the same data");
-    };
-    if (a.family != b.family) refuse("the family", to_string(a.family), to_string(b.family));
-    if (a.response != b.response) refuse("the response", "\"" + a.response + "\"", "\"" + b.response + "\"");
-    if (a.observations && b.observations && *a.observations != *b.observations)
-      refuse("n (observations)", std::to_string(*a.observations), std::to_string(*b.observations));
-    if (a.training_samples && b.training_samples &&
-        fs::path(*a.training_samples).lexically_normal() != fs::path(*b.training_samples).lexically_normal())
-      refuse("the training table", *a.training_samples, *b.training_samples);
-  }
+  std::vector<const ModelSpec*> specs;
+  for (const SetModel& m : models) specs.push_back(&m.spec);
+  check_model_set_compatible(specs);
 }
 
 /// Each covariate's raster: -c, else the models' own default; two models naming different
@@ -114,25 +102,6 @@ struct Outputs {
     return v;
   }
 };
-
-/// Every name a model-set run may write, relative to its output folder: the averaged prediction in
-/// the folder itself, or (with scenarios) in baseline/ and each scenario's folder with the change.
-std::vector<std::string> model_set_owned_names(const std::vector<Scenario>& scenarios) {
-  std::vector<std::string> per_folder;
-  for (const char* raster : {"suitability.tif", "uncertainty.tif", "model_choice.tif", "extrapolation.tif"}) {
-    per_folder.emplace_back(raster);
-    per_folder.push_back(sidecar_of(raster));
-  }
-  per_folder.emplace_back("report.json");
-  if (scenarios.empty()) return per_folder;
-  std::vector<std::string> owned{"scenarios.json"};
-  for (const std::string& name : per_folder) owned.push_back("baseline/" + name);
-  for (const Scenario& s : scenarios) {
-    for (const std::string& name : per_folder) owned.push_back(s.name + "/" + name);
-    for (const std::string& name : change_owned_names()) owned.push_back(s.name + "/" + name);
-  }
-  return owned;
-}
 
 const char* form_text(UnconditionalForm form) {
   return form == UnconditionalForm::revised
@@ -218,6 +187,41 @@ double share(std::int64_t part, std::int64_t whole) {
 }
 
 }  // namespace
+
+std::vector<std::string> model_set_owned_names(const std::vector<Scenario>& scenarios) {
+  std::vector<std::string> per_folder;
+  for (const char* raster : {"suitability.tif", "uncertainty.tif", "model_choice.tif", "extrapolation.tif"}) {
+    per_folder.emplace_back(raster);
+    per_folder.push_back(sidecar_of(raster));
+  }
+  per_folder.emplace_back("report.json");
+  if (scenarios.empty()) return per_folder;
+  std::vector<std::string> owned{"scenarios.json"};
+  for (const std::string& name : per_folder) owned.push_back("baseline/" + name);
+  for (const Scenario& s : scenarios) {
+    for (const std::string& name : per_folder) owned.push_back(s.name + "/" + name);
+    for (const std::string& name : change_owned_names()) owned.push_back(s.name + "/" + name);
+  }
+  return owned;
+}
+
+void check_model_set_compatible(const std::vector<const ModelSpec*>& specs) {
+  const ModelSpec& a = *specs.front();
+  for (std::size_t i = 1; i < specs.size(); ++i) {
+    const ModelSpec& b = *specs[i];
+    auto refuse = [&](const std::string& what, const std::string& va, const std::string& vb) {
+      throw InputError(b.path + ": " + what + " is " + vb + ", but " + a.path + " has " + va +
+                       "; a model set averages models of the same response fitted on the same data");
+    };
+    if (a.family != b.family) refuse("the family", to_string(a.family), to_string(b.family));
+    if (a.response != b.response) refuse("the response", "\"" + a.response + "\"", "\"" + b.response + "\"");
+    if (a.observations && b.observations && *a.observations != *b.observations)
+      refuse("n (observations)", std::to_string(*a.observations), std::to_string(*b.observations));
+    if (a.training_samples && b.training_samples &&
+        fs::path(*a.training_samples).lexically_normal() != fs::path(*b.training_samples).lexically_normal())
+      refuse("the training table", *a.training_samples, *b.training_samples);
+  }
+}
 
 std::vector<double> model_set_weights(const std::vector<double>& given, const std::vector<std::string>& paths,
                                       const std::vector<std::optional<double>>& aic) {
@@ -560,12 +564,16 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
       dis["area_ha"] = static_cast<double>(total.disagree) * grid.pixel_area() * grid.linear_units_to_metre *
                        grid.linear_units_to_metre / 1e4;
     r["models_disagree"] = dis;
-    if (with_flags)
+    if (with_flags) {
       r["extrapolation"] = {{"checked_pixels", total.checked}, {"flagged_pixels", total.flagged},
                             {"flagged_share", share(total.flagged, total.checked)},
                             {"rule", "union: a pixel is flagged when any model of the set flags it; the models list "
                                      "says which model's covariates caused which flags"}};
-    else
+      // As in predict's report: the checked area, from which a batch's region report forms areas.
+      if (grid.has_geotransform && grid.linear_units_to_metre > 0.0)
+        r["extrapolation"]["checked_area_ha"] = static_cast<double>(total.checked) * grid.pixel_area() *
+                                                grid.linear_units_to_metre * grid.linear_units_to_metre / 1e4;
+    } else
       warnings.push_back("Not every model names training samples, so the set's pixels are not checked against the "
                          "training data (no extrapolation.tif). Add [training] samples to every model.");
     if (total.disagree > 0)
@@ -639,6 +647,26 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
                   {"classes", "from the averaged baseline and scenario predictions at the threshold and the averaged "
                               "change's interval; marked where the union of the models' flags says either side is "
                               "extrapolated"}};
+  // Areas as in a single model's scenarios.json: hectares in a CRS with metric units, else square
+  // map units; none without a geotransform. Counts beside every share, so that tiles of a batch
+  // add up exactly (docs/batch.md).
+  auto add_area = [&](json& j, std::int64_t pixels) {
+    if (!grid.has_geotransform) return;
+    j["area"] = static_cast<double>(pixels) * grid.pixel_area();
+    if (grid.linear_units_to_metre > 0.0)
+      j["area_ha"] = static_cast<double>(pixels) * grid.pixel_area() * grid.linear_units_to_metre *
+                     grid.linear_units_to_metre / 1e4;
+  };
+  json base;
+  base["folder"] = folders[0];
+  base["predicted_pixels"] = stack_totals[0].predicted;
+  if (with_flags)
+    base["extrapolation"] = {{"checked_pixels", stack_totals[0].checked},
+                             {"flagged_pixels", stack_totals[0].flagged},
+                             {"flagged_share", share(stack_totals[0].flagged, stack_totals[0].checked)}};
+  else
+    base["extrapolation"] = json();
+  r["baseline"] = base;
   json list = json::array();
   for (std::size_t sc = 0; sc < scenarios.size(); ++sc) {
     const ChangeTally& c = change_totals[sc];
@@ -655,13 +683,18 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
         std::int64_t n = 0;
         for (std::size_t m = 0; m < 4; ++m) n += c.classes[cls][m];
         const std::int64_t x = c.classes[cls][1] + c.classes[cls][2] + c.classes[cls][3];
-        classes[change_class::class_key(cls)] = {{"pixels", n}, {"share", share(n, c.compared)},
-                                                 {"extrapolated_pixels", x}, {"extrapolated_share", share(x, n)}};
+        json k{{"pixels", n}, {"share", share(n, c.compared)}};
+        add_area(k, n);
+        k["extrapolated_pixels"] = x;
+        k["extrapolated_share"] = share(x, n);
+        classes[change_class::class_key(cls)] = k;
       }
       e["classes"] = classes;
     }
     if (with_flags)
-      e["extrapolation"] = {{"flagged_share", share(stack_totals[sc + 1].flagged, stack_totals[sc + 1].checked)},
+      e["extrapolation"] = {{"checked_pixels", stack_totals[sc + 1].checked},
+                            {"flagged_pixels", stack_totals[sc + 1].flagged},
+                            {"flagged_share", share(stack_totals[sc + 1].flagged, stack_totals[sc + 1].checked)},
                             {"baseline_flagged_share", share(stack_totals[0].flagged, stack_totals[0].checked)},
                             {"rule", "union of the models' flags"}};
     list.push_back(e);

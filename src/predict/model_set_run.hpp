@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "core/base/error.hpp"
+#include "core/model/model_spec.hpp"
 #include "core/prediction/model_average.hpp"
 #include "pipeline/progress.hpp"
 #include "predict/predict_options.hpp"
@@ -38,6 +39,15 @@ struct ModelSetSummary {
 /// model_choice.tif (between-model share of the variance), extrapolation.tif (union of flags)
 /// and report.json. Leaves no partial output when it throws.
 ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress, const std::string& tool_version);
+
+/// Every name such a run may write, relative to its output folder: the averaged prediction's
+/// rasters and report in the folder itself, or (with scenarios) "scenarios.json", "baseline/..." and
+/// each scenario's folder with the change ("warm/change.tif"): what it locks, checks and commits.
+std::vector<std::string> model_set_owned_names(const std::vector<Scenario>& scenarios);
+
+/// Refuses (InputError naming both files) models that cannot be averaged: another family,
+/// response, number of observations or training table than the first model's.
+void check_model_set_compatible(const std::vector<const ModelSpec*>& specs);
 
 /// The weights to use: the user's (normalised; refused when negative, not finite, of the wrong
 /// count or all zero) or Akaike weights from `aic` (refused, naming the file, when one is missing).

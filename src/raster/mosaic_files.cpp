@@ -1,6 +1,7 @@
 #include "raster/mosaic_files.hpp"
 
 #include <cpl_error.h>
+#include <cpl_minixml.h>
 #include <gdal_priv.h>
 #include <gdal_rat.h>
 #include <gdal_utils.h>
@@ -58,13 +59,62 @@ void copy_band_labels(GDALDatasetH vrt, const std::string& first_tile) {
   }
 }
 
+struct XmlFree {
+  void operator()(CPLXMLNode* n) const noexcept { CPLDestroyXMLNode(n); }
+};
+
+/// `path` relative to `from_folder` when it lies within `root` (both as written: absolute,
+/// normalised paths); empty otherwise.
+std::string relative_within(const std::string& path, const std::string& from_folder, const std::string& root) {
+  const std::filesystem::path p = std::filesystem::path(path).lexically_normal();
+  const std::filesystem::path r = std::filesystem::path(root).lexically_normal();
+  if (!p.is_absolute() || !r.is_absolute()) return "";
+  const std::filesystem::path inside = p.lexically_relative(r);
+  if (inside.empty() || *inside.begin() == "..") return "";
+  return p.lexically_relative(std::filesystem::path(from_folder).lexically_normal()).generic_string();
+}
+
+/// Rewrites the VRT so that every absolute source path within `root` is stored relative to the
+/// VRT's folder (GDAL 3.6 does so only for sources below that folder).
+void relativise_sources(const std::string& vrt_path, const std::string& root) {
+  std::unique_ptr<CPLXMLNode, XmlFree> tree(CPLParseXMLFile(vrt_path.c_str()));
+  if (!tree) throw IoError(vrt_path + ": cannot read back the mosaic just written (" + gdal_reason() + ")");
+  const std::string folder = std::filesystem::path(vrt_path).parent_path().string();
+  bool changed = false;
+  // Depth-first over the element tree; SourceFilename elements carry the path as their text.
+  std::vector<CPLXMLNode*> stack;
+  for (CPLXMLNode* top = tree.get(); top != nullptr; top = top->psNext)
+    if (top->eType == CXT_Element) stack.push_back(top);
+  while (!stack.empty()) {
+    CPLXMLNode* node = stack.back();
+    stack.pop_back();
+    for (CPLXMLNode* child = node->psChild; child != nullptr; child = child->psNext)
+      if (child->eType == CXT_Element) stack.push_back(child);
+    if (node->eType != CXT_Element || !EQUAL(node->pszValue, "SourceFilename")) continue;
+    if (!EQUAL(CPLGetXMLValue(node, "relativeToVRT", "0"), "0")) continue;
+    for (CPLXMLNode* child = node->psChild; child != nullptr; child = child->psNext) {
+      if (child->eType != CXT_Text) continue;
+      const std::string relative = relative_within(child->pszValue, folder, root);
+      if (relative.empty()) break;
+      CPLFree(child->pszValue);
+      child->pszValue = CPLStrdup(relative.c_str());
+      CPLSetXMLValue(node, "#relativeToVRT", "1");
+      changed = true;
+      break;
+    }
+  }
+  if (!changed) return;
+  if (!CPLSerializeXMLTreeToFile(tree.get(), vrt_path.c_str()))
+    throw IoError(vrt_path + ": writing the mosaic's relative source paths failed (" + gdal_reason() + ")");
+}
+
 int CPL_STDCALL ask_keep_going(double, const char*, void* data) {
   return (*static_cast<const std::function<bool()>*>(data))() ? TRUE : FALSE;
 }
 
 }  // namespace
 
-void build_vrt(const std::string& vrt_path, const std::vector<std::string>& sources) {
+void build_vrt(const std::string& vrt_path, const std::vector<std::string>& sources, const std::string& relative_root) {
   ensure_gdal();
   if (sources.empty()) throw IoError(vrt_path + ": no finished tile to build the mosaic from");
   std::vector<const char*> names;
@@ -86,6 +136,7 @@ void build_vrt(const std::string& vrt_path, const std::vector<std::string>& sour
     throw;
   }
   if (!close_checked(vrt)) throw IoError(vrt_path + ": writing the mosaic failed (" + gdal_reason() + ")");
+  if (!relative_root.empty()) relativise_sources(vrt_path, relative_root);
 }
 
 void write_cog(const std::string& source, const std::string& cog_path, const std::string& overview_resampling,

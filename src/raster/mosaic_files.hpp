@@ -10,9 +10,12 @@
 namespace habcast {
 
 /// GDALBuildVRT of `sources` (in this order; where tiles overlap the later one shows) into
-/// `vrt_path`. Sources are stored relative to the VRT when they share a folder tree, so the
-/// output folder can be moved as a whole. Throws IoError naming the file with GDAL's reason.
-void build_vrt(const std::string& vrt_path, const std::vector<std::string>& sources);
+/// `vrt_path`. Sources below the VRT's folder are stored relative to it, as GDAL does; so are
+/// sources elsewhere within `relative_within` (e.g. "../tiles/a/ssp5/change.tif" for a VRT in a
+/// sub-folder of the output folder), so that folder can be moved as a whole. Throws IoError
+/// naming the file with GDAL's reason.
+void build_vrt(const std::string& vrt_path, const std::vector<std::string>& sources,
+               const std::string& relative_within = "");
 
 /// GDALTranslate of `source` into a COG at `cog_path` (DEFLATE, overviews resampled with
 /// `overview_resampling`, e.g. "AVERAGE" or "NEAREST"). Throws IoError naming the file.

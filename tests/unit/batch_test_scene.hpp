@@ -3,6 +3,7 @@
 // one categorical) and a grid cut into rows x cols tiles, each a folder of GeoTIFFs written with
 // GDAL itself. The same values are also written as one whole-grid raster per covariate, so a
 // mosaic of tiles can be compared with a single prediction over the whole grid.
+#include <chrono>
 #include <filesystem>
 #include <string>
 #include <vector>
@@ -73,6 +74,28 @@ class BatchScene {
     GridSpec g = grid_at(x0, y0, col_edge(c + 1) - x0, row_edge(r + 1) - y0);
     write_raster(folder + "/elev.tif", g, "Float32", [&](int row, int col) { return elev(row + y0, col + x0) + elev_shift; });
     write_raster(folder + "/cover.tif", g, "Byte", [&](int row, int col) { return cover(row + y0, col + x0); }, true, 0.0);
+  }
+
+  /// Writes tile (r, c)'s elevation under scenario `name` into tiles/<id>/<name>/elev.tif: the
+  /// baseline's shifted by `elev_shift` metres. Its modification time is set a second past the
+  /// previous file's, so that a rewrite is seen whatever the file system's clock granularity.
+  void write_scenario_tile(int r, int c, const std::string& name, double elev_shift) const {
+    const std::string folder = dir_.file("tiles/" + id(r, c) + "/" + name);
+    std::filesystem::create_directories(folder);
+    const std::string path = folder + "/elev.tif";
+    std::error_code ec;
+    const auto before = std::filesystem::last_write_time(path, ec);
+    const bool existed = !ec;
+    const int x0 = col_edge(c), y0 = row_edge(r);
+    GridSpec g = grid_at(x0, y0, col_edge(c + 1) - x0, row_edge(r + 1) - y0);
+    write_raster(path, g, "Float32", [&](int row, int col) { return elev(row + y0, col + x0) + elev_shift; });
+    if (existed) std::filesystem::last_write_time(path, before + std::chrono::seconds(1));
+  }
+
+  /// The same scenario over the whole grid, as <name>_elev.tif, for a single predict to compare with.
+  void write_whole_scenario(const std::string& name, double elev_shift) const {
+    const GridSpec g = grid_at(0, 0, width_, height_);
+    write_raster(dir_.file(name + "_elev.tif"), g, "Float32", [&](int row, int col) { return elev(row, col) + elev_shift; });
   }
 
   /// Manifest with the pattern; `extra` is appended (e.g. a [predict] table).

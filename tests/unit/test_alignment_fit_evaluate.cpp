@@ -96,7 +96,7 @@ TEST_CASE("evaluate --model scores a covariate off the grid through the warper, 
 // without them must stay valid (the fingerprint gains an "alignment" entry only when one is set).
 
 TEST_CASE("a batch tile's fingerprint holds the alignment options only when they are set", "[batch][align]") {
-  habcast::Tile tile{"t1", {}};
+  habcast::Tile tile{"t1", {}, {}};
   habcast::TileSettings plain;
   const auto without = habcast::tile_fingerprint(tile, "hash", plain, "1.0");
   CHECK_FALSE(without["options"].contains("alignment"));

@@ -128,3 +128,102 @@ TEST_CASE("a pattern follows tile folders that are symbolic links", "[batch]") {
   REQUIRE(tiles.size() == 2);
   CHECK(tiles[1].id == "t0_1");
 }
+
+TEST_CASE("a manifest's scenarios give each tile its rasters by pattern or table, in the manifest's order",
+          "[batch][scenarios]") {
+  BatchScene s(1, 2, 20, 15);
+  s.write_scenario_tile(0, 0, "ssp5", 10.0);
+  s.write_scenario_tile(0, 1, "ssp5", 10.0);
+  habcast::test::write_text(
+      s.manifest(), kHead + "[predict]\nthreshold = 0.4\n[tiles]\npattern = \"tiles/{tile}/{covariate}.tif\"\n"
+                            "[[scenario]]\nname = \"ssp5\"\ndescription = \"hotter\"\ncovariates = [\"elev\"]\n"
+                            "pattern = \"tiles/{tile}/ssp5/{covariate}.tif\"\n"
+                            "[[scenario]]\nname = \"open\"\ncovariates = [\"cover\"]\n"
+                            "[scenario.tiles]\nt0_0 = { cover = \"open/west.tif\" }\nt0_1 = { cover = \"open/east.tif\" }\n");
+  const habcast::BatchManifest m = habcast::read_batch_manifest(s.manifest());
+  CHECK(m.threshold == 0.4);
+  REQUIRE(m.scenarios.size() == 2);
+  CHECK(m.scenarios[0].description == "hotter");
+  const auto tiles = habcast::list_tiles(m, habcast::read_model_file(m.model_path));
+  REQUIRE(tiles.size() == 2);
+  REQUIRE(tiles[1].scenarios.size() == 2);
+  CHECK(tiles[1].scenarios[0].name == "ssp5");
+  CHECK(tiles[1].scenarios[0].rasters[0].second == s.file("tiles/t0_1/ssp5/elev.tif"));
+  CHECK(tiles[1].scenarios[1].rasters[0] == std::make_pair(std::string("cover"), s.file("open/east.tif")));
+}
+
+TEST_CASE("scenario and model-set mistakes in a manifest are reported with the line and what to do",
+          "[batch][scenarios][modelset]") {
+  BatchScene s(1, 2, 20, 15);
+  s.write_scenario_tile(0, 0, "warm", 10.0);
+  const std::string tiles = "[tiles]\npattern = \"tiles/{tile}/{covariate}.tif\"\n";
+  const std::string warm = "[[scenario]]\nname = \"warm\"\ncovariates = [\"elev\"]\npattern = \"tiles/{tile}/warm/{covariate}.tif\"\n";
+  SECTION("model and models both given") {
+    const std::string e = manifest_error(
+        s, "habcast_batch = 1\nmodel = \"model.toml\"\nmodels = [\"model.toml\", \"b.toml\"]\noutput = \"out\"\n" + tiles);
+    CHECK_THAT(e, Contains("region.toml:3:") && Contains("model (line 2) and models (line 3)"));
+  }
+  SECTION("a model set of one model, weights without a set, and weights of the wrong count") {
+    CHECK_THAT(manifest_error(s, "habcast_batch = 1\nmodels = [\"model.toml\"]\noutput = \"out\"\n" + tiles),
+               Contains("region.toml:2:") && Contains("two or more"));
+    CHECK_THAT(manifest_error(s, kHead + "weights = [1.0, 2.0]\n" + tiles),
+               Contains("region.toml:4:") && Contains("weights weigh the models of a set"));
+    CHECK_THAT(manifest_error(s, "habcast_batch = 1\nmodels = [\"model.toml\", \"b.toml\"]\nweights = [1.0]\n"
+                                 "output = \"out\"\n" + tiles),
+               Contains("region.toml:3:") && Contains("1 weights for 2 models"));
+    CHECK_THAT(manifest_error(s, "habcast_batch = 1\nmodels = [\"model.toml\", \"b.toml\"]\naverage_se = \"2001\"\n"
+                                 "output = \"out\"\n" + tiles),
+               Contains("region.toml:3:") && Contains("\"revised\"") && Contains("\"2002\""));
+  }
+  SECTION("a scenario without covariates, or without a place for its rasters") {
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"warm\"\npattern = \"x/{tile}.tif\"\n"),
+               Contains("region.toml:7:") && Contains("needs covariates"));
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"warm\"\ncovariates = [\"elev\"]\n"),
+               Contains("region.toml:7:") && Contains("add pattern"));
+  }
+  SECTION("scenario names: invalid, reserved by the region, or twice") {
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"baseline\"\ncovariates = [\"elev\"]\n"),
+               Contains("region.toml:7:") && Contains("scenario name \"baseline\""));
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"tiles\"\ncovariates = [\"elev\"]\n"),
+               Contains("region.toml:7:") && Contains("folder of tiles"));
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"suitability.vrt\"\ncovariates = [\"elev\"]\n"),
+               Contains("region.toml:7:") && Contains("region files"));
+    CHECK_THAT(manifest_error(s, kHead + tiles + warm + warm), Contains("region.toml:11:") && Contains("declared twice") &&
+                                                                  Contains("line 7"));
+  }
+  SECTION("a pattern without {tile}, or one file for two covariates") {
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"warm\"\ncovariates = [\"elev\"]\npattern = \"w.tif\"\n"),
+               Contains("region.toml:9:") && Contains("{tile}"));
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"warm\"\ncovariates = [\"elev\", \"cover\"]\n"
+                                                 "pattern = \"tiles/{tile}/warm.tif\"\n"),
+               Contains("region.toml:9:") && Contains("add {covariate}"));
+  }
+  SECTION("a covariate no model has, and a pattern that finds nothing") {
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"warm\"\ncovariates = [\"slope\"]\n"
+                                                 "pattern = \"tiles/{tile}/warm/{covariate}.tif\"\n"),
+               Contains("region.toml:8:") && Contains("\"slope\"") && Contains("its covariates are elev, cover"));
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"warm\"\ncovariates = [\"elev\"]\n"
+                                                 "pattern = \"tiles/{tile}/hot/{covariate}.tif\"\n"),
+               Contains("region.toml:9:") && Contains("finds no file for any tile"));
+  }
+  SECTION("a table entry for an unknown tile, one also found by the pattern, or lacking a covariate") {
+    CHECK_THAT(manifest_error(s, kHead + tiles + warm + "[scenario.tiles]\nt9_9 = { elev = \"e.tif\" }\n"),
+               Contains("region.toml:11:") && Contains("\"t9_9\", which is not a tile of the region"));
+    CHECK_THAT(manifest_error(s, kHead + tiles + warm + "[scenario.tiles]\nt0_0 = { elev = \"e.tif\" }\n"),
+               Contains("region.toml:11:") && Contains("pattern on line 9 also finds") && Contains("two readings"));
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"warm\"\ncovariates = [\"elev\", \"cover\"]\n"
+                                                 "[scenario.tiles]\nt0_0 = { elev = \"e.tif\" }\n"),
+               Contains("region.toml:10:") && Contains("no raster for cover"));
+    CHECK_THAT(manifest_error(s, kHead + tiles + "[[scenario]]\nname = \"warm\"\ncovariates = [\"elev\"]\n"
+                                                 "[scenario.tiles]\nt0_0 = { elev = \"e.tif\" }\n"),
+               Contains("region.toml:7:") && Contains("no rasters for tile \"t0_1\""));
+  }
+  SECTION("a threshold without scenarios, and options that do not go with scenarios") {
+    CHECK_THAT(manifest_error(s, kHead + "[predict]\nthreshold = 0.5\n" + tiles),
+               Contains("region.toml:5:") && Contains("add [[scenario]]"));
+    CHECK_THAT(manifest_error(s, kHead + "[predict]\nmax_extrapolated = 5\n" + tiles + warm),
+               Contains("region.toml:5:") && Contains("max_extrapolated"));
+    CHECK_THAT(manifest_error(s, kHead + "[units]\npath = \"u.gpkg\"\n" + tiles + warm),
+               Contains("region.toml:4:") && Contains("[units]"));
+  }
+}
