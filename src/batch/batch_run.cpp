@@ -127,7 +127,7 @@ void check_batch_files(const BatchPlan& plan) {
 }
 
 /// Reads every model of the manifest and checks what would otherwise fail every tile alike.
-void read_models(const BatchOptions& options, BatchPlan& plan) {
+void read_models(BatchPlan& plan) {
   const BatchManifest& m = plan.manifest;
   for (const std::string& path : m.model_paths) {
     if (!fs::exists(path))
@@ -151,12 +151,6 @@ void read_models(const BatchOptions& options, BatchPlan& plan) {
                                                                           "covariance matrix for its uncertainty") +
                                                  ": add covariance = [[...]] to [coefficients]"));
   }
-  const AlignmentOptions& a = options.alignment;
-  const bool alignment_asked = !a.target.covariate.empty() || !a.target.template_path.empty() || !a.target.crs.empty() ||
-                               !a.resampling.empty() || a.error_threshold != 0.0;
-  if (alignment_asked && (plan.scenarios() || plan.model_set()))
-    throw UsageError("--grid-of, --resampling and --warp-error align the covariates of a single prediction; scenarios and "
-                     "model sets read each tile's covariates on one shared grid for now: align the tiles first (gdalwarp)");
   if (!plan.model_set()) return;
   std::vector<const ModelSpec*> specs;
   for (const ModelSpec& spec : plan.specs) specs.push_back(&spec);
@@ -205,7 +199,7 @@ BatchPlan make_plan(const BatchOptions& options, const std::string& tool_version
   plan.manifest = read_batch_manifest(options.manifest_path);
   if (!options.output_dir.empty())
     plan.manifest.output_dir = fs::absolute(options.output_dir).lexically_normal().string();
-  read_models(options, plan);
+  read_models(plan);
   try {
     check_creation_options(plan.manifest.creation_options);  // not once per tile, failing each
   } catch (const UsageError& e) {

@@ -399,3 +399,16 @@ TEST_CASE("threshold_from takes evaluate's threshold for every tile; a new repor
     CHECK_THAT(out, Contains("2 run, 0 up to date"));  // the fingerprint holds both as given
   }
 }
+
+TEST_CASE("a scenario batch takes the alignment options: each tile's rasters aligned as predict aligns them",
+          "[batch][scenarios][alignment]") {
+  ScenarioBatch b;
+  // Each tile's rasters share its grid, so --grid-of elev changes nothing: the region equals one
+  // predict --scenarios over the whole grid, as without the option (and the option is not refused).
+  REQUIRE(b.s.run({"--grid-of", "elev"}) == 0);
+  b.run_whole();
+  for (const char* layer : {"warm/change", "cool/suitability", "baseline/uncertainty"}) {
+    INFO(layer);
+    CHECK(scenario_batch_same_bits(b.s.out() + "/" + layer + ".vrt", b.whole + "/" + layer + ".tif", 1));
+  }
+}
