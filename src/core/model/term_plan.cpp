@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "core/base/error.hpp"
+#include "core/base/pixel_loops.hpp"
 
 namespace habcast {
 
@@ -115,7 +116,7 @@ double integer_power(double v, int power) {
 // Each factor multiplies the column in term order, as 1.0 * f1 * f2 ... would (1.0 * f is f exactly,
 // so the first factor is stored, not multiplied); powers 1 and 2 are written out so that the loops
 // vectorise, with the same products as integer_power().
-void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column,
+HABCAST_PIXEL_LOOPS void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column,
                          const std::vector<Eigen::MatrixXd>& spline_values) const {
   if (term.intercept || term.factors.empty()) {
     for (Eigen::Index r = 0; r < rows; ++r) column[r] = 1.0;
@@ -151,7 +152,7 @@ void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Ind
   }
 }
 
-std::int64_t TermPlan::fill(const ModelValues& values, Eigen::Index rows, Eigen::MatrixXd& X,
+HABCAST_PIXEL_LOOPS std::int64_t TermPlan::fill(const ModelValues& values, Eigen::Index rows, Eigen::MatrixXd& X,
                             std::uint8_t* valid) const {
   const Eigen::Index p = term_count();
   if (X.rows() < rows || X.cols() != p) X.resize(rows, p);
