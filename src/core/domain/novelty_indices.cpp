@@ -5,6 +5,8 @@
 #include <limits>
 #include <utility>
 
+#include "core/base/pixel_loops.hpp"
+
 namespace habcast {
 
 namespace {
@@ -48,7 +50,7 @@ SortedValues::SortedValues(std::vector<double> sorted) : sorted_(std::move(sorte
   }
 }
 
-std::size_t SortedValues::count_below(double p) const {
+HABCAST_PIXEL_LOOPS std::size_t SortedValues::count_below(double p) const {
   const std::size_t n = sorted_.size();
   // Outside the training range (a good share of the pixels flagged at all) there is nothing to search.
   // (std::lower_bound's answers: 0 at or below the minimum and for NaN, n above the maximum.)

@@ -5,6 +5,7 @@
 #include <limits>
 
 #include "core/base/error.hpp"
+#include "core/base/pixel_loops.hpp"
 #include "core/domain/extrapolation_flags.hpp"
 #include "core/model/model_values.hpp"
 #include "core/model/term_plan.hpp"
@@ -71,8 +72,9 @@ TrainingDomain::TrainingDomain(const ModelSpec& spec, const TrainingSamples& sam
   }
 }
 
-void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid,
-                          std::uint8_t* flags, DomainTally& tally) const {
+HABCAST_PIXEL_LOOPS void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows,
+                                              const std::uint8_t* valid, std::uint8_t* flags,
+                                              DomainTally& tally) const {
   for (Eigen::Index r = 0; r < rows; ++r) flags[r] = valid[r] ? 0 : flag::nodata;
   for (std::size_t c = 0; c < spec_.covariates.size(); ++c) {
     const double* v = raw.col(static_cast<Eigen::Index>(c)).data();
@@ -104,31 +106,44 @@ void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const s
       const double lo = flag_limits_[c].first;
       const double hi = flag_limits_[c].second;
       const std::uint8_t bit = offset_only_[c] ? std::uint8_t{0} : flag::outside_range;
+      // Without branches, so that the loop vectorises (both comparisons are always made: & rather
+      // than &&, since a condition on a comparison is control flow, which stops the vectoriser).
+      // Invalid pixels hold flag::nodata, all bits set, which OR leaves as it is; they are not
+      // counted. A value both below lo and above hi (limits crossed by a spline's knots) counts as
+      // below, as it always has.
+      std::int64_t below = 0, above = 0;
       for (Eigen::Index r = 0; r < rows; ++r) {
-        if (!valid[r]) continue;
-        if (v[r] < lo) {
-          flags[r] |= bit;
-          ++tally.below[c];
-        } else if (v[r] > hi) {
-          flags[r] |= bit;
-          ++tally.above[c];
-        }
+        const unsigned ok = valid[r] != 0;
+        const unsigned is_below = v[r] < lo;
+        const unsigned is_above = static_cast<unsigned>(v[r] > hi) & (is_below ^ 1u);
+        flags[r] |= static_cast<std::uint8_t>((is_below | is_above) * bit);
+        below += ok & is_below;
+        above += ok & is_above;
       }
+      tally.below[c] += below;
+      tally.above[c] += above;
     }
   }
 }
 
-void TrainingDomain::count_causes(Eigen::Index rows, const std::uint8_t* valid, const std::uint8_t* flags,
-                                  DomainTally& tally) {
-  // Counted without branches (flags of valid pixels hold only the cause bits).
+HABCAST_PIXEL_LOOPS void TrainingDomain::count_causes(Eigen::Index rows, const std::uint8_t* valid,
+                                                      const std::uint8_t* flags, DomainTally& tally) {
+  // Counted without branches (flags of valid pixels hold only the cause bits), one sum per bit
+  // so that the loop vectorises.
   std::int64_t checked = 0, flagged = 0;
   std::int64_t cause[flag::cause_count] = {};
   for (Eigen::Index r = 0; r < rows; ++r) {
-    const unsigned f = valid[r] ? flags[r] : 0u;
-    checked += valid[r] ? 1 : 0;
+    const unsigned ok = valid[r] != 0;
+    const unsigned f = flags[r] & (0u - ok);  // a mask, not a condition: see flag()
+    checked += ok;
     flagged += f != 0 ? 1 : 0;
-    for (int b = 0; b < flag::cause_count; ++b) cause[b] += (f >> b) & 1u;
+    cause[0] += f & 1u;
+    cause[1] += (f >> 1) & 1u;
+    cause[2] += (f >> 2) & 1u;
+    cause[3] += (f >> 3) & 1u;
+    cause[4] += (f >> 4) & 1u;
   }
+  static_assert(flag::cause_count == 5, "one sum per cause bit above");
   tally.checked += checked;
   tally.flagged += flagged;
   for (int b = 0; b < flag::cause_count; ++b) tally.cause[b] += cause[b];

@@ -16,8 +16,9 @@ std::vector<double> pack_symmetric(const Eigen::MatrixXd& V);
 ///            product sums it, so the result is the same bit for bit);
 ///   q[i]   = x_i' V x_i from `packed` (pack_symmetric(V)), summed in a fixed order.
 /// `q` may be null (no covariance). Each row's result depends only on that row: the same
-/// whatever block, chunk or thread it falls in, and on every x86-64 CPU (the SIMD clones do the
-/// same IEEE operations in the same order on each pixel; no FMA contraction).
+/// whatever block, chunk or thread it falls in, and on every x86-64 CPU (the SSE2, AVX2 and
+/// AVX-512 kernels do the same IEEE operations in the same order on each pixel; no FMA
+/// contraction).
 void linear_quadratic(const double* X, Eigen::Index ld, Eigen::Index n, const Eigen::VectorXd& beta,
                       const double* packed, double* eta, double* q);
 

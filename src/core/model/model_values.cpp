@@ -3,6 +3,8 @@
 #include <cmath>
 #include <limits>
 
+#include "core/base/pixel_loops.hpp"
+
 namespace habcast {
 
 double model_value(const Covariate& c, double raw) {
@@ -27,7 +29,7 @@ double raw_value(const Covariate& c, double value) {
   return t;
 }
 
-void to_model_values(const ModelSpec& spec, const TermPlan& plan, const Eigen::ArrayXXd& raw, Eigen::Index first,
+HABCAST_PIXEL_LOOPS void to_model_values(const ModelSpec& spec, const TermPlan& plan, const Eigen::ArrayXXd& raw, Eigen::Index first,
                      Eigen::Index rows, ModelValues& out, std::uint8_t* predict_valid, ModelValueCounts& counts) {
   const Eigen::Index k = static_cast<Eigen::Index>(spec.covariates.size());
   if (out.rows() < rows || out.cols() != k) out.resize(rows, k);

@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "core/base/error.hpp"
+#include "core/base/pixel_loops.hpp"
 
 namespace habcast {
 
@@ -115,7 +116,8 @@ double integer_power(double v, int power) {
 // Each factor multiplies the column in term order, as 1.0 * f1 * f2 ... would (1.0 * f is f exactly,
 // so the first factor is stored, not multiplied); powers 1 and 2 are written out so that the loops
 // vectorise, with the same products as integer_power().
-void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column,
+HABCAST_PIXEL_LOOPS void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Index first_row,
+                                             Eigen::Index rows, double* column,
                          const std::vector<Eigen::MatrixXd>& spline_values) const {
   if (term.intercept || term.factors.empty()) {
     for (Eigen::Index r = 0; r < rows; ++r) column[r] = 1.0;
@@ -130,11 +132,11 @@ void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Ind
     first = false;
   };
   for (const TermFactor& f : term.factors) {
-    const double* v = values.col(f.covariate).data();
+    const double* v = values.col(f.covariate).data() + first_row;
     if (is_spline(f.function)) {
       std::size_t s = 0;
       while (splines_[s].covariate != f.covariate || splines_[s].function != f.function) ++s;
-      const double* b = spline_values[s].col(f.column).data();
+      const double* b = spline_values[s].col(f.column).data() + first_row;
       apply([&](Eigen::Index r) { return b[r]; });
     } else if (f.level >= 0) {
       const double level = static_cast<double>(f.level);
@@ -151,7 +153,7 @@ void TermPlan::fill_term(const Term& term, const ModelValues& values, Eigen::Ind
   }
 }
 
-std::int64_t TermPlan::fill(const ModelValues& values, Eigen::Index rows, Eigen::MatrixXd& X,
+HABCAST_PIXEL_LOOPS std::int64_t TermPlan::fill(const ModelValues& values, Eigen::Index rows, Eigen::MatrixXd& X,
                             std::uint8_t* valid) const {
   const Eigen::Index p = term_count();
   if (X.rows() < rows || X.cols() != p) X.resize(rows, p);
@@ -166,14 +168,20 @@ std::int64_t TermPlan::fill(const ModelValues& values, Eigen::Index rows, Eigen:
     splines_[s].basis.evaluate(values.col(splines_[s].covariate).data(), rows, spline_values[s]);
   // x * 0 is NaN exactly when x is not finite, so one sum per row in doubles (a loop that
   // vectorises, unlike a byte mask per column) finds every row with a term that is not finite.
-  std::vector<double> not_finite(static_cast<std::size_t>(rows), 0.0);
-  double* nf = not_finite.data();
-  for (Eigen::Index j = 0; j < p; ++j) {
-    double* x = X.col(j).data();
-    fill_term(terms_[static_cast<std::size_t>(j)], values, rows, x, spline_values);
-    for (Eigen::Index r = 0; r < rows; ++r) nf[r] += x[r] * 0.0;
+  // The terms are filled a slab of rows at a time, so that the slab's columns and sums are still
+  // in the first-level cache when they are checked (a whole chunk's column and sums are not).
+  constexpr Eigen::Index kSlab = 256;
+  double nf[kSlab];
+  for (Eigen::Index first = 0; first < rows; first += kSlab) {
+    const Eigen::Index m = std::min(kSlab, rows - first);
+    std::fill(nf, nf + m, 0.0);
+    for (Eigen::Index j = 0; j < p; ++j) {
+      double* x = X.col(j).data() + first;
+      fill_term(terms_[static_cast<std::size_t>(j)], values, first, m, x, spline_values);
+      for (Eigen::Index r = 0; r < m; ++r) nf[r] += x[r] * 0.0;
+    }
+    for (Eigen::Index r = 0; r < m; ++r) ok[first + r] &= static_cast<std::uint8_t>(nf[r] == 0.0);
   }
-  for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(nf[r] == 0.0);
   for (int c : used_categorical_) {
     const double* level = values.col(c).data();
     for (Eigen::Index r = 0; r < rows; ++r) ok[r] &= static_cast<std::uint8_t>(level[r] >= 0.0);
@@ -197,7 +205,7 @@ void TermPlan::fill_offset(const ModelValues& values, Eigen::Index rows, Eigen::
     offset.head(rows).setZero();
     return;
   }
-  fill_term(*offset_, values, rows, offset.data(), {});
+  fill_term(*offset_, values, 0, rows, offset.data(), {});
   for (Eigen::Index r = 0; r < rows; ++r)
     if (!std::isfinite(offset[r])) {
       valid[r] = 0;

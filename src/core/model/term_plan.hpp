@@ -55,8 +55,9 @@ class TermPlan {
 
  private:
   void reject_reference_indicators(const ModelSpec& spec) const;
-  void fill_term(const Term& term, const ModelValues& values, Eigen::Index rows, double* column,
-                 const std::vector<Eigen::MatrixXd>& spline_values) const;
+  /// Fills `column` (rows values) with `term` for rows first_row .. first_row + rows - 1.
+  void fill_term(const Term& term, const ModelValues& values, Eigen::Index first_row, Eigen::Index rows,
+                 double* column, const std::vector<Eigen::MatrixXd>& spline_values) const;
   void add_splines(const Term& term, const ModelSpec& spec);
 
   std::vector<SplineUse> splines_;
