@@ -4,7 +4,6 @@
 #include <filesystem>
 
 #include "core/model/float_nodata.hpp"
-#include "pipeline/output_guard.hpp"
 #include "predict/prediction_report.hpp"
 
 namespace habcast {
@@ -55,12 +54,6 @@ ChangeRasters create_change_rasters(const PredictOptions& options, const ModelSp
                                     const std::string& version, int threads) {
   const std::string change_path = (fs::path(folder) / "change.tif").string();
   const std::string class_path = (fs::path(folder) / "change_class.tif").string();
-  std::vector<std::string> finals{change_path};
-  if (threshold) finals.push_back(class_path);
-  refuse_to_clobber(finals, options.overwrite, ", or choose another output folder with -o");
-  std::vector<std::string> names;
-  for (const std::string& f : finals) names.push_back(fs::path(f).filename().string());
-  remove_stale_partials(folder, names);
 
   const std::string units = spec.family == Family::binomial ? "probability" : spec.response;
   char pct[32];

@@ -28,9 +28,10 @@ struct ChangeRasters {
 /// their sidecars and the change-class pictures.
 const std::vector<std::string>& change_owned_names();
 
-/// Creates them under temporary names in `folder` (refusing to replace finished files unless
-/// options.overwrite); `models` names the model file(s) in the metadata; change_class.tif only
-/// with a threshold.
+/// Creates them under temporary names in `folder`, which the caller holds through an OutputFolder
+/// owning change_owned_names() there (locked, leftovers removed, existing files refused unless
+/// --overwrite); `models` names the model file(s) in the metadata; change_class.tif only with a
+/// threshold.
 ChangeRasters create_change_rasters(const PredictOptions& options, const ModelSpec& spec, const std::string& models,
                                     const Scenario& scenario, const std::string& folder, const RasterGrid& grid,
                                     std::optional<double> threshold, const std::string& version, int threads);

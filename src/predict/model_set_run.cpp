@@ -110,9 +110,8 @@ const char* form_text(UnconditionalForm form) {
 }
 
 Outputs create_set_outputs(const ModelSetOptions& options, const ModelSpec& first, const RasterGrid& grid,
-                           bool with_flags, const std::string& version, int threads, const std::string& report_path) {
+                           bool with_flags, const std::string& version, int threads) {
   const fs::path dir(options.predict.output_dir);
-  (void)report_path;
   const std::vector<std::string> names{"suitability.tif", "uncertainty.tif", "model_choice.tif", "extrapolation.tif"};
 
   std::string paths;
@@ -401,7 +400,7 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
     ModelSetOptions fo = options;
     fo.predict.output_dir = folders[j];
     report_paths.push_back((fs::path(folders[j]) / "report.json").string());
-    outs.push_back(create_set_outputs(fo, models.front().spec, grid, with_flags, tool_version, threads, report_paths.back()));
+    outs.push_back(create_set_outputs(fo, models.front().spec, grid, with_flags, tool_version, threads));
   }
   std::vector<ChangeRasters> change_outputs;
   for (std::size_t sc = 0; sc < scenarios.size(); ++sc)
