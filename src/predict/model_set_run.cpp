@@ -352,7 +352,7 @@ ModelSetSummary run_model_set(const ModelSetOptions& options, Progress& progress
   std::vector<std::unique_ptr<Worker>> workers;
   for (int t = 0; t < threads; ++t) {
     auto w = std::make_unique<Worker>();
-    w->members = std::make_unique<MemberWindow>(members, sources, alignment, po.level, 0.0);
+    w->members = std::make_unique<MemberWindow>(members, sources, alignment, po.level, 0.0, false);
     for (std::size_t j = 0; j < stacks; ++j) {
       w->averages.push_back(std::make_unique<AverageCombiner>(models.front().spec.family, used_weights, options.form, z, with_flags));
       w->averages.back()->set_certainty(certainty);

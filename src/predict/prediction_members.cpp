@@ -66,16 +66,27 @@ std::pair<AlignmentPlan, std::vector<std::int64_t>> members_alignment(const Alig
 }
 
 MemberWindow::MemberWindow(const std::vector<PredictionMember>& members, const MemberSources& sources,
-                           const AlignmentPlan& alignment, double level, double quantum)
+                           const AlignmentPlan& alignment, double level, double quantum, bool limits)
     : members_(members), sources_(sources), missing_(sources.sources.size(), 0) {
   for (std::size_t s = 0; s < sources.sources.size(); ++s) readers_.push_back(open_covariate_source(alignment, s));
   for (const PredictionMember& m : members) {
     evaluators_.push_back(std::make_unique<Evaluator>(*m.spec, level, quantum));
+    evaluators_.back()->set_limits(limits);
     predictors_.push_back(std::make_unique<BlockPredictor>(*m.spec, *m.plan, *evaluators_.back(), m.domain, m.novelty));
   }
+  for (std::size_t m = 0; m < members.size(); ++m) {
+    std::size_t stack = 0;
+    while (stack < stack_member_.size() && sources.of_member[stack_member_[stack]] != sources.of_member[m]) ++stack;
+    if (stack == stack_member_.size()) stack_member_.push_back(m);
+    stack_of_.push_back(stack);
+    std::size_t from = m;
+    for (std::size_t e = 0; e < m && from == m; ++e)
+      if (checks_from_[e] == e && stack_of_[e] == stack && predictors_[m]->can_share_checks(*predictors_[e])) from = e;
+    checks_from_.push_back(from);
+  }
   source_valid_.resize(sources.sources.size());
-  raw_.resize(members.size());
-  valid_.resize(members.size());
+  raw_.resize(stack_member_.size());
+  valid_.resize(stack_member_.size());
 }
 
 void MemberWindow::run(const Window& window, std::vector<BlockOutputs>& outputs, std::vector<PredictionTally>& tallies,
@@ -90,18 +101,22 @@ void MemberWindow::run(const Window& window, std::vector<BlockOutputs>& outputs,
   const std::size_t members = members_.size();
   outputs.resize(members);
   tallies.clear();
-  for (std::size_t m = 0; m < members; ++m) {
-    const std::size_t k = members_[m].spec->covariates.size();
-    tallies.emplace_back(k);
-    raw_[m].resize(n, static_cast<Eigen::Index>(k));
-    valid_[m].assign(un, 1);
-    for (std::size_t c = 0; c < k; ++c) {
-      const std::size_t s = sources_.of_member[m][c];
-      raw_[m].col(static_cast<Eigen::Index>(c)) = decoded_.col(static_cast<Eigen::Index>(s));
-      const std::vector<std::uint8_t>& sv = source_valid_[s];
-      for (std::size_t i = 0; i < un; ++i) valid_[m][i] &= sv[i];
+  for (std::size_t j = 0; j < stack_member_.size(); ++j) {
+    const std::vector<std::size_t>& of = sources_.of_member[stack_member_[j]];
+    raw_[j].resize(n, static_cast<Eigen::Index>(of.size()));
+    valid_[j].assign(un, 1);
+    for (std::size_t c = 0; c < of.size(); ++c) {
+      raw_[j].col(static_cast<Eigen::Index>(c)) = decoded_.col(static_cast<Eigen::Index>(of[c]));
+      const std::vector<std::uint8_t>& sv = source_valid_[of[c]];
+      for (std::size_t i = 0; i < un; ++i) valid_[j][i] &= sv[i];
     }
-    predictors_[m]->begin(raw_[m], valid_[m], n, outputs[m], tallies[m]);
+  }
+  for (std::size_t m = 0; m < members; ++m) {
+    tallies.emplace_back(members_[m].spec->covariates.size());
+    const std::size_t from = checks_from_[m];
+    const SharedChecks shared{&outputs[from], &tallies[from].domain};
+    const std::size_t j = stack_of_[m];
+    predictors_[m]->begin(raw_[j], valid_[j], n, outputs[m], tallies[m], nullptr, from == m ? nullptr : &shared);
   }
   for (Eigen::Index first = 0; first < n; first += BlockPredictor::kChunk) {
     const Eigen::Index rows = std::min(BlockPredictor::kChunk, n - first);

@@ -61,8 +61,10 @@ std::pair<AlignmentPlan, std::vector<std::int64_t>> members_alignment(const Alig
 /// One worker's readers, predictors and scratch windows for every member.
 class MemberWindow {
  public:
+  /// `limits`: whether each member forms its own confidence limits (a model set's members need
+  /// not: the set's limits come from the average).
   MemberWindow(const std::vector<PredictionMember>& members, const MemberSources& sources, const AlignmentPlan& alignment,
-               double level, double quantum);
+               double level, double quantum, bool limits = true);
   MemberWindow(const MemberWindow&) = delete;
   MemberWindow& operator=(const MemberWindow&) = delete;
 
@@ -83,9 +85,15 @@ class MemberWindow {
   std::vector<std::int64_t> missing_;
   std::vector<std::unique_ptr<Evaluator>> evaluators_;
   std::vector<std::unique_ptr<BlockPredictor>> predictors_;
+  /// Per member: an earlier member reading the same rasters whose domain checks it takes over
+  /// (models of a set fitted to one training table; BlockPredictor::can_share_checks), or itself.
+  std::vector<std::size_t> checks_from_;
   Eigen::ArrayXXd decoded_;                           ///< window x sources
   std::vector<std::vector<std::uint8_t>> source_valid_;
-  std::vector<Eigen::ArrayXXd> raw_;                  ///< per member: window x its covariates
+  /// Per member: its stack, the members reading the same rasters in the same order sharing one.
+  std::vector<std::size_t> stack_of_;
+  std::vector<std::size_t> stack_member_;             ///< per stack: its first member
+  std::vector<Eigen::ArrayXXd> raw_;                  ///< per stack: window x its covariates
   std::vector<std::vector<std::uint8_t>> valid_;
 };
 

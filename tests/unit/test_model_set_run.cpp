@@ -194,3 +194,63 @@ TEST_CASE("a model set of one model twice under a scenario is that model's scena
   CHECK(habcast::test::read_band(s.dir.file("twice/warm/change_class.tif")) ==
         habcast::test::read_band(s.dir.file("one/warm/change_class.tif")));
 }
+
+TEST_CASE("models of a set fitted to one training table share their checks and still flag as each alone",
+          "[modelset][run]") {
+  // a.toml and b.toml read t and p from the same table; b adds the interaction t:p, so it checks
+  // the pair's hull as well. The set checks the range, hull, NT2 and MESS once and each model's
+  // own pairs: every model's counts and the union must be those of the models run alone.
+  SetScene s;
+  habcast::test::write_text(s.dir.file("train.csv"), "t,p\n-1,-0.5\n2,2\n0,1\n1,0\n-0.5,1.5\n1.5,-0.8\n0.2,0.3\n");
+  habcast::test::write_text(s.dir.file("a2.toml"),
+                            model("[\"(Intercept)\", \"t\", \"p\"]", "[0.3, 0.8, -0.2]",
+                                  "[[0.04, 0.01, 0.0], [0.01, 0.02, 0.0], [0.0, 0.0, 0.03]]", "aic = 100.0\n"));
+  habcast::test::write_text(s.dir.file("b2.toml"),
+                            model("[\"(Intercept)\", \"t\", \"p\", \"t:p\"]", "[0.1, 0.7, -0.5, 0.3]",
+                                  "[[0.05, 0.0, 0.01, 0.0], [0.0, 0.03, 0.0, 0.0], [0.01, 0.0, 0.02, 0.0], "
+                                  "[0.0, 0.0, 0.0, 0.01]]",
+                                  "aic = 100.5\n"));
+  auto run_all_checks = [&](std::vector<std::string> args) {
+    args.insert(args.begin(), "predict");
+    args.insert(args.end(), {"-q"});
+    std::string out, err;
+    const int code = habcast::test::run_cli(args, &out, &err);
+    INFO(err);
+    REQUIRE(code == 0);
+  };
+  run_all_checks({s.dir.file("a2.toml"), "-o", s.dir.file("a")});
+  run_all_checks({s.dir.file("b2.toml"), "-o", s.dir.file("b")});
+  // Both orders: the first model of a set makes the shared checks, the others take them over.
+  run_all_checks({s.dir.file("a2.toml"), s.dir.file("b2.toml"), "-o", s.dir.file("ab"), "--threads", "2"});
+  run_all_checks({s.dir.file("b2.toml"), s.dir.file("a2.toml"), "-o", s.dir.file("ba"), "--threads", "2"});
+  const auto flags_a = habcast::test::read_band(s.dir.file("a/extrapolation.tif"));
+  const auto flags_b = habcast::test::read_band(s.dir.file("b/extrapolation.tif"));
+  int pair_flagged = 0;
+  for (std::size_t i = 0; i < flags_b.size(); ++i)
+    pair_flagged += (static_cast<int>(flags_b[i]) & 16) != 0 && flags_b[i] != 255 ? 1 : 0;
+  CHECK(pair_flagged > 0);  // the scene exercises the pair check that only b makes
+  for (const std::string order : {"ab", "ba"}) {
+    INFO("set " << order);
+    const auto flags = habcast::test::read_band(s.dir.file(order + "/extrapolation.tif"));
+    for (std::size_t i = 0; i < flags.size(); ++i) {
+      INFO("pixel " << i);
+      CHECK(flags[i] == static_cast<double>(static_cast<int>(flags_a[i]) | static_cast<int>(flags_b[i])));
+    }
+    const auto set = nlohmann::json::parse(habcast::test::read_text(s.dir.file(order + "/report.json")));
+    for (std::size_t k = 0; k < 2; ++k) {
+      const std::string name(1, order[k]);
+      INFO("model " << name);
+      const auto alone =
+          nlohmann::json::parse(habcast::test::read_text(s.dir.file(name + "/report.json")))["extrapolation"];
+      const auto& mine = set["models"][k]["extrapolation"];
+      CHECK(mine["flagged_pixels"] == alone["flagged_pixels"]);
+      for (const char* cause : {"outside_range", "outside_hull", "unseen_level", "novel_combination", "outside_pair_hull"})
+        CHECK(mine["causes"][cause]["pixels"] == alone["causes"][cause]["pixels"]);
+      for (const char* c : {"t", "p"}) {
+        CHECK(mine["covariates"][c]["below_pixels"] == alone["covariates"][c]["below_pixels"]);
+        CHECK(mine["covariates"][c]["above_pixels"] == alone["covariates"][c]["above_pixels"]);
+      }
+      CHECK((mine["causes"]["outside_pair_hull"]["pixels"].get<long>() > 0) == (name == "b"));
+    }
+  }
+}

@@ -196,6 +196,37 @@ void NoveltyModel::check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const st
   out.nt1.assign(n, kFloatNodata);
   out.nt2.assign(n, kFloatNodata);
   out.least_similar.assign(n, flag::nodata);
+  check_pixels(raw, rows, valid, flags, out, tally, true);
+}
+
+void NoveltyModel::check_pairs(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid,
+                               std::uint8_t* flags, NoveltyBlock& out, DomainTally& tally) const {
+  if (!pairs_.empty()) check_pixels(raw, rows, valid, flags, out, tally, false);
+}
+
+bool NoveltyModel::same_joint_checks(const NoveltyModel& other) const {
+  const NoveltyOptions& a = options_;
+  const NoveltyOptions& b = other.options_;
+  if (a.mess != b.mess || a.nt2 != b.nt2 || a.hull != b.hull || a.pairs != b.pairs ||
+      a.nt2_threshold != b.nt2_threshold || a.hull_tolerance != b.hull_tolerance || a.hull_max_dim != b.hull_max_dim)
+    return false;
+  if (covariates_ != other.covariates_ || active() != other.active()) return false;
+  for (const int c : covariates_) {
+    const Covariate& x = spec_.covariates[static_cast<std::size_t>(c)];
+    const Covariate& y = other.spec_.covariates[static_cast<std::size_t>(c)];
+    if (x.name != y.name || x.transform != y.transform || x.center != y.center || x.scale != y.scale) return false;
+  }
+  if (!active()) return true;
+  for (std::size_t j = 0; j < sorted_.size(); ++j)
+    if (sorted_[j].values() != other.sorted_[j].values()) return false;
+  // The frame, NT2's denominator and the hull are built from these points by the same code.
+  return complete_points_.rows() == other.complete_points_.rows() &&
+         complete_points_.cols() == other.complete_points_.cols() && complete_points_ == other.complete_points_;
+}
+
+void NoveltyModel::check_pixels(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid,
+                                std::uint8_t* flags, NoveltyBlock& out, DomainTally& tally, bool joint) const {
+  const auto n = static_cast<std::size_t>(rows);
   if (!active()) return;
   const std::size_t d = covariates_.size();
   out.z.resize(d);
@@ -223,7 +254,7 @@ void NoveltyModel::check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const st
     if (!finite) continue;  // outside a transform's domain: no prediction, nothing to compare
     const bool in_range = (flags[i] & flag::outside_range) == 0;
 
-    if (options_.mess) {
+    if (joint && options_.mess) {
       double mess = std::numeric_limits<double>::infinity();
       double nt1 = 0.0;
       std::size_t least_similar = 0;
@@ -245,7 +276,7 @@ void NoveltyModel::check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const st
       }
     }
     double off_plane = 0.0;
-    if (options_.nt2) {
+    if (joint && options_.nt2) {
       off_plane = frame_->whiten(out.z.data(), out.y.data());
       double r2 = 0.0;
       for (int j = 0; j < frame_->rank; ++j) r2 += out.y[static_cast<std::size_t>(j)] * out.y[static_cast<std::size_t>(j)];
@@ -260,7 +291,7 @@ void NoveltyModel::check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const st
       }
     }
     if (!in_range) continue;
-    if (hull_) {
+    if (joint && hull_) {
       // NT2 has just whitened z in the hull's own frame (checked equal when built): reuse it.
       const bool inside = hull_shares_nt2_frame_ ? hull_->contains_whitened(out.y.data(), off_plane, hull_start)
                                                  : hull_->contains(out.z.data(), out.y.data(), hull_start);

@@ -79,7 +79,20 @@ class NoveltyModel {
   void check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid, std::uint8_t* flags,
              NoveltyBlock& out, DomainTally& tally) const;
 
+  /// True when `other`, given the same raw columns and the same range bits, gives the same MESS,
+  /// NT1, NT2 and full-hull results as this model: same options, the same continuous covariates
+  /// read the same way (transform, centre, scale) and the same training values. Their pair hulls
+  /// may differ (models of a set that differ by an interaction term).
+  [[nodiscard]] bool same_joint_checks(const NoveltyModel& other) const;
+  /// check() for a block whose MESS, NT1, NT2 and full-hull results (`out`'s bands, bits 2 and 8,
+  /// and their counts in `tally`) were copied from a model with the same joint checks: adds this
+  /// model's own pair-hull bits and counts only.
+  void check_pairs(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid, std::uint8_t* flags,
+                   NoveltyBlock& out, DomainTally& tally) const;
+
  private:
+  void check_pixels(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid, std::uint8_t* flags,
+                    NoveltyBlock& out, DomainTally& tally, bool joint) const;
   void build_univariate(const ModelSpec& spec, const TrainingSamples& samples);
   void build_joint(const ModelSpec& spec, const TrainingSamples& samples);
   void build_pairs(const ModelSpec& spec, const TermPlan& plan, const TrainingSamples& samples);

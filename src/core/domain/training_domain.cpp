@@ -72,6 +72,21 @@ TrainingDomain::TrainingDomain(const ModelSpec& spec, const TrainingSamples& sam
   }
 }
 
+bool TrainingDomain::same_checks(const TrainingDomain& other) const {
+  if (spec_.covariates.size() != other.spec_.covariates.size() || samples_ != other.samples_ ||
+      flag_limits_ != other.flag_limits_ || seen_ != other.seen_ || offset_only_ != other.offset_only_)
+    return false;
+  for (std::size_t c = 0; c < spec_.covariates.size(); ++c) {
+    const Covariate& x = spec_.covariates[c];
+    const Covariate& y = other.spec_.covariates[c];
+    const CovariateRange& r = ranges_[c];
+    const CovariateRange& q = other.ranges_[c];
+    if (x.name != y.name || x.categorical != y.categorical || r.min != q.min || r.max != q.max || r.samples != q.samples)
+      return false;
+  }
+  return true;
+}
+
 HABCAST_PIXEL_LOOPS void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows,
                                               const std::uint8_t* valid, std::uint8_t* flags,
                                               DomainTally& tally) const {

@@ -59,6 +59,11 @@ class TrainingDomain {
   void flag(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid, std::uint8_t* flags,
             DomainTally& tally) const;
 
+  /// True when `other`, given the same raw columns, sets the same bits and counts as this domain:
+  /// the same covariates (names, continuous or categorical), training ranges, flag limits and
+  /// levels seen. Models of a set fitted to one training table with the same covariates agree.
+  [[nodiscard]] bool same_checks(const TrainingDomain& other) const;
+
   /// Adds the checked, flagged and per-cause pixel counts of a finished block of flags.
   static void count_causes(Eigen::Index rows, const std::uint8_t* valid, const std::uint8_t* flags, DomainTally& tally);
 

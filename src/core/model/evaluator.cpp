@@ -63,6 +63,7 @@ void Evaluator::response(Eigen::Index rows, Prediction& out) const {
   round_all(out.mu, quantum_);
   out.se_mu.array() *= out.se_eta.array();
   round_all(out.se_mu, quantum_);
+  if (!limits_) return;
   // Limits on the link scale, then back-transformed in place.
   out.lower = out.eta - z_ * out.se_eta;
   out.upper = out.eta + z_ * out.se_eta;

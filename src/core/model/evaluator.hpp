@@ -28,6 +28,10 @@ class Evaluator {
   [[nodiscard]] double z() const { return z_; }
   [[nodiscard]] double level() const { return level_; }
   [[nodiscard]] Link link() const { return link_; }
+  /// Whether evaluate() forms the confidence limits (on unless turned off): a model of a set
+  /// needs only its mean and standard error, the set's limits come from the average.
+  [[nodiscard]] bool limits() const { return limits_; }
+  void set_limits(bool on) { limits_ = on; }
 
   /// Evaluates the first `rows` rows of X (and of `offset`, the offset term's column). Standard
   /// errors and limits are computed only when the model has a covariance matrix.
@@ -39,7 +43,8 @@ class Evaluator {
   /// sqrt(x' V x) per row, in one pass over X (linear_quadratic_kernel.hpp).
   void linear_predictor(const Eigen::MatrixXd& X, Eigen::Index rows, const Eigen::VectorXd& offset,
                         Prediction& out) const;
-  /// out.mu, and with a covariance out.se_mu, out.lower and out.upper, from out.eta (and out.se_eta).
+  /// out.mu, and with a covariance out.se_mu, out.lower and out.upper (unless limits are off),
+  /// from out.eta (and out.se_eta).
   void response(Eigen::Index rows, Prediction& out) const;
 
  private:
@@ -50,6 +55,7 @@ class Evaluator {
   double level_;
   double z_;
   double quantum_;
+  bool limits_ = true;
   std::vector<double> packed_V_;  ///< V's upper triangle for linear_quadratic()
 };
 

@@ -66,22 +66,63 @@ void BlockPredictor::run(const Eigen::ArrayXXd& raw, const std::vector<std::uint
   end();
 }
 
+bool BlockPredictor::can_share_checks(const BlockPredictor& other) const {
+  if (!domain_ || !other.domain_ || !domain_->same_checks(*other.domain_)) return false;
+  if (!novelty_ || !other.novelty_) return !novelty_ && !other.novelty_;
+  return novelty_->same_joint_checks(*other.novelty_);
+}
+
+namespace {
+
+void add_counts(std::vector<std::int64_t>& to, const std::vector<std::int64_t>& from) {
+  for (std::size_t c = 0; c < from.size(); ++c) to[c] += from[c];
+}
+
+/// Every check but the pair hulls, taken over from `shared` (see BlockPredictor::begin).
+void take_over_checks(const SharedChecks& shared, std::size_t n, BlockOutputs& out, DomainTally& tally) {
+  const std::vector<std::uint8_t>& flags = shared.outputs->flags;
+  for (std::size_t i = 0; i < n; ++i)
+    out.flags[i] = flags[i] == flag::nodata ? flag::nodata : static_cast<std::uint8_t>(flags[i] & ~flag::outside_pair_hull);
+  const DomainTally& from = *shared.tally;
+  add_counts(tally.below, from.below);
+  add_counts(tally.above, from.above);
+  add_counts(tally.unseen, from.unseen);
+  add_counts(tally.least_similar, from.least_similar);
+  for (std::size_t c = 0; c < from.unseen_codes.size(); ++c)
+    for (const auto& [code, count] : from.unseen_codes[c]) tally.unseen_codes[c][code] += count;
+  tally.mess_negative += from.mess_negative;
+  tally.nt2_above += from.nt2_above;
+  const NoveltyBlock& novelty = shared.outputs->novelty;
+  out.novelty.mess = novelty.mess;
+  out.novelty.nt1 = novelty.nt1;
+  out.novelty.nt2 = novelty.nt2;
+  out.novelty.least_similar = novelty.least_similar;
+}
+
+}  // namespace
+
 void BlockPredictor::begin(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows,
-                           BlockOutputs& out, PredictionTally& tally, const UnitPass* units) {
+                           BlockOutputs& out, PredictionTally& tally, const UnitPass* units, const SharedChecks* shared) {
   const auto n = static_cast<std::size_t>(rows);
   out.suitability.assign(n, kFloatNodata);
   const bool with_se = evaluator_.has_covariance();
+  const bool with_limits = with_se && evaluator_.limits();
   out.se.assign(with_se ? n : 0, kFloatNodata);
-  out.lower.assign(with_se ? n : 0, kFloatNodata);
-  out.upper.assign(with_se ? n : 0, kFloatNodata);
+  out.lower.assign(with_limits ? n : 0, kFloatNodata);
+  out.upper.assign(with_limits ? n : 0, kFloatNodata);
   out.flags.assign(domain_ ? n : 0, flag::nodata);
 
   predict_valid_.assign(valid.begin(), valid.begin() + static_cast<std::ptrdiff_t>(n));
   tally.pixels += rows;
   for (std::size_t i = 0; i < n; ++i) tally.missing_input += valid[i] ? 0 : 1;
   if (domain_) {
-    domain_->flag(raw, rows, valid.data(), out.flags.data(), tally.domain);
-    if (novelty_) novelty_->check(raw, rows, valid.data(), out.flags.data(), out.novelty, tally.domain);
+    if (shared) {
+      take_over_checks(*shared, n, out, tally.domain);
+      if (novelty_) novelty_->check_pairs(raw, rows, valid.data(), out.flags.data(), out.novelty, tally.domain);
+    } else {
+      domain_->flag(raw, rows, valid.data(), out.flags.data(), tally.domain);
+      if (novelty_) novelty_->check(raw, rows, valid.data(), out.flags.data(), out.novelty, tally.domain);
+    }
     TrainingDomain::count_causes(rows, valid.data(), out.flags.data(), tally.domain);
   }
 
@@ -102,6 +143,7 @@ void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& 
   evaluator_.evaluate(X_, rows, offset_, prediction_);
 
   const bool with_se = evaluator_.has_covariance();
+  const bool with_limits = with_se && evaluator_.limits();
   for (Eigen::Index i = 0; i < rows; ++i) {
     if (!ok[i]) continue;
     const auto o = static_cast<std::size_t>(first + i);
@@ -121,8 +163,8 @@ void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& 
     }
     ++tally.predicted;
     tally.sum_response += mu;
-    if (with_se) {
-      out.se[o] = to_output(prediction_.se_mu[i]);
+    if (with_se) out.se[o] = to_output(prediction_.se_mu[i]);
+    if (with_limits) {
       out.lower[o] = to_output_off_nodata(prediction_.lower[i], tally.moved_off_nodata);
       out.upper[o] = to_output_off_nodata(prediction_.upper[i], tally.moved_off_nodata);
       if (certainty_.applies(prediction_.lower[i], prediction_.upper[i])) ++tally.low_certainty;

@@ -43,10 +43,16 @@ struct PredictionTally {
 struct BlockOutputs {
   std::vector<float> suitability;
   std::vector<float> se;      ///< response-scale standard error
-  std::vector<float> lower;
+  std::vector<float> lower;   ///< empty when the evaluator forms no limits (Evaluator::limits)
   std::vector<float> upper;
   std::vector<std::uint8_t> flags;
   NoveltyBlock novelty;  ///< MESS, NT1, NT2 and the covariate with the lowest similarity (empty without a NoveltyModel)
+};
+
+/// Domain checks another predictor has made on the same raw columns of the same block.
+struct SharedChecks {
+  const BlockOutputs* outputs = nullptr;  ///< its flags and novelty bands
+  const DomainTally* tally = nullptr;     ///< its counts of this block only
 };
 
 class BlockPredictor {
@@ -68,8 +74,15 @@ class BlockPredictor {
   /// a combiner (change against a baseline, model average) can read each chunk's design matrix and
   /// prediction while they are still in cache: `begin`, then `chunk` for first = 0, kChunk, ...,
   /// then `end`. `raw` must outlive the steps.
+  /// With `shared` (from a predictor for which can_share_checks() holds), its range, level, hull
+  /// and NT2 bits, novelty bands and counts are taken over, and only this model's pair hulls are
+  /// checked: the result is the same as checking everything again.
   void begin(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows, BlockOutputs& out,
-             PredictionTally& tally, const UnitPass* units = nullptr);
+             PredictionTally& tally, const UnitPass* units = nullptr, const SharedChecks* shared = nullptr);
+  /// True when `other`, given the same raw columns, flags them as this predictor does apart from
+  /// the pair hulls: both check against training domains and novelty models that agree
+  /// (TrainingDomain::same_checks, NoveltyModel::same_joint_checks).
+  [[nodiscard]] bool can_share_checks(const BlockPredictor& other) const;
   void chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally);
   void end() {
     raw_ = nullptr;

@@ -34,8 +34,12 @@ AveragedValue average_models(const double* weights, const double* mu, const doub
     const double d = mu[i] - a.mean;
     within += weights[i] * se[i] * se[i];
     between += weights[i] * d * d;
-    form_2002 += weights[i] * std::sqrt(se[i] * se[i] + d * d);
   }
+  if (form == UnconditionalForm::form_2002)
+    for (std::size_t i = 0; i < k; ++i) {
+      const double d = mu[i] - a.mean;
+      form_2002 += weights[i] * std::sqrt(se[i] * se[i] + d * d);
+    }
   a.se = form == UnconditionalForm::revised ? std::sqrt(within + between) : form_2002;
   a.between_share = within + between > 0.0 ? between / (within + between) : 0.0;
   return a;
