@@ -5,6 +5,7 @@
 #include <limits>
 #include <stdexcept>
 
+#include "core/base/pixel_loops.hpp"
 #include "core/domain/extrapolation_flags.hpp"
 #include "core/model/float_nodata.hpp"
 #include "core/model/link.hpp"
@@ -43,6 +44,57 @@ AveragedValue average_models(const double* weights, const double* mu, const doub
   a.se = form == UnconditionalForm::revised ? std::sqrt(within + between) : form_2002;
   a.between_share = within + between > 0.0 ? between / (within + between) : 0.0;
   return a;
+}
+
+HABCAST_PIXEL_LOOPS void average_models_block(const double* weights, const double* const* mu, const double* const* se,
+                                              std::size_t k, std::size_t n, UnconditionalForm form, double* mean,
+                                              double* se_out, double* share, double* scratch) {
+  double* within = scratch;
+  double* between = scratch + n;
+  // The operations of average_models(), pixel by pixel, in its order.
+  for (std::size_t p = 0; p < n; ++p) mean[p] = 0.0;  // the offset from the first model
+  for (std::size_t i = 1; i < k; ++i) {
+    const double w = weights[i];
+    const double* m = mu[i];
+    const double* m0 = mu[0];
+    for (std::size_t p = 0; p < n; ++p) mean[p] += w * (m[p] - m0[p]);
+  }
+  for (std::size_t p = 0; p < n; ++p) {
+    mean[p] = mu[0][p] + mean[p];
+    within[p] = 0.0;
+    between[p] = 0.0;
+  }
+  for (std::size_t i = 0; i < k; ++i) {
+    const double w = weights[i];
+    const double* m = mu[i];
+    const double* s = se[i];
+    for (std::size_t p = 0; p < n; ++p) {
+      const double d = m[p] - mean[p];
+      within[p] += w * s[p] * s[p];
+      between[p] += w * d * d;
+    }
+  }
+  if (form == UnconditionalForm::revised) {
+    for (std::size_t p = 0; p < n; ++p) se_out[p] = std::sqrt(within[p] + between[p]);
+  } else {
+    for (std::size_t p = 0; p < n; ++p) se_out[p] = 0.0;
+    for (std::size_t i = 0; i < k; ++i) {
+      const double w = weights[i];
+      const double* m = mu[i];
+      const double* s = se[i];
+      for (std::size_t p = 0; p < n; ++p) {
+        const double d = m[p] - mean[p];
+        se_out[p] += w * std::sqrt(s[p] * s[p] + d * d);
+      }
+    }
+  }
+  for (std::size_t p = 0; p < n; ++p) {
+    const double total = within[p] + between[p];
+    // Both branches are computed and one is kept, so the loop has no control flow; a 0/0 in
+    // the branch not kept is harmless.
+    const double ratio = between[p] / total;
+    share[p] = total > 0.0 ? ratio : 0.0;
+  }
 }
 
 namespace {
@@ -115,8 +167,20 @@ void AverageCombiner::begin(Eigen::Index rows, AverageOutputs& out) const {
 void AverageCombiner::chunk(Eigen::Index first, Eigen::Index rows, const std::vector<const BlockPredictor*>& members,
                             const BlockOutputs* outputs, AverageOutputs& out, AverageTally& tally) {
   const std::size_t k = members.size();
+  const auto n = static_cast<std::size_t>(rows);
   mu_.resize(k);
   se_.resize(k);
+  for (std::size_t m = 0; m < k; ++m) {
+    mu_[m] = members[m]->prediction().mu.data();
+    se_[m] = members[m]->prediction().se_mu.data();
+  }
+  mean_.resize(n);
+  sd_.resize(n);
+  share_.resize(n);
+  scratch_.resize(2 * n);
+  // Every pixel is averaged, those some model left without a value too; only the others are kept.
+  average_models_block(weights_.data(), mu_.data(), se_.data(), k, n, form_, mean_.data(), sd_.data(), share_.data(),
+                       scratch_.data());
   tally.pixels += rows;
   for (Eigen::Index i = 0; i < rows; ++i) {
     const auto o = static_cast<std::size_t>(first + i);
@@ -136,30 +200,23 @@ void AverageCombiner::chunk(Eigen::Index first, Eigen::Index rows, const std::ve
       }
     }
     bool all = true;
-    for (std::size_t m = 0; m < k && all; ++m) {
-      if (!members[m]->predicted(first)[i]) {
-        all = false;
-        break;
-      }
-      const Prediction& p = members[m]->prediction();
-      mu_[m] = p.mu[i];
-      se_[m] = p.se_mu[i];
-    }
+    for (std::size_t m = 0; m < k && all; ++m) all = members[m]->predicted(first)[i] != 0;
     if (!all) continue;
-    const AveragedValue a = average_models(weights_.data(), mu_.data(), se_.data(), k, form_);
+    const auto p = static_cast<std::size_t>(i);
+    const double mean = mean_[p], se = sd_[p], between_share = share_[p];
     double lower = 0.0, upper = 0.0;
-    averaged_limits(family_, a.mean, a.se, z_, lower, upper);
-    out.suitability[o] = to_float(a.mean);
-    out.se[o] = to_float(a.se);
+    averaged_limits(family_, mean, se, z_, lower, upper);
+    out.suitability[o] = to_float(mean);
+    out.se[o] = to_float(se);
     out.lower[o] = to_float(lower);
     out.upper[o] = to_float(upper);
-    out.between_share[o] = static_cast<float>(a.between_share);
-    if (tally.predicted == 0) tally.min_response = tally.max_response = a.mean;
-    tally.min_response = std::min(tally.min_response, a.mean);
-    tally.max_response = std::max(tally.max_response, a.mean);
+    out.between_share[o] = static_cast<float>(between_share);
+    if (tally.predicted == 0) tally.min_response = tally.max_response = mean;
+    tally.min_response = std::min(tally.min_response, mean);
+    tally.max_response = std::max(tally.max_response, mean);
     ++tally.predicted;
-    tally.sum_response += a.mean;
-    tally.disagree += a.between_share > 0.5 ? 1 : 0;
+    tally.sum_response += mean;
+    tally.disagree += between_share > 0.5 ? 1 : 0;
     tally.low_certainty += certainty_.applies(lower, upper) ? 1 : 0;
   }
 }

@@ -34,6 +34,14 @@ struct AveragedValue {
 AveragedValue average_models(const double* weights, const double* mu, const double* se, std::size_t k,
                              UnconditionalForm form);
 
+/// average_models() for `n` pixels at once, model by model over contiguous arrays so that the
+/// compiler vectorises it: `mu[i]` and `se[i]` point at model i's n values; `mean`, `se_out` and
+/// `share` receive n values each; `scratch` holds 2n doubles. Each pixel gets the same operations
+/// in the same order as average_models(), so the results are the same bit for bit.
+void average_models_block(const double* weights, const double* const* mu, const double* const* se, std::size_t k,
+                          std::size_t n, UnconditionalForm form, double* mean, double* se_out, double* share,
+                          double* scratch);
+
 /// Limits of an averaged prediction, formed on the scale of the family's canonical link (logit
 /// for binomial, log for Poisson, identity for gaussian) from the unconditional se by the delta
 /// method: eta = g(mean), se_eta = se / (d g^-1 / d eta), limits g^-1(eta -/+ z se_eta). They
@@ -84,7 +92,8 @@ class AverageCombiner {
   UnconditionalForm form_;
   double z_;
   bool with_flags_;
-  std::vector<double> mu_, se_;
+  std::vector<const double*> mu_, se_;
+  std::vector<double> mean_, sd_, share_, scratch_;
 };
 
 }  // namespace habcast
