@@ -64,11 +64,10 @@ void Evaluator::response(Eigen::Index rows, Prediction& out) const {
   out.se_mu.array() *= out.se_eta.array();
   round_all(out.se_mu, quantum_);
   if (!limits_) return;
-  // Limits on the link scale, then back-transformed in place.
-  out.lower = out.eta - z_ * out.se_eta;
-  out.upper = out.eta + z_ * out.se_eta;
-  link_inverse_all(link_, out.lower.data(), out.lower.data(), rows);
-  link_inverse_all(link_, out.upper.data(), out.upper.data(), rows);
+  // Limits on the link scale, taken to the response scale.
+  out.lower.resize(rows);
+  out.upper.resize(rows);
+  link_inverse_interval(link_, out.eta.data(), out.se_eta.data(), z_, out.lower.data(), out.upper.data(), rows);
   round_all(out.lower, quantum_);
   round_all(out.upper, quantum_);
 }

@@ -2,22 +2,28 @@
 
 #include <cmath>
 
+#include "core/base/pixel_loops.hpp"
 #include "core/numeric/normal_distribution.hpp"
+#include "core/numeric/portable_exp.hpp"
 
 namespace habcast {
 
 namespace {
 
-// Logistic function without overflow: exp() only ever sees a non-positive argument.
-double logistic(double eta) {
-  if (eta >= 0.0) return 1.0 / (1.0 + std::exp(-eta));
-  const double t = std::exp(eta);
-  return t / (1.0 + t);
+// Logistic function without overflow: exp() only ever sees a non-positive argument,
+// t = exp(-|eta|); 1 / (1 + t) for eta >= 0, t / (1 + t) below. Both are computed and one is kept,
+// so that a loop of calls has no branch and vectorises.
+inline double logistic(double eta) {
+  const double t = portable_exp(-std::fabs(eta));
+  const double d = 1.0 + t;
+  const double above = 1.0 / d;
+  const double below = t / d;
+  return eta >= 0.0 ? above : below;
 }
 
 // mu (1 - mu) for the logistic, computed from exp(-|eta|) so it does not cancel to 0 in the tails.
-double logistic_derivative(double eta) {
-  const double t = std::exp(-std::fabs(eta));
+inline double logistic_derivative(double eta) {
+  const double t = portable_exp(-std::fabs(eta));
   const double d = 1.0 + t;
   return t / (d * d);
 }
@@ -39,7 +45,7 @@ double link_inverse(Link link, double eta) {
     case Link::logit: return logistic(eta);
     case Link::probit: return normal_cdf(eta);
     case Link::cloglog: return complementary_log_log_inverse(eta);
-    case Link::log: return std::exp(eta);
+    case Link::log: return portable_exp(eta);
     case Link::identity: return eta;
   }
   return eta;
@@ -50,22 +56,29 @@ double link_inverse_derivative(Link link, double eta) {
     case Link::logit: return logistic_derivative(eta);
     case Link::probit: return normal_pdf(eta);
     case Link::cloglog: return complementary_log_log_derivative(eta);
-    case Link::log: return std::exp(eta);
+    case Link::log: return portable_exp(eta);
     case Link::identity: return 1.0;
   }
   return 1.0;
 }
 
-void link_inverse_with_derivative(Link link, const double* eta, double* mu, double* derivative, long n) {
+HABCAST_PIXEL_LOOPS void link_inverse_with_derivative(Link link, const double* eta, double* mu, double* derivative,
+                                                     long n) {
   if (link == Link::logit) {
     // The same operations as logistic() and logistic_derivative(): t = exp(-|eta|) is what each
     // of them computes, so the results are identical to calling them one by one.
     for (long i = 0; i < n; ++i) {
-      const double t = std::exp(-std::fabs(eta[i]));
+      const double t = portable_exp(-std::fabs(eta[i]));
       const double d = 1.0 + t;
-      mu[i] = eta[i] >= 0.0 ? 1.0 / d : t / d;
+      const double above = 1.0 / d;
+      const double below = t / d;
+      mu[i] = eta[i] >= 0.0 ? above : below;
       derivative[i] = t / (d * d);
     }
+    return;
+  }
+  if (link == Link::log) {
+    for (long i = 0; i < n; ++i) mu[i] = derivative[i] = portable_exp(eta[i]);
     return;
   }
   for (long i = 0; i < n; ++i) {
@@ -74,12 +87,41 @@ void link_inverse_with_derivative(Link link, const double* eta, double* mu, doub
   }
 }
 
-void link_inverse_all(Link link, const double* eta, double* mu, long n) {
+HABCAST_PIXEL_LOOPS void link_inverse_all(Link link, const double* eta, double* mu, long n) {
   if (link == Link::logit) {
     for (long i = 0; i < n; ++i) mu[i] = logistic(eta[i]);
     return;
   }
+  if (link == Link::log) {
+    for (long i = 0; i < n; ++i) mu[i] = portable_exp(eta[i]);
+    return;
+  }
   for (long i = 0; i < n; ++i) mu[i] = link_inverse(link, eta[i]);
+}
+
+HABCAST_PIXEL_LOOPS void link_inverse_interval(Link link, const double* __restrict eta, const double* __restrict se,
+                                              double z, double* __restrict lower, double* __restrict upper, long n) {
+  if (link == Link::logit) {
+    for (long i = 0; i < n; ++i) {
+      const double w = z * se[i];
+      lower[i] = logistic(eta[i] - w);
+      upper[i] = logistic(eta[i] + w);
+    }
+    return;
+  }
+  if (link == Link::log) {
+    for (long i = 0; i < n; ++i) {
+      const double w = z * se[i];
+      lower[i] = portable_exp(eta[i] - w);
+      upper[i] = portable_exp(eta[i] + w);
+    }
+    return;
+  }
+  for (long i = 0; i < n; ++i) {
+    const double w = z * se[i];
+    lower[i] = link_inverse(link, eta[i] - w);
+    upper[i] = link_inverse(link, eta[i] + w);
+  }
 }
 
 double link_function(Link link, double mu) {

@@ -1,7 +1,9 @@
 #pragma once
 // Link functions of the supported GLM families: the inverse link (linear predictor -> response
 // scale) and its derivative, written to be finite and exact-as-possible for any eta, including the
-// tails where the naive formulas overflow, underflow to NaN or cancel.
+// tails where the naive formulas overflow, underflow to NaN or cancel. The logit and log links
+// take exp() from core/numeric/portable_exp.hpp, in the scalar functions and the loops alike, so
+// a value is the same whichever of them computes it, and the loops vectorise.
 #include "core/model/model_spec.hpp"
 
 namespace habcast {
@@ -19,8 +21,14 @@ double link_inverse_derivative(Link link, double eta);
 /// one exp() per value instead of two.
 void link_inverse_with_derivative(Link link, const double* eta, double* mu, double* derivative, long n);
 
-/// mu[i] = link_inverse(eta[i]) over n values, the link chosen once.
+/// mu[i] = link_inverse(eta[i]) over n values, the link chosen once. `mu` may be `eta`.
 void link_inverse_all(Link link, const double* eta, double* mu, long n);
+
+/// The limits of an interval on the link scale taken to the response scale over n values:
+/// lower[i] = link_inverse(eta[i] - z se[i]), upper[i] = link_inverse(eta[i] + z se[i]). The four
+/// arrays must not overlap.
+void link_inverse_interval(Link link, const double* eta, const double* se, double z, double* lower, double* upper,
+                           long n);
 
 /// g(mu): the link itself, for fitting and for tests. mu must lie in the link's domain.
 double link_function(Link link, double mu);

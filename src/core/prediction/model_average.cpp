@@ -117,23 +117,31 @@ float to_float(double v) {
 }  // namespace
 
 void averaged_limits(Family family, double mean, double se, double z, double& lower, double& upper) {
-  if (!(se > 0.0)) {
-    lower = upper = mean;
-    return;
-  }
+  double scratch[3];
+  averaged_limits_block(family, &mean, &se, z, &lower, &upper, 1, scratch);
+}
+
+void averaged_limits_block(Family family, const double* mean, const double* se, double z, double* lower, double* upper,
+                           std::size_t n, double* scratch) {
   const Link link = canonical_link(family);
-  const double eta = link_function(link, mean);
-  const double d = link_inverse_derivative(link, eta);
-  if (!(d > 0.0) || !std::isfinite(eta)) {
-    // The mean sits on the edge of the range (a probability of exactly 0 or 1): no link-scale
-    // width can be formed, so the limits span the whole range.
-    lower = link_inverse(link, -std::numeric_limits<double>::infinity());
-    upper = link_inverse(link, std::numeric_limits<double>::infinity());
-    return;
+  double* eta = scratch;
+  double* slope = scratch + n;
+  double* se_eta = scratch + 2 * n;
+  const auto count = static_cast<long>(n);
+  for (std::size_t p = 0; p < n; ++p) eta[p] = link_function(link, mean[p]);
+  link_inverse_with_derivative(link, eta, lower, slope, count);  // `lower` only as room for g^-1(eta)
+  for (std::size_t p = 0; p < n; ++p) se_eta[p] = se[p] / slope[p];
+  link_inverse_interval(link, eta, se_eta, z, lower, upper, count);
+  for (std::size_t p = 0; p < n; ++p) {
+    if (!(se[p] > 0.0)) {
+      lower[p] = upper[p] = mean[p];
+    } else if (!(slope[p] > 0.0) || !std::isfinite(eta[p])) {
+      // The mean sits on the edge of the range (a probability of exactly 0 or 1): no link-scale
+      // width can be formed, so the limits span the whole range.
+      lower[p] = link_inverse(link, -std::numeric_limits<double>::infinity());
+      upper[p] = link_inverse(link, std::numeric_limits<double>::infinity());
+    }
   }
-  const double se_eta = se / d;
-  lower = link_inverse(link, eta - z * se_eta);
-  upper = link_inverse(link, eta + z * se_eta);
 }
 
 void AverageTally::merge(const AverageTally& other) {
@@ -177,10 +185,13 @@ void AverageCombiner::chunk(Eigen::Index first, Eigen::Index rows, const std::ve
   mean_.resize(n);
   sd_.resize(n);
   share_.resize(n);
-  scratch_.resize(2 * n);
   // Every pixel is averaged, those some model left without a value too; only the others are kept.
+  lower_.resize(n);
+  upper_.resize(n);
+  scratch_.resize(3 * n);
   average_models_block(weights_.data(), mu_.data(), se_.data(), k, n, form_, mean_.data(), sd_.data(), share_.data(),
                        scratch_.data());
+  averaged_limits_block(family_, mean_.data(), sd_.data(), z_, lower_.data(), upper_.data(), n, scratch_.data());
   tally.pixels += rows;
   for (Eigen::Index i = 0; i < rows; ++i) {
     const auto o = static_cast<std::size_t>(first + i);
@@ -203,9 +214,7 @@ void AverageCombiner::chunk(Eigen::Index first, Eigen::Index rows, const std::ve
     for (std::size_t m = 0; m < k && all; ++m) all = members[m]->predicted(first)[i] != 0;
     if (!all) continue;
     const auto p = static_cast<std::size_t>(i);
-    const double mean = mean_[p], se = sd_[p], between_share = share_[p];
-    double lower = 0.0, upper = 0.0;
-    averaged_limits(family_, mean, se, z_, lower, upper);
+    const double mean = mean_[p], se = sd_[p], between_share = share_[p], lower = lower_[p], upper = upper_[p];
     out.suitability[o] = to_float(mean);
     out.se[o] = to_float(se);
     out.lower[o] = to_float(lower);

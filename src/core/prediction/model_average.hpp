@@ -48,6 +48,10 @@ void average_models_block(const double* weights, const double* const* mu, const 
 /// stay in the response's range (0..1, >= 0) whatever the models' own links, and for one model
 /// with that link they are exactly its own limits.
 void averaged_limits(Family family, double mean, double se, double z, double& lower, double& upper);
+/// averaged_limits() for n values; the link's steps run as loops over the values, so the
+/// compiler vectorises them (same operations per value, same results). `scratch` holds 3n doubles.
+void averaged_limits_block(Family family, const double* mean, const double* se, double z, double* lower, double* upper,
+                           std::size_t n, double* scratch);
 
 /// Outputs of one block of a model average.
 struct AverageOutputs {
@@ -93,7 +97,7 @@ class AverageCombiner {
   double z_;
   bool with_flags_;
   std::vector<const double*> mu_, se_;
-  std::vector<double> mean_, sd_, share_, scratch_;
+  std::vector<double> mean_, sd_, share_, lower_, upper_, scratch_;
 };
 
 }  // namespace habcast
