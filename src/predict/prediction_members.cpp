@@ -83,6 +83,19 @@ MemberWindow::MemberWindow(const std::vector<PredictionMember>& members, const M
     for (std::size_t e = 0; e < m && from == m; ++e)
       if (checks_from_[e] == e && stack_of_[e] == stack && predictors_[m]->can_share_checks(*predictors_[e])) from = e;
     checks_from_.push_back(from);
+    values_from_.push_back(m);
+    for (std::size_t e = 0; e < m && values_from_[m] == m; ++e)
+      if (values_from_[e] == e && stack_of_[e] == stack && predictors_[m]->can_share_values(*predictors_[e])) {
+        values_from_[m] = e;
+        predictors_[m]->take_values_from(predictors_[e].get());
+      }
+  }
+  // A stack that reads every source in source order is the decoded window itself: no copy.
+  for (const std::size_t first : stack_member_) {
+    const std::vector<std::size_t>& of = sources.of_member[first];
+    bool identity = of.size() == sources.sources.size();
+    for (std::size_t c = 0; c < of.size() && identity; ++c) identity = of[c] == c;
+    stack_is_decoded_.push_back(identity);
   }
   source_valid_.resize(sources.sources.size());
   raw_.resize(stack_member_.size());
@@ -103,10 +116,10 @@ void MemberWindow::run(const Window& window, std::vector<BlockOutputs>& outputs,
   tallies.clear();
   for (std::size_t j = 0; j < stack_member_.size(); ++j) {
     const std::vector<std::size_t>& of = sources_.of_member[stack_member_[j]];
-    raw_[j].resize(n, static_cast<Eigen::Index>(of.size()));
+    if (!stack_is_decoded_[j]) raw_[j].resize(n, static_cast<Eigen::Index>(of.size()));
     valid_[j].assign(un, 1);
     for (std::size_t c = 0; c < of.size(); ++c) {
-      raw_[j].col(static_cast<Eigen::Index>(c)) = decoded_.col(static_cast<Eigen::Index>(of[c]));
+      if (!stack_is_decoded_[j]) raw_[j].col(static_cast<Eigen::Index>(c)) = decoded_.col(static_cast<Eigen::Index>(of[c]));
       const std::vector<std::uint8_t>& sv = source_valid_[of[c]];
       for (std::size_t i = 0; i < un; ++i) valid_[j][i] &= sv[i];
     }
@@ -116,7 +129,8 @@ void MemberWindow::run(const Window& window, std::vector<BlockOutputs>& outputs,
     const std::size_t from = checks_from_[m];
     const SharedChecks shared{&outputs[from], &tallies[from].domain};
     const std::size_t j = stack_of_[m];
-    predictors_[m]->begin(raw_[j], valid_[j], n, outputs[m], tallies[m], nullptr, from == m ? nullptr : &shared);
+    predictors_[m]->begin(stack_is_decoded_[j] ? decoded_ : raw_[j], valid_[j], n, outputs[m], tallies[m], nullptr,
+                          from == m ? nullptr : &shared);
   }
   for (Eigen::Index first = 0; first < n; first += BlockPredictor::kChunk) {
     const Eigen::Index rows = std::min(BlockPredictor::kChunk, n - first);

@@ -88,12 +88,16 @@ class MemberWindow {
   /// Per member: an earlier member reading the same rasters whose domain checks it takes over
   /// (models of a set fitted to one training table; BlockPredictor::can_share_checks), or itself.
   std::vector<std::size_t> checks_from_;
+  /// Per member: an earlier member of its stack whose model values it reads (same covariates read
+  /// the same way; BlockPredictor::can_share_values), or itself.
+  std::vector<std::size_t> values_from_;
+  std::vector<bool> stack_is_decoded_;  ///< per stack: it reads every source in order (no copy)
   Eigen::ArrayXXd decoded_;                           ///< window x sources
   std::vector<std::vector<std::uint8_t>> source_valid_;
   /// Per member: its stack, the members reading the same rasters in the same order sharing one.
   std::vector<std::size_t> stack_of_;
   std::vector<std::size_t> stack_member_;             ///< per stack: its first member
-  std::vector<Eigen::ArrayXXd> raw_;                  ///< per stack: window x its covariates
+  std::vector<Eigen::ArrayXXd> raw_;                  ///< per stack (unless it is decoded_): window x its covariates
   std::vector<std::vector<std::uint8_t>> valid_;
 };
 

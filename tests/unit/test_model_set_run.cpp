@@ -220,6 +220,19 @@ TEST_CASE("models of a set fitted to one training table share their checks and s
   };
   run_all_checks({s.dir.file("a2.toml"), "-o", s.dir.file("a")});
   run_all_checks({s.dir.file("b2.toml"), "-o", s.dir.file("b")});
+  // c2 is a2 with t standardised: the same raster, other model values, so nothing is shared.
+  std::string c2 = model("[\"(Intercept)\", \"t\", \"p\"]", "[0.3, 1.6, -0.2]",
+                         "[[0.04, 0.02, 0.0], [0.02, 0.08, 0.0], [0.0, 0.0, 0.03]]", "aic = 100.0\n");
+  c2.replace(c2.find("raster = \"t.tif\"\n"), 17, "raster = \"t.tif\"\ncenter = 0.5\nscale = 2.0\n");
+  habcast::test::write_text(s.dir.file("c2.toml"), c2);
+  run_all_checks({s.dir.file("c2.toml"), "-o", s.dir.file("c")});
+  run_all_checks({s.dir.file("a2.toml"), s.dir.file("c2.toml"), "-o", s.dir.file("ac"), "--weights", "0.5,0.5"});
+  {
+    const auto mu_a = habcast::test::read_band(s.dir.file("a/suitability.tif"));
+    const auto mu_c = habcast::test::read_band(s.dir.file("c/suitability.tif"));
+    const auto mu = habcast::test::read_band(s.dir.file("ac/suitability.tif"));
+    for (std::size_t i = 0; i < mu.size(); ++i) CHECK_THAT(mu[i], Catch::Matchers::WithinRel(0.5 * mu_a[i] + 0.5 * mu_c[i], 1e-5));
+  }
   // Both orders: the first model of a set makes the shared checks, the others take them over.
   run_all_checks({s.dir.file("a2.toml"), s.dir.file("b2.toml"), "-o", s.dir.file("ab"), "--threads", "2"});
   run_all_checks({s.dir.file("b2.toml"), s.dir.file("a2.toml"), "-o", s.dir.file("ba"), "--threads", "2"});
@@ -229,8 +242,16 @@ TEST_CASE("models of a set fitted to one training table share their checks and s
   for (std::size_t i = 0; i < flags_b.size(); ++i)
     pair_flagged += (static_cast<int>(flags_b[i]) & 16) != 0 && flags_b[i] != 255 ? 1 : 0;
   CHECK(pair_flagged > 0);  // the scene exercises the pair check that only b makes
+  // The second model of a set also reads the first one's model values (the same covariates read
+  // the same way): the average must still be that of the models run alone. Akaike weights for
+  // AIC 100 and 100.5: 1 / (1 + exp(-0.25)) and its complement.
+  const double wa = 1.0 / (1.0 + std::exp(-0.25)), wb = 1.0 - wa;
+  const auto mu_a = habcast::test::read_band(s.dir.file("a/suitability.tif"));
+  const auto mu_b = habcast::test::read_band(s.dir.file("b/suitability.tif"));
   for (const std::string order : {"ab", "ba"}) {
     INFO("set " << order);
+    const auto mu = habcast::test::read_band(s.dir.file(order + "/suitability.tif"));
+    for (std::size_t i = 0; i < mu.size(); ++i) CHECK_THAT(mu[i], Catch::Matchers::WithinRel(wa * mu_a[i] + wb * mu_b[i], 1e-5));
     const auto flags = habcast::test::read_band(s.dir.file(order + "/extrapolation.tif"));
     for (std::size_t i = 0; i < flags.size(); ++i) {
       INFO("pixel " << i);

@@ -72,6 +72,29 @@ bool BlockPredictor::can_share_checks(const BlockPredictor& other) const {
   return novelty_->same_joint_checks(*other.novelty_);
 }
 
+bool BlockPredictor::can_share_values(const BlockPredictor& other) const {
+  const std::vector<Covariate>& a = spec_.covariates;
+  const std::vector<Covariate>& b = other.spec_.covariates;
+  if (a.size() != b.size()) return false;
+  for (std::size_t c = 0; c < a.size(); ++c) {
+    const Covariate& x = a[c];
+    const Covariate& y = b[c];
+    if (x.name != y.name || x.categorical != y.categorical || x.transform != y.transform || x.center != y.center ||
+        x.scale != y.scale || x.levels.size() != y.levels.size())
+      return false;
+    for (std::size_t l = 0; l < x.levels.size(); ++l)
+      if (x.levels[l].code != y.levels[l].code) return false;
+    const int ci = static_cast<int>(c);
+    if (plan_.uses_covariate(ci) != other.plan_.uses_covariate(ci)) return false;
+  }
+  return true;
+}
+
+void BlockPredictor::take_values_from(BlockPredictor* donor) {
+  values_from_ = donor;
+  if (donor) donor->keeps_values_ = true;
+}
+
 namespace {
 
 void add_counts(std::vector<std::int64_t>& to, const std::vector<std::int64_t>& from) {
@@ -133,13 +156,25 @@ void BlockPredictor::begin(const Eigen::ArrayXXd& raw, const std::vector<std::ui
 
 void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally) {
   std::uint8_t* ok = predict_valid_.data() + first;
+  const auto n = static_cast<std::size_t>(rows);
+  const ModelValues* values = &values_;
   ModelValueCounts counts;
-  to_model_values(spec_, plan_, *raw_, first, rows, values_, ok, counts);
+  if (values_from_) {
+    values = &values_from_->values_;
+    std::copy(values_from_->values_ok_.begin(), values_from_->values_ok_.begin() + static_cast<std::ptrdiff_t>(n), ok);
+    counts = values_from_->values_counts_;
+  } else {
+    to_model_values(spec_, plan_, *raw_, first, rows, values_, ok, counts);
+    if (keeps_values_) {
+      values_ok_.assign(ok, ok + n);
+      values_counts_ = counts;
+    }
+  }
   tally.outside_transform += counts.outside_transform;
   tally.unknown_level += counts.unknown_level;
 
-  tally.undefined_term += plan_.fill(values_, rows, X_, ok);
-  plan_.fill_offset(values_, rows, offset_, ok);
+  tally.undefined_term += plan_.fill(*values, rows, X_, ok);
+  plan_.fill_offset(*values, rows, offset_, ok);
   evaluator_.evaluate(X_, rows, offset_, prediction_);
 
   const bool with_se = evaluator_.has_covariance();

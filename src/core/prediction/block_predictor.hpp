@@ -83,6 +83,14 @@ class BlockPredictor {
   /// the pair hulls: both check against training domains and novelty models that agree
   /// (TrainingDomain::same_checks, NoveltyModel::same_joint_checks).
   [[nodiscard]] bool can_share_checks(const BlockPredictor& other) const;
+  /// True when `other`, given the same raw columns, computes the same model values and marks the
+  /// same pixels unpredictable while doing so: the same covariates read the same way (transform,
+  /// centre, scale, levels), each used by both models or by neither.
+  [[nodiscard]] bool can_share_values(const BlockPredictor& other) const;
+  /// From now on each chunk() takes its model values from `donor`'s chunk() of the same pixels,
+  /// which must run first (members of a window walk its chunks in order, so an earlier member
+  /// qualifies); `donor` then keeps them. Null: compute them (the default).
+  void take_values_from(BlockPredictor* donor);
   void chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally);
   void end() {
     raw_ = nullptr;
@@ -112,6 +120,10 @@ class BlockPredictor {
   std::size_t unit_cursor_ = 0;
   std::vector<std::uint8_t> predict_valid_;
   ModelValues values_;
+  BlockPredictor* values_from_ = nullptr;  ///< see take_values_from
+  bool keeps_values_ = false;              ///< another predictor reads this one's values
+  std::vector<std::uint8_t> values_ok_;    ///< the chunk's pixels still predictable after its model values
+  ModelValueCounts values_counts_;
   Eigen::MatrixXd X_;
   Eigen::VectorXd offset_;
   Prediction prediction_;
