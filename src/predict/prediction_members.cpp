@@ -83,6 +83,8 @@ MemberWindow::MemberWindow(const std::vector<PredictionMember>& members, const M
     for (std::size_t e = 0; e < m && from == m; ++e)
       if (checks_from_[e] == e && stack_of_[e] == stack && predictors_[m]->can_share_checks(*predictors_[e])) from = e;
     checks_from_.push_back(from);
+    checks_kept_.push_back(false);
+    if (from != m) checks_kept_[from] = true;
     values_from_.push_back(m);
     for (std::size_t e = 0; e < m && values_from_[m] == m; ++e)
       if (values_from_[e] == e && stack_of_[e] == stack && predictors_[m]->can_share_values(*predictors_[e])) {
@@ -127,8 +129,9 @@ void MemberWindow::run(const Window& window, std::vector<BlockOutputs>& outputs,
   for (std::size_t m = 0; m < members; ++m) {
     tallies.emplace_back(members_[m].spec->covariates.size());
     const std::size_t from = checks_from_[m];
-    const SharedChecks shared{&outputs[from], &tallies[from].domain};
+    const SharedChecks shared{&outputs[from], &tallies[from].domain, members_[from].novelty};
     const std::size_t j = stack_of_[m];
+    outputs[m].novelty.keep_pairs = checks_kept_[m];
     predictors_[m]->begin(stack_is_decoded_[j] ? decoded_ : raw_[j], valid_[j], n, outputs[m], tallies[m], nullptr,
                           from == m ? nullptr : &shared);
   }

@@ -88,6 +88,7 @@ class MemberWindow {
   /// Per member: an earlier member reading the same rasters whose domain checks it takes over
   /// (models of a set fitted to one training table; BlockPredictor::can_share_checks), or itself.
   std::vector<std::size_t> checks_from_;
+  std::vector<bool> checks_kept_;  ///< per member: another takes its checks over (it keeps its pair masks)
   /// Per member: an earlier member of its stack whose model values it reads (same covariates read
   /// the same way; BlockPredictor::can_share_values), or itself.
   std::vector<std::size_t> values_from_;

@@ -233,6 +233,24 @@ TEST_CASE("models of a set fitted to one training table share their checks and s
     const auto mu = habcast::test::read_band(s.dir.file("ac/suitability.tif"));
     for (std::size_t i = 0; i < mu.size(); ++i) CHECK_THAT(mu[i], Catch::Matchers::WithinRel(0.5 * mu_a[i] + 0.5 * mu_c[i], 1e-5));
   }
+  // d2 has b2's pair t:p too (and a quadratic term): in a set after b2 it takes that pair's
+  // verdicts from b2's mask instead of checking the pair's hull again.
+  habcast::test::write_text(s.dir.file("d2.toml"),
+                            model("[\"(Intercept)\", \"t\", \"p\", \"t:p\", \"t^2\"]", "[0.2, 0.6, -0.4, 0.2, -0.1]",
+                                  "[[0.05, 0.0, 0.01, 0.0, 0.0], [0.0, 0.03, 0.0, 0.0, 0.0], [0.01, 0.0, 0.02, 0.0, 0.0], "
+                                  "[0.0, 0.0, 0.0, 0.01, 0.0], [0.0, 0.0, 0.0, 0.0, 0.01]]",
+                                  "aic = 101.0\n"));
+  run_all_checks({s.dir.file("d2.toml"), "-o", s.dir.file("d")});
+  run_all_checks({s.dir.file("b2.toml"), s.dir.file("d2.toml"), "-o", s.dir.file("bd")});
+  {
+    const auto alone = nlohmann::json::parse(habcast::test::read_text(s.dir.file("d/report.json")))["extrapolation"];
+    const auto set = nlohmann::json::parse(habcast::test::read_text(s.dir.file("bd/report.json")));
+    const auto& mine = set["models"][1]["extrapolation"];
+    CHECK(mine["causes"]["outside_pair_hull"]["pixels"] == alone["causes"]["outside_pair_hull"]["pixels"]);
+    CHECK(mine["flagged_pixels"] == alone["flagged_pixels"]);
+    CHECK(habcast::test::read_band(s.dir.file("bd/extrapolation.tif")) ==
+          habcast::test::read_band(s.dir.file("d/extrapolation.tif")));  // b2's flags are d2's
+  }
   // Both orders: the first model of a set makes the shared checks, the others take them over.
   run_all_checks({s.dir.file("a2.toml"), s.dir.file("b2.toml"), "-o", s.dir.file("ab"), "--threads", "2"});
   run_all_checks({s.dir.file("b2.toml"), s.dir.file("a2.toml"), "-o", s.dir.file("ba"), "--threads", "2"});

@@ -182,6 +182,7 @@ void NoveltyModel::build_pairs(const ModelSpec& spec, const TermPlan& plan, cons
                                    ", so their joint hull is unknown. Add samples, or leave out the pair check "
                                    "with --checks range,hull,nt2,mess."));
     pair_hulls_.emplace_back(points, options_.hull_tolerance);
+    pair_points_.push_back(std::move(points));
     if (pair_hulls_.back().rank() < 2)
       notes_.push_back("The training samples of " + label +
                        " lie on one line, so their joint hull is that line segment and every pixel off it counts "
@@ -196,12 +197,39 @@ void NoveltyModel::check(const Eigen::ArrayXXd& raw, Eigen::Index rows, const st
   out.nt1.assign(n, kFloatNodata);
   out.nt2.assign(n, kFloatNodata);
   out.least_similar.assign(n, flag::nodata);
-  check_pixels(raw, rows, valid, flags, out, tally, true);
+  if (out.keep_pairs) out.pair_outside.assign(pairs_.size(), std::vector<std::uint8_t>(n, 0));
+  check_pixels(raw, rows, valid, flags, out, tally, true, nullptr);
 }
 
 void NoveltyModel::check_pairs(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid,
-                               std::uint8_t* flags, NoveltyBlock& out, DomainTally& tally) const {
-  if (!pairs_.empty()) check_pixels(raw, rows, valid, flags, out, tally, false);
+                               std::uint8_t* flags, NoveltyBlock& out, DomainTally& tally, const NoveltyModel& donor,
+                               const NoveltyBlock& donor_block) const {
+  if (pairs_.empty() || !active()) return;
+  if (tally.pair_outside.size() < pairs_.size()) tally.pair_outside.resize(pairs_.size());
+  const auto n = static_cast<std::size_t>(rows);
+  // A pair the donor checked against the same hull (the same two covariates, the same training
+  // points; the options agree) is taken from its mask; the others are checked here.
+  std::vector<bool> taken(pairs_.size(), false);
+  bool all_taken = true;
+  for (std::size_t p = 0; p < pairs_.size(); ++p) {
+    for (std::size_t q = 0; q < donor.pairs_.size() && !taken[p]; ++q) {
+      if (donor.pairs_[q].a != pairs_[p].a || donor.pairs_[q].b != pairs_[p].b || q >= donor_block.pair_outside.size())
+        continue;
+      const Eigen::MatrixXd& mine = pair_points_[p];
+      const Eigen::MatrixXd& theirs = donor.pair_points_[q];
+      if (mine.rows() != theirs.rows() || mine != theirs) continue;
+      taken[p] = true;
+      const std::vector<std::uint8_t>& outside = donor_block.pair_outside[q];
+      std::int64_t count = 0;
+      for (std::size_t i = 0; i < n; ++i) {
+        flags[i] = static_cast<std::uint8_t>(flags[i] | (outside[i] ? flag::outside_pair_hull : 0));
+        count += outside[i];
+      }
+      tally.pair_outside[p] += count;
+    }
+    all_taken = all_taken && taken[p];
+  }
+  if (!all_taken) check_pixels(raw, rows, valid, flags, out, tally, false, &taken);
 }
 
 bool NoveltyModel::same_joint_checks(const NoveltyModel& other) const {
@@ -225,7 +253,8 @@ bool NoveltyModel::same_joint_checks(const NoveltyModel& other) const {
 }
 
 void NoveltyModel::check_pixels(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid,
-                                std::uint8_t* flags, NoveltyBlock& out, DomainTally& tally, bool joint) const {
+                                std::uint8_t* flags, NoveltyBlock& out, DomainTally& tally, bool joint,
+                                const std::vector<bool>* skip_pairs) const {
   const auto n = static_cast<std::size_t>(rows);
   if (!active()) return;
   const std::size_t d = covariates_.size();
@@ -242,6 +271,7 @@ void NoveltyModel::check_pixels(const Eigen::ArrayXXd& raw, Eigen::Index rows, c
     pair_b[p] = static_cast<std::size_t>(std::find(covariates_.begin(), covariates_.end(), pairs_[p].b) - covariates_.begin());
   }
   double xy[2];
+  const bool keep_pairs = joint && out.keep_pairs;
 
   for (std::size_t i = 0; i < n; ++i) {
     if (!valid[i]) continue;
@@ -298,11 +328,13 @@ void NoveltyModel::check_pixels(const Eigen::ArrayXXd& raw, Eigen::Index rows, c
       if (!inside) flags[i] |= flag::outside_hull;
     }
     for (std::size_t p = 0; p < pairs_.size(); ++p) {
+      if (skip_pairs && (*skip_pairs)[p]) continue;
       xy[0] = out.z[pair_a[p]];
       xy[1] = out.z[pair_b[p]];
       if (!pair_hulls_[p].contains(xy, out.y.data(), pair_start[p])) {
         flags[i] |= flag::outside_pair_hull;
         ++tally.pair_outside[p];
+        if (keep_pairs) out.pair_outside[p][i] = 1;
       }
     }
   }

@@ -45,6 +45,10 @@ struct CovariatePair {
 struct NoveltyBlock {
   std::vector<float> mess, nt1, nt2;
   std::vector<std::uint8_t> least_similar;  ///< 1 + index of the covariate with the smallest similarity
+  /// With keep_pairs set before check(): per pair of the model, 1 where the pixel lies outside the
+  /// pair's hull (for check_pairs() of another model with the same pair).
+  bool keep_pairs = false;
+  std::vector<std::vector<std::uint8_t>> pair_outside;
   // Scratch reused across blocks: model values of one pixel and whitened coordinates.
   std::vector<double> z, y;
 };
@@ -85,14 +89,17 @@ class NoveltyModel {
   /// may differ (models of a set that differ by an interaction term).
   [[nodiscard]] bool same_joint_checks(const NoveltyModel& other) const;
   /// check() for a block whose MESS, NT1, NT2 and full-hull results (`out`'s bands, bits 2 and 8,
-  /// and their counts in `tally`) were copied from a model with the same joint checks: adds this
-  /// model's own pair-hull bits and counts only.
+  /// and their counts in `tally`) were copied from `donor`, a model with the same joint checks
+  /// that checked the block into `donor_block`: adds this model's own pair-hull bits and counts.
+  /// A pair the donor has too (same covariates, same training points) is taken from the donor's
+  /// mask when it kept them (NoveltyBlock::keep_pairs); the others are checked.
   void check_pairs(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid, std::uint8_t* flags,
-                   NoveltyBlock& out, DomainTally& tally) const;
+                   NoveltyBlock& out, DomainTally& tally, const NoveltyModel& donor,
+                   const NoveltyBlock& donor_block) const;
 
  private:
   void check_pixels(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid, std::uint8_t* flags,
-                    NoveltyBlock& out, DomainTally& tally, bool joint) const;
+                    NoveltyBlock& out, DomainTally& tally, bool joint, const std::vector<bool>* skip_pairs) const;
   void build_univariate(const ModelSpec& spec, const TrainingSamples& samples);
   void build_joint(const ModelSpec& spec, const TrainingSamples& samples);
   void build_pairs(const ModelSpec& spec, const TermPlan& plan, const TrainingSamples& samples);
@@ -110,6 +117,7 @@ class NoveltyModel {
   std::optional<TrainingHull> hull_;
   std::vector<CovariatePair> pairs_;
   std::vector<TrainingHull> pair_hulls_;
+  std::vector<Eigen::MatrixXd> pair_points_;  ///< per pair: the training points of its hull
   std::string hull_method_;
   std::vector<std::string> notes_;
 };

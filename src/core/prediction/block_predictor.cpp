@@ -141,7 +141,9 @@ void BlockPredictor::begin(const Eigen::ArrayXXd& raw, const std::vector<std::ui
   if (domain_) {
     if (shared) {
       take_over_checks(*shared, n, out, tally.domain);
-      if (novelty_) novelty_->check_pairs(raw, rows, valid.data(), out.flags.data(), out.novelty, tally.domain);
+      if (novelty_)
+        novelty_->check_pairs(raw, rows, valid.data(), out.flags.data(), out.novelty, tally.domain, *shared->novelty,
+                              shared->outputs->novelty);
     } else {
       domain_->flag(raw, rows, valid.data(), out.flags.data(), tally.domain);
       if (novelty_) novelty_->check(raw, rows, valid.data(), out.flags.data(), out.novelty, tally.domain);

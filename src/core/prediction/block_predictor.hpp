@@ -53,6 +53,7 @@ struct BlockOutputs {
 struct SharedChecks {
   const BlockOutputs* outputs = nullptr;  ///< its flags and novelty bands
   const DomainTally* tally = nullptr;     ///< its counts of this block only
+  const NoveltyModel* novelty = nullptr;  ///< its novelty model (null: none), whose pair masks it kept
 };
 
 class BlockPredictor {
