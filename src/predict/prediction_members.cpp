@@ -66,13 +66,14 @@ std::pair<AlignmentPlan, std::vector<std::int64_t>> members_alignment(const Alig
 }
 
 MemberWindow::MemberWindow(const std::vector<PredictionMember>& members, const MemberSources& sources,
-                           const AlignmentPlan& alignment, double level, double quantum, bool limits)
+                           const AlignmentPlan& alignment, double level, double quantum, bool member_arrays)
     : members_(members), sources_(sources), missing_(sources.sources.size(), 0) {
   for (std::size_t s = 0; s < sources.sources.size(); ++s) readers_.push_back(open_covariate_source(alignment, s));
   for (const PredictionMember& m : members) {
     evaluators_.push_back(std::make_unique<Evaluator>(*m.spec, level, quantum));
-    evaluators_.back()->set_limits(limits);
+    evaluators_.back()->set_limits(member_arrays);
     predictors_.push_back(std::make_unique<BlockPredictor>(*m.spec, *m.plan, *evaluators_.back(), m.domain, m.novelty));
+    predictors_.back()->set_arrays(member_arrays);
   }
   for (std::size_t m = 0; m < members.size(); ++m) {
     std::size_t stack = 0;

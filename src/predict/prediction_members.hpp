@@ -61,10 +61,11 @@ std::pair<AlignmentPlan, std::vector<std::int64_t>> members_alignment(const Alig
 /// One worker's readers, predictors and scratch windows for every member.
 class MemberWindow {
  public:
-  /// `limits`: whether each member forms its own confidence limits (a model set's members need
-  /// not: the set's limits come from the average).
+  /// `member_arrays`: whether each member fills its own output arrays, confidence limits
+  /// included (BlockPredictor::set_arrays). A model set's members need not: the set's values and
+  /// limits come from the average of each chunk's predictions.
   MemberWindow(const std::vector<PredictionMember>& members, const MemberSources& sources, const AlignmentPlan& alignment,
-               double level, double quantum, bool limits = true);
+               double level, double quantum, bool member_arrays = true);
   MemberWindow(const MemberWindow&) = delete;
   MemberWindow& operator=(const MemberWindow&) = delete;
 

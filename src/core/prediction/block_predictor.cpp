@@ -102,7 +102,7 @@ void add_counts(std::vector<std::int64_t>& to, const std::vector<std::int64_t>& 
 }
 
 /// Every check but the pair hulls, taken over from `shared` (see BlockPredictor::begin).
-void take_over_checks(const SharedChecks& shared, std::size_t n, BlockOutputs& out, DomainTally& tally) {
+void take_over_checks(const SharedChecks& shared, std::size_t n, BlockOutputs& out, DomainTally& tally, bool bands) {
   const std::vector<std::uint8_t>& flags = shared.outputs->flags;
   for (std::size_t i = 0; i < n; ++i)
     out.flags[i] = flags[i] == flag::nodata ? flag::nodata : static_cast<std::uint8_t>(flags[i] & ~flag::outside_pair_hull);
@@ -115,6 +115,7 @@ void take_over_checks(const SharedChecks& shared, std::size_t n, BlockOutputs& o
     for (const auto& [code, count] : from.unseen_codes[c]) tally.unseen_codes[c][code] += count;
   tally.mess_negative += from.mess_negative;
   tally.nt2_above += from.nt2_above;
+  if (!bands) return;
   const NoveltyBlock& novelty = shared.outputs->novelty;
   out.novelty.mess = novelty.mess;
   out.novelty.nt1 = novelty.nt1;
@@ -127,10 +128,10 @@ void take_over_checks(const SharedChecks& shared, std::size_t n, BlockOutputs& o
 void BlockPredictor::begin(const Eigen::ArrayXXd& raw, const std::vector<std::uint8_t>& valid, Eigen::Index rows,
                            BlockOutputs& out, PredictionTally& tally, const UnitPass* units, const SharedChecks* shared) {
   const auto n = static_cast<std::size_t>(rows);
-  out.suitability.assign(n, kFloatNodata);
   const bool with_se = evaluator_.has_covariance();
-  const bool with_limits = with_se && evaluator_.limits();
-  out.se.assign(with_se ? n : 0, kFloatNodata);
+  const bool with_limits = with_se && evaluator_.limits() && arrays_;
+  out.suitability.assign(arrays_ ? n : 0, kFloatNodata);
+  out.se.assign(with_se && arrays_ ? n : 0, kFloatNodata);
   out.lower.assign(with_limits ? n : 0, kFloatNodata);
   out.upper.assign(with_limits ? n : 0, kFloatNodata);
   out.flags.assign(domain_ ? n : 0, flag::nodata);
@@ -140,7 +141,7 @@ void BlockPredictor::begin(const Eigen::ArrayXXd& raw, const std::vector<std::ui
   for (std::size_t i = 0; i < n; ++i) tally.missing_input += valid[i] ? 0 : 1;
   if (domain_) {
     if (shared) {
-      take_over_checks(*shared, n, out, tally.domain);
+      take_over_checks(*shared, n, out, tally.domain, arrays_);
       if (novelty_)
         novelty_->check_pairs(raw, rows, valid.data(), out.flags.data(), out.novelty, tally.domain, *shared->novelty,
                               shared->outputs->novelty);
@@ -179,7 +180,7 @@ void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& 
   plan_.fill_offset(*values, rows, offset_, ok);
   evaluator_.evaluate(X_, rows, offset_, prediction_);
 
-  const bool with_se = evaluator_.has_covariance();
+  const bool with_se = evaluator_.has_covariance() && arrays_;
   const bool with_limits = with_se && evaluator_.limits();
   for (Eigen::Index i = 0; i < rows; ++i) {
     if (!ok[i]) continue;
@@ -190,7 +191,7 @@ void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& 
       ok[i] = 0;  // so predicted() tells combiners this pixel has no value
       continue;
     }
-    out.suitability[o] = off_nodata(static_cast<float>(mu), tally.moved_off_nodata);
+    if (arrays_) out.suitability[o] = off_nodata(static_cast<float>(mu), tally.moved_off_nodata);
     if (tally.predicted == 0) {
       tally.min_response = mu;
       tally.max_response = mu;

@@ -92,6 +92,12 @@ class BlockPredictor {
   /// which must run first (members of a window walk its chunks in order, so an earlier member
   /// qualifies); `donor` then keeps them. Null: compute them (the default).
   void take_values_from(BlockPredictor* donor);
+  /// Whether begin() and chunk() fill the per-pixel arrays of BlockOutputs (suitability, se,
+  /// limits, novelty bands; on by default). Off for a member whose combiner reads only each
+  /// chunk's prediction(), predicted() and the flags (a model set's average): those, and the
+  /// domain counts, are the same either way; the counts of moved-off-nodata and low-certainty
+  /// values, which come from the arrays, stay 0.
+  void set_arrays(bool on) { arrays_ = on; }
   void chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& out, PredictionTally& tally);
   void end() {
     raw_ = nullptr;
@@ -122,6 +128,7 @@ class BlockPredictor {
   std::vector<std::uint8_t> predict_valid_;
   ModelValues values_;
   BlockPredictor* values_from_ = nullptr;  ///< see take_values_from
+  bool arrays_ = true;                     ///< see set_arrays
   bool keeps_values_ = false;              ///< another predictor reads this one's values
   std::vector<std::uint8_t> values_ok_;    ///< the chunk's pixels still predictable after its model values
   ModelValueCounts values_counts_;
