@@ -99,29 +99,30 @@ HABCAST_PIXEL_LOOPS void link_inverse_all(Link link, const double* eta, double* 
   for (long i = 0; i < n; ++i) mu[i] = link_inverse(link, eta[i]);
 }
 
-HABCAST_PIXEL_LOOPS void link_inverse_interval(Link link, const double* __restrict eta, const double* __restrict se,
-                                              double z, double* __restrict lower, double* __restrict upper, long n) {
-  if (link == Link::logit) {
-    for (long i = 0; i < n; ++i) {
-      const double w = z * se[i];
-      lower[i] = logistic(eta[i] - w);
-      upper[i] = logistic(eta[i] + w);
-    }
-    return;
-  }
-  if (link == Link::log) {
-    for (long i = 0; i < n; ++i) {
-      const double w = z * se[i];
-      lower[i] = portable_exp(eta[i] - w);
-      upper[i] = portable_exp(eta[i] + w);
-    }
-    return;
-  }
+namespace {
+
+/// lower[i] = inverse(eta[i] - z se[i]), upper[i] = inverse(eta[i] + z se[i]); inlined into each
+/// caller with its own inverse, so the loop vectorises where the inverse does.
+template <class Inverse>
+inline void interval_loop(Inverse inverse, const double* __restrict eta, const double* __restrict se, double z,
+                          double* __restrict lower, double* __restrict upper, long n) {
   for (long i = 0; i < n; ++i) {
     const double w = z * se[i];
-    lower[i] = link_inverse(link, eta[i] - w);
-    upper[i] = link_inverse(link, eta[i] + w);
+    lower[i] = inverse(eta[i] - w);
+    upper[i] = inverse(eta[i] + w);
   }
+}
+
+}  // namespace
+
+HABCAST_PIXEL_LOOPS void link_inverse_interval(Link link, const double* __restrict eta, const double* __restrict se,
+                                              double z, double* __restrict lower, double* __restrict upper, long n) {
+  if (link == Link::logit)
+    interval_loop([](double x) { return logistic(x); }, eta, se, z, lower, upper, n);
+  else if (link == Link::log)
+    interval_loop([](double x) { return portable_exp(x); }, eta, se, z, lower, upper, n);
+  else
+    interval_loop([link](double x) { return link_inverse(link, x); }, eta, se, z, lower, upper, n);
 }
 
 double link_function(Link link, double mu) {

@@ -64,29 +64,24 @@ HABCAST_PIXEL_LOOPS void average_models_block(const double* weights, const doubl
     within[p] = 0.0;
     between[p] = 0.0;
   }
-  for (std::size_t i = 0; i < k; ++i) {
-    const double w = weights[i];
-    const double* m = mu[i];
-    const double* s = se[i];
-    for (std::size_t p = 0; p < n; ++p) {
-      const double d = m[p] - mean[p];
-      within[p] += w * s[p] * s[p];
-      between[p] += w * d * d;
-    }
-  }
-  if (form == UnconditionalForm::revised) {
-    for (std::size_t p = 0; p < n; ++p) se_out[p] = std::sqrt(within[p] + between[p]);
-  } else {
-    for (std::size_t p = 0; p < n; ++p) se_out[p] = 0.0;
+  // body(p, w, d, s) for every model i and pixel p: weight w_i, d = mu_i - mean, s = se_i.
+  const auto each_model = [&](auto&& body) {
     for (std::size_t i = 0; i < k; ++i) {
       const double w = weights[i];
       const double* m = mu[i];
       const double* s = se[i];
-      for (std::size_t p = 0; p < n; ++p) {
-        const double d = m[p] - mean[p];
-        se_out[p] += w * std::sqrt(s[p] * s[p] + d * d);
-      }
+      for (std::size_t p = 0; p < n; ++p) body(p, w, m[p] - mean[p], s[p]);
     }
+  };
+  each_model([&](std::size_t p, double w, double d, double s) {
+    within[p] += w * s * s;
+    between[p] += w * d * d;
+  });
+  if (form == UnconditionalForm::revised) {
+    for (std::size_t p = 0; p < n; ++p) se_out[p] = std::sqrt(within[p] + between[p]);
+  } else {
+    for (std::size_t p = 0; p < n; ++p) se_out[p] = 0.0;
+    each_model([&](std::size_t p, double w, double d, double s) { se_out[p] += w * std::sqrt(s * s + d * d); });
   }
   for (std::size_t p = 0; p < n; ++p) {
     const double total = within[p] + between[p];
