@@ -87,6 +87,18 @@ HABCAST_PIXEL_LOOPS void link_inverse_with_derivative(Link link, const double* e
   }
 }
 
+HABCAST_PIXEL_LOOPS void link_inverse_derivative_all(Link link, const double* eta, double* derivative, long n) {
+  if (link == Link::logit) {
+    for (long i = 0; i < n; ++i) derivative[i] = logistic_derivative(eta[i]);
+    return;
+  }
+  if (link == Link::log) {
+    for (long i = 0; i < n; ++i) derivative[i] = portable_exp(eta[i]);
+    return;
+  }
+  for (long i = 0; i < n; ++i) derivative[i] = link_inverse_derivative(link, eta[i]);
+}
+
 HABCAST_PIXEL_LOOPS void link_inverse_all(Link link, const double* eta, double* mu, long n) {
   if (link == Link::logit) {
     for (long i = 0; i < n; ++i) mu[i] = logistic(eta[i]);

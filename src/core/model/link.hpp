@@ -21,6 +21,9 @@ double link_inverse_derivative(Link link, double eta);
 /// one exp() per value instead of two.
 void link_inverse_with_derivative(Link link, const double* eta, double* mu, double* derivative, long n);
 
+/// derivative[i] = link_inverse_derivative(eta[i]) over n values, bit for bit, the link chosen once.
+void link_inverse_derivative_all(Link link, const double* eta, double* derivative, long n);
+
 /// mu[i] = link_inverse(eta[i]) over n values, the link chosen once. `mu` may be `eta`.
 void link_inverse_all(Link link, const double* eta, double* mu, long n);
 

@@ -214,7 +214,10 @@ void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& 
 void BlockPredictor::add_to_units(Eigen::Index first, Eigen::Index rows, const BlockOutputs& out) {
   const BlockUnitCover& cover = *units_->cover;
   const auto end = static_cast<std::uint32_t>(first + rows);
-  const Link link = evaluator_.link();
+  if (units_->with_gradient) {
+    slope_.resize(rows);
+    link_inverse_derivative_all(evaluator_.link(), prediction_.eta.data(), slope_.data(), rows);
+  }
   for (; unit_cursor_ < cover.size() && cover.pixel[unit_cursor_] < end; ++unit_cursor_) {
     const std::size_t o = cover.pixel[unit_cursor_];
     const double a = cover.area_ha[unit_cursor_];
@@ -235,7 +238,7 @@ void BlockPredictor::add_to_units(Eigen::Index first, Eigen::Index rows, const B
     if (units_->with_gradient) {
       // d mu / d beta = (d mu / d eta) x: the row of the design matrix scaled by the link's slope.
       if (u.sum_gradient.size() == 0) u.sum_gradient = Eigen::VectorXd::Zero(X_.cols());
-      const double w = a * link_inverse_derivative(link, prediction_.eta[i]);
+      const double w = a * slope_[i];
       u.sum_gradient += w * X_.row(i).transpose();
     }
   }

@@ -135,6 +135,7 @@ class BlockPredictor {
   Eigen::MatrixXd X_;
   Eigen::VectorXd offset_;
   Prediction prediction_;
+  Eigen::VectorXd slope_;  ///< d mu / d eta of the chunk, for the units' gradient sums
 };
 
 }  // namespace habcast

@@ -65,6 +65,11 @@ void ChangeCombiner::chunk(Eigen::Index first, Eigen::Index rows, const BlockPre
   G_s_ -= G_b_;  // the gradient of the change
   row_standard_errors(G_s_, rows, V_, scratch_, se_);
 
+  // Unrounded means from eta (a --max-error grid applies to the stored suitability only).
+  mu_b_.resize(rows);
+  mu_s_.resize(rows);
+  link_inverse_all(link_, eta_b.data(), mu_b_.data(), rows);
+  link_inverse_all(link_, eta_s.data(), mu_s_.data(), rows);
   const std::uint8_t* ok_b = baseline.predicted(first);
   const std::uint8_t* ok_s = scenario.predicted(first);
   for (Eigen::Index i = 0; i < rows; ++i) {
@@ -73,9 +78,8 @@ void ChangeCombiner::chunk(Eigen::Index first, Eigen::Index rows, const BlockPre
       continue;
     }
     const auto o = static_cast<std::size_t>(first + i);
-    // Unrounded means from eta (a --max-error grid applies to the stored suitability only).
-    const double mu_b = link_inverse(link_, eta_b[i]);
-    const double mu_s = link_inverse(link_, eta_s[i]);
+    const double mu_b = mu_b_[i];
+    const double mu_s = mu_s_[i];
     const double change = mu_s - mu_b;
     const double se = se_[i];
     // Both sides have values but their difference does not (inf - inf on a log link): nodata.

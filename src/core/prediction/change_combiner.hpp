@@ -61,7 +61,7 @@ class ChangeCombiner {
   double z_;
   std::optional<double> threshold_;
   Eigen::MatrixXd G_b_, G_s_, scratch_;
-  Eigen::VectorXd se_;
+  Eigen::VectorXd se_, mu_b_, mu_s_;
 };
 
 /// Probability that the change is below zero under its normal approximation, N(change, se^2):

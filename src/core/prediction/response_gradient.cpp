@@ -10,7 +10,7 @@ void response_gradient(Link link, const Eigen::MatrixXd& X, const Eigen::VectorX
                        Eigen::MatrixXd& G) {
   G.resize(rows, X.cols());
   Eigen::VectorXd d(rows);
-  for (Eigen::Index i = 0; i < rows; ++i) d[i] = link_inverse_derivative(link, eta[i]);
+  link_inverse_derivative_all(link, eta.data(), d.data(), rows);
   for (Eigen::Index j = 0; j < X.cols(); ++j) G.col(j) = X.col(j).head(rows).cwiseProduct(d);
 }
 
