@@ -87,28 +87,32 @@ HABCAST_PIXEL_LOOPS void link_inverse_with_derivative(Link link, const double* e
   }
 }
 
+namespace {
+
+/// out[i] = f(eta[i]); inlined into each caller with its own f, so the loop vectorises where f does.
+template <class F>
+inline void map_loop(F f, const double* eta, double* out, long n) {
+  for (long i = 0; i < n; ++i) out[i] = f(eta[i]);
+}
+
+}  // namespace
+
 HABCAST_PIXEL_LOOPS void link_inverse_derivative_all(Link link, const double* eta, double* derivative, long n) {
-  if (link == Link::logit) {
-    for (long i = 0; i < n; ++i) derivative[i] = logistic_derivative(eta[i]);
-    return;
-  }
-  if (link == Link::log) {
-    for (long i = 0; i < n; ++i) derivative[i] = portable_exp(eta[i]);
-    return;
-  }
-  for (long i = 0; i < n; ++i) derivative[i] = link_inverse_derivative(link, eta[i]);
+  if (link == Link::logit)
+    map_loop([](double x) { return logistic_derivative(x); }, eta, derivative, n);
+  else if (link == Link::log)
+    map_loop([](double x) { return portable_exp(x); }, eta, derivative, n);
+  else
+    map_loop([link](double x) { return link_inverse_derivative(link, x); }, eta, derivative, n);
 }
 
 HABCAST_PIXEL_LOOPS void link_inverse_all(Link link, const double* eta, double* mu, long n) {
-  if (link == Link::logit) {
-    for (long i = 0; i < n; ++i) mu[i] = logistic(eta[i]);
-    return;
-  }
-  if (link == Link::log) {
-    for (long i = 0; i < n; ++i) mu[i] = portable_exp(eta[i]);
-    return;
-  }
-  for (long i = 0; i < n; ++i) mu[i] = link_inverse(link, eta[i]);
+  if (link == Link::logit)
+    map_loop([](double x) { return logistic(x); }, eta, mu, n);
+  else if (link == Link::log)
+    map_loop([](double x) { return portable_exp(x); }, eta, mu, n);
+  else
+    map_loop([link](double x) { return link_inverse(link, x); }, eta, mu, n);
 }
 
 namespace {
