@@ -26,7 +26,7 @@ inline double portable_exp(double x) {
   constexpr double ln2_hi = 6.93147180369123816490e-01;      // ln 2, 32 significant bits: n ln2_hi is exact
   constexpr double ln2_lo = 1.90821492927058770002e-10;      // ln 2 - ln2_hi
   constexpr double shifter = 6755399441055744.0;             // 1.5 * 2^52: adding it rounds to an integer
-  constexpr std::int64_t shifter_bits = 0x4338000000000000;  // its bit pattern
+  constexpr std::uint64_t shifter_bits = 0x4338000000000000;  // its bit pattern
   // Beyond these exp() is 0 or +inf in double. NaN passes through (std::max and std::min return
   // their first argument when a comparison fails) and makes the polynomial NaN.
   const double xc = std::min(std::max(x, -746.0), 710.0);
@@ -49,11 +49,14 @@ inline double portable_exp(double x) {
   p = p * r + 1.0;
   p = p * r + 1.0;
   // n = bits(t) - bits(shifter), between -1077 and 1025; 2^n as 2^k1 * 2^k2, each a normal number.
-  const std::int64_t k = std::bit_cast<std::int64_t>(t) - shifter_bits;
-  const std::int64_t k1 = static_cast<std::int64_t>(static_cast<std::uint64_t>(k + 1536) >> 1) - 768;
-  const std::int64_t k2 = k - k1;
-  const double s1 = std::bit_cast<double>(static_cast<std::uint64_t>(k1 + 1023) << 52);
-  const double s2 = std::bit_cast<double>(static_cast<std::uint64_t>(k2 + 1023) << 52);
+  // The integer steps run in unsigned (wrapping) arithmetic: for those n every value is the same
+  // as in signed arithmetic, and for a NaN argument, whose bits are anything, nothing overflows
+  // (the result is NaN through p whatever the scale).
+  const std::uint64_t k = std::bit_cast<std::uint64_t>(t) - shifter_bits;
+  const std::uint64_t k1 = ((k + 1536) >> 1) - 768;
+  const std::uint64_t k2 = k - k1;
+  const double s1 = std::bit_cast<double>((k1 + 1023) << 52);
+  const double s2 = std::bit_cast<double>((k2 + 1023) << 52);
   return p * s1 * s2;
 }
 
