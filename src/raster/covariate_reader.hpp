@@ -25,8 +25,9 @@ class CovariateReader {
   /// scale and offset. Sets valid[i] = 0 where the pixel is nodata (nodata value compared in the
   /// band's own data type, NaN nodata, or a mask band that says so) or not finite; leaves valid[i]
   /// untouched elsewhere, so masks of several covariates combine by calling read() on each.
-  /// Throws IoError naming the file and window when GDAL fails (e.g. a corrupt tile).
-  void read(const Window& window, double* values, std::uint8_t* valid);
+  /// Pixels without a value hold NaN. Returns how many pixels of the window have no value in this
+  /// band. Throws IoError naming the file and window when GDAL fails (e.g. a corrupt tile).
+  std::int64_t read(const Window& window, double* values, std::uint8_t* valid);
 
   [[nodiscard]] const std::string& path() const;
 

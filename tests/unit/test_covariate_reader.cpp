@@ -1,4 +1,5 @@
 #include <catch2/catch.hpp>
+#include <algorithm>
 #include <cmath>
 #include <cstdint>
 #include <filesystem>
@@ -129,6 +130,33 @@ TEST_CASE("Non-finite pixels are invalid even without a nodata value", "[raster]
   VSIUnlink(path.c_str());
 }
 
+TEST_CASE("A long row is marked pixel by pixel and its missing pixels counted", "[raster][reader]") {
+  // 45 pixels: the vectorised validity pass's body and its remainder both meet nodata, NaN and
+  // infinities, next to pixels another covariate already marked invalid.
+  const std::string path = "/vsimem/reader_long_row.tif";
+  std::vector<float> pixels(45);
+  for (std::size_t i = 0; i < pixels.size(); ++i) pixels[i] = 0.25f * static_cast<float>(i);
+  const std::vector<std::size_t> nodata_at = {0, 7, 31, 44}, nan_at = {12, 40}, inf_at = {3, 33};
+  for (std::size_t i : nodata_at) pixels[i] = -9999.0f;
+  for (std::size_t i : nan_at) pixels[i] = std::numeric_limits<float>::quiet_NaN();
+  for (std::size_t i : inf_at) pixels[i] = (i % 2 ? 1.0f : -1.0f) * std::numeric_limits<float>::infinity();
+  write_geotiff(path, utm_grid(45, 1), GDT_Float32, pixels, set_nodata(-9999.0));
+  CovariateReader reader(path, 1);
+  std::vector<double> values(45);
+  std::vector<std::uint8_t> valid(45, 1);
+  valid[20] = valid[41] = 0;  // from another covariate
+  CHECK(reader.read(Window{0, 0, 45, 1}, values.data(), valid.data()) == 8);
+  for (std::size_t i = 0; i < 45; ++i) {
+    INFO("pixel " << i);
+    const auto in = [i](const std::vector<std::size_t>& at) { return std::find(at.begin(), at.end(), i) != at.end(); };
+    const bool missing = in(nodata_at) || in(nan_at) || in(inf_at);
+    CHECK(valid[i] == (missing || i == 20 || i == 41 ? 0 : 1));
+    if (missing) CHECK(std::isnan(values[i]));
+    else CHECK(values[i] == 0.25 * static_cast<double>(i));
+  }
+  VSIUnlink(path.c_str());
+}
+
 TEST_CASE("Scale and offset are applied to valid pixels", "[raster][reader]") {
   // Temperatures stored as hundredths of a degree above -40: value = raw * 0.01 - 40.
   const std::string path = "/vsimem/reader_scaled.tif";
@@ -182,9 +210,11 @@ TEST_CASE("Reading leaves valid flags of other covariates alone and reads inner 
   CovariateReader reader(path, 1);
   std::vector<double> values(4);
   std::vector<std::uint8_t> valid = {0, 1, 1, 1};  // pixel 0 already invalid from another covariate
-  reader.read(Window{2, 1, 2, 2}, values.data(), valid.data());
-  // rows 1-2, columns 2-3: pixels 8, 9, 14 and (nodata at) 15
+  // rows 1-2, columns 2-3: pixels 8, 9, 14 and (nodata at) 15; one pixel of this band is missing
+  CHECK(reader.read(Window{2, 1, 2, 2}, values.data(), valid.data()) == 1);
   CHECK(valid == std::vector<std::uint8_t>{0, 1, 1, 0});
+  CHECK(values[0] == 8.0);  // invalid from another covariate, but this band has its value
+  CHECK(std::isnan(values[3]));
   CHECK(values[1] == 9.0);
   CHECK(values[2] == 14.0);
   CovariateReader moved(std::move(reader));
