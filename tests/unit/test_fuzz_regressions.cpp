@@ -92,3 +92,43 @@ TEST_CASE("a factor repeated until its powers exceed 18 is refused", "[fuzz-regr
   CHECK_THROWS_WITH(habcast::parse_term(label, spec, "m.toml", 4),
                     Contains("m.toml:4:") && Contains("add up to 19") && Contains("at most 18"));
 }
+
+TEST_CASE("a raw value whose model value overflows loses its pixel and is counted once", "[fuzz-regression]") {
+  // (raw - center) / scale overflows to infinity for a huge raw value over a tiny scale. The
+  // vectorised loop only marks such pixels; they are counted afterwards. 37 rows, so both the
+  // vector body and its remainder see lost pixels and pixels already invalid on entry.
+  habcast::ModelSpec spec = soil_spec();
+  spec.covariates[0].scale = 1e-300;
+  const habcast::TermPlan plan(spec);
+  const Eigen::Index n = 37;
+  Eigen::ArrayXXd raw(n, 2);
+  raw.col(0).setConstant(1e-290);  // model value 1e10: fine
+  raw.col(1).setConstant(1.0);
+  std::vector<std::uint8_t> valid(static_cast<std::size_t>(n), 1);
+  for (Eigen::Index i : {0, 17, 36}) raw(i, 0) = 1e10;  // overflows: lost
+  raw(5, 0) = 1e10;  // overflows, but already invalid: not counted again
+  valid[5] = 0;
+  valid[9] = 0;  // invalid with a fine value
+  habcast::ModelValues values(n, 2);
+  habcast::ModelValueCounts counts;
+  habcast::to_model_values(spec, plan, raw, 0, n, values, valid.data(), counts);
+  CHECK(counts.outside_transform == 3);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const bool lost = i == 0 || i == 17 || i == 36 || i == 5 || i == 9;
+    INFO("row " << i);
+    CHECK(valid[static_cast<std::size_t>(i)] == (lost ? 0 : 1));
+    CHECK(values(i, 0) == (lost ? 0.0 : 1e10));
+  }
+
+  // A covariate no term uses loses no pixel, and counts none.
+  spec.terms = {"(Intercept)", "soil[clay]"};
+  spec.term_lines = {1, 1};
+  spec.estimates = {0.0, 1.0};
+  const habcast::TermPlan without_tmin(spec);
+  std::vector<std::uint8_t> all(static_cast<std::size_t>(n), 1);
+  habcast::ModelValueCounts none;
+  habcast::to_model_values(spec, without_tmin, raw, 0, n, values, all.data(), none);
+  CHECK(none.outside_transform == 0);
+  CHECK(all == std::vector<std::uint8_t>(static_cast<std::size_t>(n), 1));
+  CHECK(values(17, 0) == 0.0);
+}

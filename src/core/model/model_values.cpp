@@ -63,18 +63,29 @@ HABCAST_PIXEL_LOOPS void to_model_values(const ModelSpec& spec, const TermPlan& 
       }
     } else if (cov.transform == Transform::none) {
       // The common case without branches, so the loop vectorises: the same value as model_value().
+      // A pixel is lost where a valid raw value has no finite model value (a value near the
+      // largest double over a small scale), which is rare. The loop marks a lost pixel's model
+      // value NaN and notes whether there was any; only then are they counted and set to 0 (a
+      // count per pixel, widened from the flag bytes, costs more than the rest of the loop).
       const double center = cov.center, scale = cov.scale;
-      std::int64_t outside = 0;
+      const double lost_mark = used ? std::numeric_limits<double>::quiet_NaN() : 0.0;
+      const bool lose = used;
+      unsigned char any_lost = 0;
       for (Eigen::Index i = 0; i < rows; ++i) {
         const double m = (in[i] - center) / scale;
         const bool finite = std::isfinite(m);
         const bool valid = predict_valid[i] != 0;
-        dst[i] = valid && finite ? m : 0.0;
-        const bool lost = valid && !finite && used;
-        outside += lost ? 1 : 0;
-        predict_valid[i] = static_cast<std::uint8_t>(valid && !lost);
+        dst[i] = valid & finite ? m : (valid ? lost_mark : 0.0);
+        const bool lost = valid & !finite & lose;
+        any_lost |= static_cast<unsigned char>(lost);
+        predict_valid[i] = static_cast<std::uint8_t>(valid & !lost);
       }
-      counts.outside_transform += outside;
+      if (any_lost)
+        for (Eigen::Index i = 0; i < rows; ++i)
+          if (std::isnan(dst[i])) {
+            dst[i] = 0.0;
+            ++counts.outside_transform;
+          }
     } else {
       for (Eigen::Index i = 0; i < rows; ++i) {
         if (!predict_valid[i]) {
