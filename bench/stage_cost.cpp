@@ -181,6 +181,7 @@ int main(int argc, char** argv) {
         ModelValueCounts counts;
         timer.run("values", [&] { to_model_values(spec, plan, b.raw, first, n, values, chunk_ok, counts); });
         timer.run("design", [&] {
+          plan.size_design(BlockPredictor::kChunk, X);
           plan.fill(values, n, X, chunk_ok);
           plan.fill_offset(values, n, offset, chunk_ok);
         });

@@ -198,6 +198,14 @@ HABCAST_PIXEL_LOOPS std::int64_t TermPlan::fill(const ModelValues& values, Eigen
   return invalidated;
 }
 
+void TermPlan::size_design(Eigen::Index rows, Eigen::MatrixXd& X) const {
+  const Eigen::Index p = term_count();
+  if (X.rows() >= rows && X.cols() == p) return;
+  // Rows rounded up to whole cache lines of doubles, plus one line: consecutive columns then
+  // start in consecutive sets.
+  X.resize((rows + 7) / 8 * 8 + 8, p);
+}
+
 void TermPlan::fill_offset(const ModelValues& values, Eigen::Index rows, Eigen::VectorXd& offset,
                            std::uint8_t* valid) const {
   if (offset.size() < rows) offset.resize(rows);

@@ -176,6 +176,7 @@ void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& 
   tally.outside_transform += counts.outside_transform;
   tally.unknown_level += counts.unknown_level;
 
+  plan_.size_design(kChunk, X_);
   tally.undefined_term += plan_.fill(*values, rows, X_, ok);
   plan_.fill_offset(*values, rows, offset_, ok);
   evaluator_.evaluate(X_, rows, offset_, prediction_);
