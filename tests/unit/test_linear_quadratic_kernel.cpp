@@ -89,3 +89,29 @@ TEST_CASE("the fused kernel gives each row the same bits wherever it sits in the
     CHECK(differ == 0);
   }
 }
+
+TEST_CASE("the fused kernel's quadratic form sums in the documented order, bit for bit", "[kernel]") {
+  // The header fixes the order: t_j = V_jj x_j + 2 V_j,j+1 x_j+1 + ... (k ascending), then
+  // x'Vx = x_0 t_0 + x_1 t_1 + ... (j ascending). The kernel pairs terms and tiles pixels for
+  // speed; neither may change a bit. Odd and even p, with remainders after the tiles.
+  for (Eigen::Index p : {1, 2, 3, 5, 14, 23}) {
+    for (Eigen::Index rows : {37, 4099}) {
+      const Case c = random_case(rows, p, static_cast<unsigned>(p * 7 + rows));
+      const std::vector<double> packed = habcast::pack_symmetric(c.V);
+      Eigen::VectorXd eta(rows), q(rows);
+      habcast::linear_quadratic(c.X.data(), c.X.outerStride(), rows, c.beta, packed.data(), eta.data(), q.data());
+      int differ = 0;
+      for (Eigen::Index i = 0; i < rows; ++i) {
+        double sum = 0.0;
+        for (Eigen::Index j = 0; j < p; ++j) {
+          double t = c.V(j, j) * c.X(i, j);
+          for (Eigen::Index k = j + 1; k < p; ++k) t = t + (2.0 * c.V(j, k)) * c.X(i, k);
+          sum = j == 0 ? c.X(i, j) * t : sum + c.X(i, j) * t;
+        }
+        differ += same_bits(q[i], sum) ? 0 : 1;
+      }
+      INFO("p = " << p << ", rows = " << rows);
+      CHECK(differ == 0);
+    }
+  }
+}

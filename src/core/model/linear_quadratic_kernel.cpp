@@ -38,7 +38,7 @@ __attribute__((always_inline)) inline void rows(const double* X, Eigen::Index ld
                                                 const double* packed, double* eta, double* q) {
   constexpr auto step = static_cast<Eigen::Index>(sizeof(V) / sizeof(double));
   const auto at = [](auto* column, std::size_t g) { return column + static_cast<Eigen::Index>(g) * step; };
-  V x, e[G], s[G], t[G];
+  V x, e[G], s[G]{}, t[G];  // s starts at the first product (j == 0 below); {} quiets the compiler
   // eta: the first product, then each next one added, like Eigen's column-major GEMV (which
   // starts its accumulators at zero and adds a*b + acc; 0 + a*b is a*b, bit for bit).
 #pragma GCC unroll 8
@@ -57,35 +57,54 @@ __attribute__((always_inline)) inline void rows(const double* X, Eigen::Index ld
   for (std::size_t g = 0; g < G; ++g) store(at(eta, g), e[g]);
   if (!q) return;
   // x'Vx = sum_j x_j t_j with t_j = V_jj x_j + sum_{k>j} 2 V_jk x_k: p (p + 1) / 2 products.
-  const double* w = packed;
-  const auto term = [&](Eigen::Index j) {  // t = t_j, and w moves on to term j + 1
+  // Terms go two at a time, j and j + 1, whose sums read the same x_k for k > j + 1: one load
+  // of each serves both, the two chains of additions overlap, and the inner loop runs half as
+  // often. Each t_j still adds its products in the order k = j + 1, j + 2, ..., and s adds
+  // x_j t_j in the order j = 0, 1, ...: the same operations as one term at a time, bit for bit.
+  V xb, ta[G], tb[G];
+  const double* w = packed;  // term j's row: V_jj, then 2 V_jk for k = j + 1 .. p - 1
+  Eigen::Index j = 0;
+  for (; j + 1 < p; j += 2) {
+    const double* wb = w + (p - j);  // term j + 1's row
+#pragma GCC unroll 8
+    for (std::size_t g = 0; g < G; ++g) {
+      load(x, at(X + j * ld, g));
+      load(xb, at(X + (j + 1) * ld, g));
+      ta[g] = w[0] * x;
+      ta[g] = ta[g] + w[1] * xb;
+      tb[g] = wb[0] * xb;
+    }
+    for (Eigen::Index k = j + 2; k < p; ++k) {
+      const double va = w[k - j];
+      const double vb = wb[k - j - 1];
+#pragma GCC unroll 8
+      for (std::size_t g = 0; g < G; ++g) {
+        load(x, at(X + k * ld, g));
+        ta[g] = ta[g] + va * x;
+        tb[g] = tb[g] + vb * x;
+      }
+    }
+#pragma GCC unroll 8
+    for (std::size_t g = 0; g < G; ++g) {
+      load(x, at(X + j * ld, g));
+      load(xb, at(X + (j + 1) * ld, g));
+      if (j == 0)
+        s[g] = x * ta[g];  // the first product starts the sum
+      else
+        s[g] = s[g] + x * ta[g];
+      s[g] = s[g] + xb * tb[g];
+    }
+    w = wb + (p - j - 1);
+  }
+  if (j < p) {  // the last term when p is odd: t = V_jj x_j alone
 #pragma GCC unroll 8
     for (std::size_t g = 0; g < G; ++g) {
       load(x, at(X + j * ld, g));
       t[g] = w[0] * x;
-    }
-    for (Eigen::Index k = j + 1; k < p; ++k) {
-      const double v = w[k - j];
-#pragma GCC unroll 8
-      for (std::size_t g = 0; g < G; ++g) {
-        load(x, at(X + k * ld, g));
-        t[g] = t[g] + v * x;
-      }
-    }
-    w += p - j;
-  };
-  term(0);  // its product starts the sum
-#pragma GCC unroll 8
-  for (std::size_t g = 0; g < G; ++g) {
-    load(x, at(X, g));
-    s[g] = x * t[g];
-  }
-  for (Eigen::Index j = 1; j < p; ++j) {
-    term(j);
-#pragma GCC unroll 8
-    for (std::size_t g = 0; g < G; ++g) {
-      load(x, at(X + j * ld, g));
-      s[g] = s[g] + x * t[g];
+      if (j == 0)
+        s[g] = x * t[g];
+      else
+        s[g] = s[g] + x * t[g];
     }
   }
 #pragma GCC unroll 8
