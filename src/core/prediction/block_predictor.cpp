@@ -130,11 +130,14 @@ void BlockPredictor::begin(const Eigen::ArrayXXd& raw, const std::vector<std::ui
   const auto n = static_cast<std::size_t>(rows);
   const bool with_se = evaluator_.has_covariance();
   const bool with_limits = with_se && evaluator_.limits() && arrays_;
-  out.suitability.assign(arrays_ ? n : 0, kFloatNodata);
-  out.se.assign(with_se && arrays_ ? n : 0, kFloatNodata);
-  out.lower.assign(with_limits ? n : 0, kFloatNodata);
-  out.upper.assign(with_limits ? n : 0, kFloatNodata);
-  out.flags.assign(domain_ ? n : 0, flag::nodata);
+  // Sized, not filled: chunk() writes every value of these arrays (nodata where a pixel has no
+  // prediction), and the checks below every flag. (Filling them first cost as much as the
+  // chunks' writes: each array is several MiB, far out of cache.)
+  out.suitability.resize(arrays_ ? n : 0);
+  out.se.resize(with_se && arrays_ ? n : 0);
+  out.lower.resize(with_limits ? n : 0);
+  out.upper.resize(with_limits ? n : 0);
+  out.flags.resize(domain_ ? n : 0);
 
   predict_valid_.assign(valid.begin(), valid.begin() + static_cast<std::ptrdiff_t>(n));
   tally.pixels += rows;
@@ -183,13 +186,23 @@ void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& 
 
   const bool with_se = evaluator_.has_covariance() && arrays_;
   const bool with_limits = with_se && evaluator_.limits();
+  const auto no_value = [&](std::size_t o) {
+    if (!arrays_) return;
+    out.suitability[o] = kFloatNodata;
+    if (with_se) out.se[o] = kFloatNodata;
+    if (with_limits) out.lower[o] = out.upper[o] = kFloatNodata;
+  };
   for (Eigen::Index i = 0; i < rows; ++i) {
-    if (!ok[i]) continue;
     const auto o = static_cast<std::size_t>(first + i);
+    if (!ok[i]) {
+      no_value(o);
+      continue;
+    }
     const double mu = prediction_.mu[i];
     if (!representable(mu)) {
       ++tally.not_representable;
       ok[i] = 0;  // so predicted() tells combiners this pixel has no value
+      no_value(o);
       continue;
     }
     if (arrays_) out.suitability[o] = off_nodata(static_cast<float>(mu), tally.moved_off_nodata);

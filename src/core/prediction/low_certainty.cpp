@@ -12,11 +12,6 @@ namespace habcast {
 
 namespace {
 
-// The thresholds are common practice, no source: 0.5 of the scale the predictions live on (the
-// probability scale, or the range of the fitted mean over the training sites), and a factor of 3
-// between the limits of a positive mean (a link-scale interval wider than log 3).
-constexpr double kShareOfScale = 0.5;
-constexpr double kRatio = 3.0;
 
 /// Largest minus smallest fitted mean over the training samples that the model can predict.
 double fitted_spread(const ModelSpec& spec, const TrainingSamples& samples) {
@@ -48,16 +43,6 @@ LowCertaintyRule LowCertaintyRule::for_model(const ModelSpec& spec, const Traini
     rule.kind_ = rule.spread_ > 0.0 ? Kind::spread_width : Kind::unavailable;
   }
   return rule;
-}
-
-bool LowCertaintyRule::applies(double lower, double upper) const {
-  switch (kind_) {
-    case Kind::probability_width: return upper - lower > kShareOfScale;
-    case Kind::ratio: return lower <= 0.0 ? upper > 0.0 : upper > kRatio * lower;
-    case Kind::spread_width: return upper - lower > kShareOfScale * spread_;
-    case Kind::unavailable: return false;
-  }
-  return false;
 }
 
 std::string LowCertaintyRule::description() const {

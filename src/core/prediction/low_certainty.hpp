@@ -25,12 +25,26 @@ class LowCertaintyRule {
   [[nodiscard]] Kind kind() const { return kind_; }
   [[nodiscard]] double spread() const { return spread_; }
   /// Whether the interval [lower, upper] is too wide; always false when the rule is unavailable.
-  [[nodiscard]] bool applies(double lower, double upper) const;
+  /// (Inline: predict asks it for every pixel.)
+  [[nodiscard]] bool applies(double lower, double upper) const {
+    switch (kind_) {
+      case Kind::probability_width: return upper - lower > kShareOfScale;
+      case Kind::ratio: return lower <= 0.0 ? upper > 0.0 : upper > kRatio * lower;
+      case Kind::spread_width: return upper - lower > kShareOfScale * spread_;
+      case Kind::unavailable: return false;
+    }
+    return false;
+  }
   /// The rule in words, for the warning and report.json: "a confidence interval wider than 0.5 in
   /// probability", ...
   [[nodiscard]] std::string description() const;
 
  private:
+  // The thresholds are common practice, no source: 0.5 of the scale the predictions live on (the
+  // probability scale, or the range of the fitted mean over the training sites), and a factor of 3
+  // between the limits of a positive mean (a link-scale interval wider than log 3).
+  static constexpr double kShareOfScale = 0.5;
+  static constexpr double kRatio = 3.0;
   Kind kind_ = Kind::unavailable;
   double spread_ = 0.0;
 };
