@@ -132,3 +132,38 @@ TEST_CASE("a raw value whose model value overflows loses its pixel and is counte
   CHECK(all == std::vector<std::uint8_t>(static_cast<std::size_t>(n), 1));
   CHECK(values(17, 0) == 0.0);
 }
+
+TEST_CASE("categorical values map to levels as level_code and level_index say", "[fuzz-regression]") {
+  // The model-value loop remembers the last code's level (class rasters come in runs); whatever
+  // the run, each raw value must get the level that level_code() and Covariate::level_index() give
+  // it, with small and large declared codes, and the same pixels counted.
+  const std::vector<double> codes = {1.0, 2.0, 2.5, -1.0, -0.0, 0.0, 3.0, 7.0, 1e300, -1e300, 2.0, 1.0,
+                                     1.0000000000000002, 1023.0, 1024.0, 4.0};
+  for (const std::int64_t far_code : {std::int64_t{4}, std::int64_t{5000}}) {
+    habcast::ModelSpec spec = soil_spec();
+    spec.covariates[1].levels = {{1, "peat"}, {2, "clay"}, {far_code, "loam"}};
+    const habcast::TermPlan plan(spec);
+    const Eigen::Index n = 45;  // vector body and remainder
+    Eigen::ArrayXXd raw(n, 2);
+    raw.col(0).setConstant(1.0);
+    std::vector<std::uint8_t> valid(static_cast<std::size_t>(n), 1);
+    for (Eigen::Index i = 0; i < n; ++i) raw(i, 1) = codes[static_cast<std::size_t>(i) % codes.size()];
+    valid[3] = 0;  // invalid on entry with an unknown code: not counted
+    valid[4] = 0;  // invalid on entry with a known code
+    habcast::ModelValues values(n, 2);
+    habcast::ModelValueCounts counts;
+    habcast::to_model_values(spec, plan, raw, 0, n, values, valid.data(), counts);
+    std::int64_t unknown = 0;
+    for (Eigen::Index i = 0; i < n; ++i) {
+      const std::optional<std::int64_t> whole = habcast::level_code(raw(i, 1));
+      const int level = whole ? spec.covariates[1].level_index(*whole) : -1;
+      const bool was_valid = i != 3 && i != 4;
+      INFO("far code " << far_code << ", row " << i << ", raw " << raw(i, 1));
+      CHECK(values(i, 1) == (was_valid ? static_cast<double>(level) : 0.0));
+      CHECK(valid[static_cast<std::size_t>(i)] == (was_valid && level >= 0 ? 1 : 0));
+      unknown += was_valid && level < 0 ? 1 : 0;
+    }
+    CHECK(counts.unknown_level == unknown);
+    CHECK(unknown > 10);
+  }
+}
