@@ -130,10 +130,10 @@ CovariateReader& CovariateReader::operator=(CovariateReader&&) noexcept = defaul
 
 namespace {
 
-// The validity pass over a decoded window, without branches so that it vectorises (the window is
-// still in cache from the decoder). A NaN nodata value needs no comparison of its own: non-finite
-// pixels are never valid. (The flag is written as a byte of `was & ok`: a select or an &= on the
-// byte, or a count kept in a double, keeps GCC 12 from vectorising the loop.)
+// The validity pass over a decoded window, right after GDAL wrote it, without branches so that it
+// vectorises. A NaN nodata value needs no comparison of its own: non-finite pixels are never
+// valid. (The flag is written as a byte of `was & ok`: a select or an &= on the byte, or a count
+// kept in a double, keeps GCC 12 from vectorising the loop.)
 HABCAST_PIXEL_LOOPS std::int64_t mark_missing(double* __restrict values, std::uint8_t* __restrict valid,
                                               std::size_t count, const Nodata& nodata) {
   const double nan = std::numeric_limits<double>::quiet_NaN();

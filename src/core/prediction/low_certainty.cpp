@@ -12,7 +12,6 @@ namespace habcast {
 
 namespace {
 
-
 /// Largest minus smallest fitted mean over the training samples that the model can predict.
 double fitted_spread(const ModelSpec& spec, const TrainingSamples& samples) {
   const Design d = build_design(spec, samples.raw);
