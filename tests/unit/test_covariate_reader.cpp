@@ -136,7 +136,8 @@ TEST_CASE("A long row is marked pixel by pixel and its missing pixels counted", 
   const std::string path = "/vsimem/reader_long_row.tif";
   std::vector<float> pixels(45);
   for (std::size_t i = 0; i < pixels.size(); ++i) pixels[i] = 0.25f * static_cast<float>(i);
-  const std::vector<std::size_t> nodata_at = {0, 7, 31, 44}, nan_at = {12, 40}, inf_at = {3, 33};
+  const std::vector<std::size_t> nodata_at = {0, 7, 31, 44}, nan_at = {12, 40};
+  const std::vector<std::size_t> inf_at = {3, 34};  // +inf and -inf
   for (std::size_t i : nodata_at) pixels[i] = -9999.0f;
   for (std::size_t i : nan_at) pixels[i] = std::numeric_limits<float>::quiet_NaN();
   for (std::size_t i : inf_at) pixels[i] = (i % 2 ? 1.0f : -1.0f) * std::numeric_limits<float>::infinity();
