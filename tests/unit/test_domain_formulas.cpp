@@ -3,6 +3,7 @@
 #include <catch2/catch.hpp>
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <random>
 #include <sstream>
 #include <string>
@@ -13,7 +14,9 @@
 #include "core/domain/novelty_model.hpp"
 #include "core/domain/training_domain.hpp"
 #include "core/domain/training_samples.hpp"
+#include "core/model/float_nodata.hpp"
 #include "core/model/model_file.hpp"
+#include "core/model/model_values.hpp"
 #include "core/model/term_plan.hpp"
 #include "core/numeric/whitening_frame.hpp"
 #include "test_support.hpp"
@@ -160,5 +163,119 @@ TEST_CASE("the bucketed MESS search finds what a binary search finds", "[domain]
       CHECK(index.count_below(p) == expected);
       if (s.front() < s.back()) CHECK(index.mess_similarity(p) == habcast::mess_similarity(s, p));
     }
+  }
+}
+
+TEST_CASE("the joint checks of a block give every pixel what the one-pixel formulas give", "[domain]") {
+  // The checks run over slabs of pixels in columns. Each pixel of a block spanning several slabs
+  // (with a remainder) must get exactly what the published one-pixel formulas give it: MESS
+  // (Elith et al. 2010) and NT1 (Mesgaran et al. 2014) from the free functions, NT2 from the
+  // frame's whitening, the hull bits from a plain scan of every facet. Among the pixels: no data,
+  // a log covariate at or below zero (no model value), values beyond every range.
+  const std::string model_text =
+      "habcast_model = 1\n[model]\nfamily = \"gaussian\"\n"
+      "[covariates.a]\ncenter = 1.0\nscale = 2.0\n[covariates.b]\ntransform = \"log\"\n[covariates.c]\n"
+      "[coefficients]\nterms = [\"(Intercept)\", \"a\", \"b\", \"c\", \"a:b\", \"b:c\"]\n"
+      "estimates = [0.0, 1.0, 1.0, 1.0, 0.5, 0.5]\n";
+  const habcast::ModelSpec spec = habcast::parse_model_text(model_text, "slabs.toml");
+  const habcast::TermPlan plan(spec);
+  std::mt19937_64 random(20261204);
+  std::normal_distribution<double> normal(0.0, 1.0);
+  std::ostringstream csv;
+  csv << "a,b,c\n";
+  for (int i = 0; i < 150; ++i) {
+    const double u = normal(random), v = normal(random);
+    csv << u << "," << std::exp(0.6 * u + 0.5 * v) << "," << (u - v + 0.3 * normal(random)) << "\n";
+  }
+  const habcast::TrainingSamples samples = habcast::parse_training_samples(csv.str(), "slabs.csv", spec);
+  const habcast::TrainingDomain domain(spec, samples);
+
+  const Eigen::Index n = 700;  // slabs of 256: two whole ones and a remainder
+  Eigen::ArrayXXd raw(n, 3);
+  std::vector<std::uint8_t> valid(static_cast<std::size_t>(n), 1);
+  std::uniform_real_distribution<double> wide(-3.5, 3.5);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    raw(i, 0) = wide(random);
+    raw(i, 1) = std::exp(wide(random));
+    raw(i, 2) = 1.5 * wide(random);
+    if (i % 97 == 5) raw(i, 1) = (i % 2) ? 0.0 : -1.0;  // outside log's domain
+    if (i % 89 == 7) valid[static_cast<std::size_t>(i)] = 0;
+  }
+  const auto model_values = [&](Eigen::Index i, std::vector<double>& z) {
+    bool finite = true;
+    for (int c = 0; c < 3; ++c) {
+      z[static_cast<std::size_t>(c)] = habcast::model_value(spec.covariates[static_cast<std::size_t>(c)], raw(i, c));
+      finite = finite && std::isfinite(z[static_cast<std::size_t>(c)]);
+    }
+    return finite;
+  };
+  std::vector<std::vector<double>> sorted(3);
+  for (Eigen::Index i = 0; i < samples.raw.rows(); ++i)
+    for (int c = 0; c < 3; ++c)
+      sorted[static_cast<std::size_t>(c)].push_back(habcast::model_value(spec.covariates[static_cast<std::size_t>(c)], samples.raw(i, c)));
+  for (std::vector<double>& s : sorted) std::sort(s.begin(), s.end());
+
+  for (const bool nt2 : {true, false}) {
+    INFO((nt2 ? "every check" : "without NT2: the hull whitens in its own frame"));
+    habcast::NoveltyOptions options;
+    options.nt2 = nt2;
+    const habcast::NoveltyModel model(spec, plan, samples, options);
+    REQUIRE(model.hull().has_value());
+    REQUIRE(model.pairs().size() == 2);
+    std::vector<std::uint8_t> flags(static_cast<std::size_t>(n), 0);
+    habcast::DomainTally tally(3);
+    domain.flag(raw, n, valid.data(), flags.data(), tally);
+    const std::vector<std::uint8_t> range_flags = flags;
+    habcast::NoveltyBlock out;
+    model.check(raw, n, valid.data(), flags.data(), out, tally);
+
+    const double nt2_max = model.nt2_max_distance() * model.nt2_max_distance();
+    std::vector<double> z(3), y(3);
+    std::int64_t outside_hull = 0, outside_pairs = 0;
+    for (Eigen::Index i = 0; i < n; ++i) {
+      INFO("pixel " << i);
+      const auto k = static_cast<std::size_t>(i);
+      if (!valid[k] || !model_values(i, z)) {
+        CHECK(out.mess[k] == habcast::kFloatNodata);
+        CHECK(out.least_similar[k] == habcast::flag::nodata);
+        CHECK(flags[k] == range_flags[k]);
+        continue;
+      }
+      double mess = std::numeric_limits<double>::infinity(), nt1 = 0.0;
+      int least = 0;
+      for (int c = 0; c < 3; ++c) {
+        const double s = habcast::mess_similarity(sorted[static_cast<std::size_t>(c)], z[static_cast<std::size_t>(c)]);
+        if (s < mess) {
+          mess = s;
+          least = c;
+        }
+        nt1 += habcast::nt1_term(sorted[static_cast<std::size_t>(c)].front(), sorted[static_cast<std::size_t>(c)].back(), z[static_cast<std::size_t>(c)]);
+      }
+      CHECK(out.mess[k] == static_cast<float>(std::max(mess, -9000.0)));
+      CHECK(out.nt1[k] == static_cast<float>(std::max(nt1, -9000.0)));
+      CHECK(out.least_similar[k] == least + 1);
+      if (nt2) {
+        model.hull()->frame().whiten(z.data(), y.data());
+        const double d2 = y[0] * y[0] + y[1] * y[1] + y[2] * y[2];
+        CHECK_THAT(out.nt2[k], WithinAbs(d2 / nt2_max, 1e-6 * (1.0 + d2 / nt2_max)));
+      } else {
+        CHECK(out.nt2[k] == habcast::kFloatNodata);
+      }
+      const bool in_range = (range_flags[k] & habcast::flag::outside_range) == 0;
+      const bool hull_out = in_range && !model.hull()->contains_by_scan(z.data());
+      CHECK(((flags[k] & habcast::flag::outside_hull) != 0) == hull_out);
+      outside_hull += hull_out;
+      bool pair_out = false;
+      for (std::size_t p = 0; p < 2; ++p) {
+        const double xy[2] = {z[static_cast<std::size_t>(model.pairs()[p].a)], z[static_cast<std::size_t>(model.pairs()[p].b)]};
+        pair_out = pair_out || (in_range && !model.pair_hulls()[p].contains_by_scan(xy));
+      }
+      CHECK(((flags[k] & habcast::flag::outside_pair_hull) != 0) == pair_out);
+      outside_pairs += pair_out;
+    }
+    // The block must hold every case, or the comparison proves little.
+    CHECK(outside_hull > 20);
+    CHECK(outside_pairs > 10);
+    CHECK(tally.mess_negative > 100);
   }
 }

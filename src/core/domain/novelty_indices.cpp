@@ -50,7 +50,9 @@ SortedValues::SortedValues(std::vector<double> sorted) : sorted_(std::move(sorte
   }
 }
 
-HABCAST_PIXEL_LOOPS std::size_t SortedValues::count_below(double p) const {
+// count_below() and mess_similarity() live in these inline bodies, so that the per-block loop
+// below gets them inlined (a call per value cost about as much as the search).
+__attribute__((always_inline)) inline std::size_t SortedValues::count_below_here(double p) const {
   const std::size_t n = sorted_.size();
   // Outside the training range (a good share of the pixels flagged at all) there is nothing to search.
   // (std::lower_bound's answers: 0 at or below the minimum and for NaN, n above the maximum.)
@@ -83,11 +85,19 @@ HABCAST_PIXEL_LOOPS std::size_t SortedValues::count_below(double p) const {
   return static_cast<std::size_t>(std::lower_bound(sorted_.begin(), sorted_.end(), p) - sorted_.begin());
 }
 
-double SortedValues::mess_similarity(double p) const {
-  const std::size_t smaller = count_below(p);
+__attribute__((always_inline)) inline double SortedValues::similarity_here(double p) const {
+  const std::size_t smaller = count_below_here(p);
   // Inside the range the similarity depends on the count alone: looked up, computed as below.
   if (smaller > 0 && smaller < sorted_.size() && !inner_similarity_.empty()) return inner_similarity_[smaller];
   return similarity_from_count(sorted_, p, smaller);
+}
+
+HABCAST_PIXEL_LOOPS std::size_t SortedValues::count_below(double p) const { return count_below_here(p); }
+
+HABCAST_PIXEL_LOOPS double SortedValues::mess_similarity(double p) const { return similarity_here(p); }
+
+HABCAST_PIXEL_LOOPS void SortedValues::mess_similarity_columns(const double* p, std::size_t n, double* out) const {
+  for (std::size_t i = 0; i < n; ++i) out[i] = similarity_here(p[i]);
 }
 
 double nt1_term(double min, double max, double p) { return std::min({p - min, max - p, 0.0}) / (max - min); }

@@ -30,9 +30,13 @@ class SortedValues {
   [[nodiscard]] std::size_t count_below(double p) const;
   /// mess_similarity(values(), p), faster.
   [[nodiscard]] double mess_similarity(double p) const;
+  /// mess_similarity() of `n` values p[0..n) into out[0..n): the same values, one call per block.
+  void mess_similarity_columns(const double* p, std::size_t n, double* out) const;
 
  private:
   static constexpr std::size_t kWindow = 8;  ///< values counted without branches
+  [[nodiscard]] std::size_t count_below_here(double p) const;
+  [[nodiscard]] double similarity_here(double p) const;
   std::vector<double> sorted_;
   std::vector<double> padded_;  ///< sorted_ and kWindow times +inf
   std::vector<double> inner_similarity_;  ///< per count 1 .. size - 1 of values below p: the similarity

@@ -7,6 +7,7 @@
 
 #include "core/base/error.hpp"
 #include "core/base/number_text.hpp"
+#include "core/base/pixel_loops.hpp"
 #include "core/domain/extrapolation_flags.hpp"
 #include "core/domain/novelty_indices.hpp"
 #include "core/model/float_nodata.hpp"
@@ -252,89 +253,168 @@ bool NoveltyModel::same_joint_checks(const NoveltyModel& other) const {
          complete_points_.cols() == other.complete_points_.cols() && complete_points_ == other.complete_points_;
 }
 
+namespace {
+
+/// Model values of the slab's pixels (column j from raw column covariates[j]) and which pixels
+/// the checks use: valid, with every model value finite. The same values as model_value().
+HABCAST_PIXEL_LOOPS void slab_values(const ModelSpec& spec, const std::vector<int>& covariates, const Eigen::ArrayXXd& raw,
+                                     std::size_t first, std::size_t m, const std::uint8_t* valid, double* z,
+                                     std::size_t stride, double* bad, std::uint8_t* use) {
+  for (std::size_t i = 0; i < m; ++i) bad[i] = 0.0;
+  for (std::size_t j = 0; j < covariates.size(); ++j) {
+    const Covariate& cov = spec.covariates[static_cast<std::size_t>(covariates[j])];
+    const double* __restrict in = raw.col(covariates[j]).data() + first;
+    double* __restrict zj = z + j * stride;
+    if (cov.transform == Transform::none) {
+      const double center = cov.center, scale = cov.scale;
+      for (std::size_t i = 0; i < m; ++i) zj[i] = (in[i] - center) / scale;
+    } else {
+      for (std::size_t i = 0; i < m; ++i) zj[i] = model_value(cov, in[i]);
+    }
+    // 0 * z is NaN exactly where z is not finite: the sum marks a pixel with any such value.
+    for (std::size_t i = 0; i < m; ++i) bad[i] += 0.0 * zj[i];
+  }
+  for (std::size_t i = 0; i < m; ++i) use[i] = static_cast<std::uint8_t>((valid[i] != 0) & (bad[i] == 0.0));
+}
+
+/// Running minimum of the similarities (the first covariate wins ties) and the sum of NT1 terms,
+/// covariate `j` added to the slab's columns: per pixel the operations of a loop over covariates.
+HABCAST_PIXEL_LOOPS void add_similarity(std::size_t m, std::int64_t j, const double* __restrict similarity,
+                                        const double* __restrict z, double lo, double hi, double* __restrict mess,
+                                        std::int64_t* __restrict least, double* __restrict nt1) {
+  for (std::size_t i = 0; i < m; ++i) {
+    const bool smaller = similarity[i] < mess[i];
+    mess[i] = smaller ? similarity[i] : mess[i];
+    least[i] = smaller ? j : least[i];
+    nt1[i] += std::min(std::min(z[i] - lo, hi - z[i]), 0.0) / (hi - lo);  // nt1_term(lo, hi, z)
+  }
+}
+
+}  // namespace
+
 void NoveltyModel::check_pixels(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid,
                                 std::uint8_t* flags, NoveltyBlock& out, DomainTally& tally, bool joint,
                                 const std::vector<bool>* skip_pairs) const {
   const auto n = static_cast<std::size_t>(rows);
   if (!active()) return;
   const std::size_t d = covariates_.size();
-  out.z.resize(d);
-  out.y.resize(std::max<std::size_t>(d, 2));
+  NoveltyBlock::Slab& slab = out.slab;
+  const int joint_rank = frame_ ? frame_->rank : (hull_ ? hull_->rank() : 0);
+  slab.z.resize(kSlab * d);
+  slab.y.resize(kSlab * static_cast<std::size_t>(std::max({joint_rank, 2, 1})));
+  for (std::vector<double>* v : {&slab.off, &slab.mess, &slab.nt1, &slab.similarity}) v->resize(kSlab);
+  slab.least.resize(kSlab);
+  slab.use.resize(kSlab);
+  slab.point.resize(std::max<std::size_t>(2 * d, 4));
   if (tally.pair_outside.size() < pairs_.size()) tally.pair_outside.resize(pairs_.size());
   // Climbs start afresh in every block, so a block's result never depends on which blocks a
   // worker handled before it.
   int hull_start = 0;
   std::vector<int> pair_start(pairs_.size(), 0);
-  std::vector<std::size_t> pair_a(pairs_.size()), pair_b(pairs_.size());
-  for (std::size_t p = 0; p < pairs_.size(); ++p) {
-    pair_a[p] = static_cast<std::size_t>(std::find(covariates_.begin(), covariates_.end(), pairs_[p].a) - covariates_.begin());
-    pair_b[p] = static_cast<std::size_t>(std::find(covariates_.begin(), covariates_.end(), pairs_[p].b) - covariates_.begin());
+  for (std::size_t first = 0; first < n; first += kSlab) {
+    const std::size_t m = std::min(kSlab, n - first);
+    slab_values(spec_, covariates_, raw, first, m, valid + first, slab.z.data(), kSlab, slab.similarity.data(),
+                slab.use.data());
+    check_slab(first, m, flags, out, tally, joint, skip_pairs, hull_start, pair_start);
   }
-  double xy[2];
-  const bool keep_pairs = joint && out.keep_pairs;
+}
 
-  for (std::size_t i = 0; i < n; ++i) {
-    if (!valid[i]) continue;
-    bool finite = true;
+// Each check runs over the slab in columns where it can (model values, similarities, whitening,
+// NT2); the hull climbs go pixel by pixel, in pixel order, each from where the last one ended.
+// Every pixel gets exactly the operations, in the same order, of a check done pixel by pixel.
+void NoveltyModel::check_slab(std::size_t first, std::size_t m, std::uint8_t* flags, NoveltyBlock& out,
+                              DomainTally& tally, bool joint, const std::vector<bool>* skip_pairs, int& hull_start,
+                              std::vector<int>& pair_start) const {
+  NoveltyBlock::Slab& slab = out.slab;
+  const std::size_t d = covariates_.size();
+  const std::uint8_t* use = slab.use.data();
+  std::uint8_t* slab_flags = flags + first;
+  const auto z_column = [&](std::size_t j) { return slab.z.data() + j * kSlab; };
+
+  if (joint && options_.mess) {
+    std::fill_n(slab.mess.data(), m, std::numeric_limits<double>::infinity());
+    std::fill_n(slab.least.data(), m, 0);
+    std::fill_n(slab.nt1.data(), m, 0.0);
     for (std::size_t j = 0; j < d; ++j) {
-      const auto c = static_cast<std::size_t>(covariates_[j]);
-      out.z[j] = model_value(spec_.covariates[c], raw(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(c)));
-      finite = finite && std::isfinite(out.z[j]);
+      const SortedValues& s = sorted_[j];
+      s.mess_similarity_columns(z_column(j), m, slab.similarity.data());
+      add_similarity(m, static_cast<std::int64_t>(j), slab.similarity.data(), z_column(j), s.values().front(),
+                     s.values().back(), slab.mess.data(), slab.least.data(), slab.nt1.data());
     }
-    if (!finite) continue;  // outside a transform's domain: no prediction, nothing to compare
-    const bool in_range = (flags[i] & flag::outside_range) == 0;
-
-    if (joint && options_.mess) {
-      double mess = std::numeric_limits<double>::infinity();
-      double nt1 = 0.0;
-      std::size_t least_similar = 0;
-      for (std::size_t j = 0; j < d; ++j) {
-        const SortedValues& s = sorted_[j];
-        const double similarity = s.mess_similarity(out.z[j]);
-        if (similarity < mess) {
-          mess = similarity;
-          least_similar = j;
-        }
-        nt1 += nt1_term(s.values().front(), s.values().back(), out.z[j]);
-      }
-      out.mess[i] = novelty_output(mess);
-      out.nt1[i] = novelty_output(nt1);
-      out.least_similar[i] = static_cast<std::uint8_t>(covariates_[least_similar] + 1);
+    for (std::size_t i = 0; i < m; ++i) {
+      if (!use[i]) continue;
+      const double mess = slab.mess[i];
+      const auto least = static_cast<std::size_t>(covariates_[static_cast<std::size_t>(slab.least[i])]);
+      out.mess[first + i] = novelty_output(mess);
+      out.nt1[first + i] = novelty_output(slab.nt1[i]);
+      out.least_similar[first + i] = static_cast<std::uint8_t>(least + 1);
       if (mess < 0.0) {
         ++tally.mess_negative;
-        ++tally.least_similar[static_cast<std::size_t>(covariates_[least_similar])];
+        ++tally.least_similar[least];
       }
     }
-    double off_plane = 0.0;
-    if (joint && options_.nt2) {
-      off_plane = frame_->whiten(out.z.data(), out.y.data());
+  }
+
+  // Whitened coordinates in NT2's frame (the hull's too when they are the same frame).
+  const WhiteningFrame* joint_frame = nullptr;
+  if (joint && options_.nt2) joint_frame = &*frame_;
+  else if (joint && hull_) joint_frame = &hull_->frame();
+  if (joint_frame) {
+    std::vector<const double*> columns(d);
+    for (std::size_t j = 0; j < d; ++j) columns[j] = z_column(j);
+    joint_frame->whiten_columns(columns.data(), m, slab.y.data(), kSlab, slab.off.data());
+  }
+  const int rank = joint_frame ? joint_frame->rank : 0;
+  if (joint && options_.nt2) {
+    for (std::size_t i = 0; i < m; ++i) {
+      if (!use[i]) continue;
       double r2 = 0.0;
-      for (int j = 0; j < frame_->rank; ++j) r2 += out.y[static_cast<std::size_t>(j)] * out.y[static_cast<std::size_t>(j)];
+      for (int j = 0; j < rank; ++j) r2 += slab.y[static_cast<std::size_t>(j) * kSlab + i] * slab.y[static_cast<std::size_t>(j) * kSlab + i];
       // NT2 = D²(pixel) / max D²(training samples), the ratio of squared Mahalanobis distances of
       // Mesgaran, Cousens & Webber 2014 (from memory). NT2 > 1 exactly where D > max D, so the
       // flag is the same as for the ratio of distances.
       const double nt2 = nt2_max_ > 0.0 ? r2 / nt2_max_ : 0.0;
-      out.nt2[i] = static_cast<float>(std::min(nt2, 1e30));
+      out.nt2[first + i] = static_cast<float>(std::min(nt2, 1e30));
       if (nt2 > options_.nt2_threshold) {
         ++tally.nt2_above;
-        if (in_range) flags[i] |= flag::novel_combination;
+        if ((slab_flags[i] & flag::outside_range) == 0) slab_flags[i] |= flag::novel_combination;
       }
     }
-    if (!in_range) continue;
-    if (joint && hull_) {
-      // NT2 has just whitened z in the hull's own frame (checked equal when built): reuse it.
-      const bool inside = hull_shares_nt2_frame_ ? hull_->contains_whitened(out.y.data(), off_plane, hull_start)
-                                                 : hull_->contains(out.z.data(), out.y.data(), hull_start);
-      if (!inside) flags[i] |= flag::outside_hull;
+  }
+
+  const auto checked = [&](std::size_t i) { return use[i] && (slab_flags[i] & flag::outside_range) == 0; };
+  double* point = slab.point.data();
+  if (joint && hull_) {
+    // Whitened in the hull's own frame above when it is NT2's (checked equal when built) or NT2 is off.
+    const bool whitened = joint_frame == &hull_->frame() || hull_shares_nt2_frame_;
+    for (std::size_t i = 0; i < m; ++i) {
+      if (!checked(i)) continue;
+      bool inside = false;
+      if (whitened) {
+        for (int j = 0; j < rank; ++j) point[j] = slab.y[static_cast<std::size_t>(j) * kSlab + i];
+        inside = hull_->contains_whitened(point, slab.off[i], hull_start);
+      } else {
+        for (std::size_t j = 0; j < d; ++j) point[j] = z_column(j)[i];
+        inside = hull_->contains(point, point + d, hull_start);
+      }
+      if (!inside) slab_flags[i] |= flag::outside_hull;
     }
-    for (std::size_t p = 0; p < pairs_.size(); ++p) {
-      if (skip_pairs && (*skip_pairs)[p]) continue;
-      xy[0] = out.z[pair_a[p]];
-      xy[1] = out.z[pair_b[p]];
-      if (!pair_hulls_[p].contains(xy, out.y.data(), pair_start[p])) {
-        flags[i] |= flag::outside_pair_hull;
+  }
+  const bool keep_pairs = joint && out.keep_pairs;
+  for (std::size_t p = 0; p < pairs_.size(); ++p) {
+    if (skip_pairs && (*skip_pairs)[p]) continue;
+    const TrainingHull& hull = pair_hulls_[p];
+    const std::size_t a = static_cast<std::size_t>(std::find(covariates_.begin(), covariates_.end(), pairs_[p].a) - covariates_.begin());
+    const std::size_t b = static_cast<std::size_t>(std::find(covariates_.begin(), covariates_.end(), pairs_[p].b) - covariates_.begin());
+    const double* columns[2] = {z_column(a), z_column(b)};
+    hull.frame().whiten_columns(columns, m, slab.y.data(), kSlab, slab.off.data());
+    for (std::size_t i = 0; i < m; ++i) {
+      if (!checked(i)) continue;
+      for (int j = 0; j < hull.rank(); ++j) point[j] = slab.y[static_cast<std::size_t>(j) * kSlab + i];
+      if (!hull.contains_whitened(point, slab.off[i], pair_start[p])) {
+        slab_flags[i] |= flag::outside_pair_hull;
         ++tally.pair_outside[p];
-        if (keep_pairs) out.pair_outside[p][i] = 1;
+        if (keep_pairs) out.pair_outside[p][first + i] = 1;
       }
     }
   }

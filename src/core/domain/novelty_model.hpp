@@ -49,8 +49,15 @@ struct NoveltyBlock {
   /// pair's hull (for check_pairs() of another model with the same pair).
   bool keep_pairs = false;
   std::vector<std::vector<std::uint8_t>> pair_outside;
-  // Scratch reused across blocks: model values of one pixel and whitened coordinates.
-  std::vector<double> z, y;
+  /// Scratch reused across blocks, per slab of pixels in columns (NoveltyModel::check_pixels).
+  struct Slab {
+    std::vector<double> z;        ///< model values, one column per covariate
+    std::vector<double> y, off;   ///< whitened coordinates (one column per axis), distance off the plane
+    std::vector<double> mess, nt1, similarity;
+    std::vector<std::int64_t> least;  ///< index (into the model's covariates) of the smallest similarity
+    std::vector<std::uint8_t> use;    ///< valid with every model value finite
+    std::vector<double> point;        ///< one pixel's coordinates, gathered from the columns
+  } slab;
 };
 
 class NoveltyModel {
@@ -100,6 +107,11 @@ class NoveltyModel {
  private:
   void check_pixels(const Eigen::ArrayXXd& raw, Eigen::Index rows, const std::uint8_t* valid, std::uint8_t* flags,
                     NoveltyBlock& out, DomainTally& tally, bool joint, const std::vector<bool>* skip_pairs) const;
+  /// check_pixels() for the `m` pixels from `first`, whose model values and usability are in out.slab.
+  void check_slab(std::size_t first, std::size_t m, std::uint8_t* flags, NoveltyBlock& out, DomainTally& tally,
+                  bool joint, const std::vector<bool>* skip_pairs, int& hull_start, std::vector<int>& pair_start) const;
+  /// Pixels per slab: the slab's columns (a dozen of them for four covariates) stay in L1.
+  static constexpr std::size_t kSlab = 256;
   void build_univariate(const ModelSpec& spec, const TrainingSamples& samples);
   void build_joint(const ModelSpec& spec, const TrainingSamples& samples);
   void build_pairs(const ModelSpec& spec, const TermPlan& plan, const TrainingSamples& samples);

@@ -4,6 +4,8 @@
 #include <algorithm>
 #include <cmath>
 
+#include "core/base/pixel_loops.hpp"
+
 namespace habcast {
 
 double WhiteningFrame::whiten(const double* x, double* y) const {
@@ -20,6 +22,29 @@ double WhiteningFrame::whiten(const double* x, double* y) const {
     off = std::max(off, std::fabs(s));
   }
   return off;
+}
+
+HABCAST_PIXEL_LOOPS void WhiteningFrame::whiten_columns(const double* const* x, std::size_t n, double* y,
+                                                         std::size_t y_stride, double* off) const {
+  const Eigen::Index d = mean.size();
+  for (Eigen::Index i = 0; i < rank; ++i) {
+    double* __restrict yi = y + static_cast<std::size_t>(i) * y_stride;
+    for (std::size_t p = 0; p < n; ++p) yi[p] = 0.0;
+    for (Eigen::Index j = 0; j < d; ++j) {
+      const double* __restrict xj = x[j];
+      const double w = to_white(i, j), m = mean[j];
+      for (std::size_t p = 0; p < n; ++p) yi[p] += w * (xj[p] - m);
+    }
+  }
+  double* __restrict o = off;
+  for (std::size_t p = 0; p < n; ++p) o[p] = 0.0;
+  for (Eigen::Index i = 0; i < flat.rows(); ++i) {
+    for (std::size_t p = 0; p < n; ++p) {
+      double s = 0.0;
+      for (Eigen::Index j = 0; j < d; ++j) s += flat(i, j) * (x[j][p] - mean[j]);
+      o[p] = std::max(o[p], std::fabs(s));
+    }
+  }
 }
 
 bool WhiteningFrame::same_as(const WhiteningFrame& other) const {

@@ -4,6 +4,7 @@
 // point is then its Euclidean length in this frame, and the convex hull is built there so that
 // its shape is well conditioned whatever the covariates' correlations.
 #include <Eigen/Core>
+#include <cstddef>
 
 namespace habcast {
 
@@ -17,6 +18,12 @@ struct WhiteningFrame {
   /// Whitened coordinates of one point `x` (d values) into `y` (rank values); returns the largest
   /// absolute distance of x from the training plane along the flat directions (0 at full rank).
   double whiten(const double* x, double* y) const;
+
+  /// whiten() for `n` points at once, held in columns: x[j][p] is coordinate j of point p (d
+  /// column pointers); y[i * y_stride + p] receives whitened coordinate i (rank columns) and
+  /// off[p] the distance from the training plane. Every value is the one whiten() gives, bit for
+  /// bit (the same operations in the same order); the loops run across points, so they vectorise.
+  void whiten_columns(const double* const* x, std::size_t n, double* y, std::size_t y_stride, double* off) const;
 
   /// Exactly the same frame (bit for bit), so whitened coordinates from one serve the other.
   [[nodiscard]] bool same_as(const WhiteningFrame& other) const;
