@@ -155,6 +155,40 @@ TEST_CASE("hull membership agrees with a linear-programming reference on 100,000
   CHECK(inside < 70000);
 }
 
+TEST_CASE("the facet climb and a scan of every facet agree in 1 to 7 dimensions", "[domain][hull]") {
+  // The climb is compiled once per common dimension (2 to 6) and once for any other; each must
+  // give the answer of a plain scan over all facets, with the start facet carried from point to
+  // point as predict carries it.
+  std::mt19937_64 rng(20261204);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  for (int d = 1; d <= 7; ++d) {
+    INFO(d << " dimensions");
+    const Eigen::MatrixXd X = correlated_cloud(d == 7 ? 24 : 40, d, rng);
+    const habcast::TrainingHull hull(X);
+    REQUIRE(hull.rank() == d);
+    const Eigen::VectorXd lo = X.colwise().minCoeff(), hi = X.colwise().maxCoeff();
+    int start = 0, inside = 0, outside = 0;
+    std::vector<double> y(static_cast<std::size_t>(d));
+    for (int k = 0; k < 4000; ++k) {
+      Eigen::VectorXd p(d);
+      if (k % 2 == 0) {  // the range box enlarged by 10 %
+        for (int j = 0; j < d; ++j) p[j] = lo[j] - 0.1 * (hi[j] - lo[j]) + 1.2 * (hi[j] - lo[j]) * unit(rng);
+      } else {  // between two training points, a little beyond either at times
+        const Eigen::Index a = static_cast<Eigen::Index>(unit(rng) * static_cast<double>(X.rows())) % X.rows();
+        const Eigen::Index b = static_cast<Eigen::Index>(unit(rng) * static_cast<double>(X.rows())) % X.rows();
+        const double t = -0.05 + 1.1 * unit(rng);
+        p = (X.row(a) + t * (X.row(b) - X.row(a))).transpose();
+      }
+      const bool expected = hull.contains_by_scan(p.data());
+      INFO("point " << k);
+      CHECK(hull.contains(p.data(), y.data(), start) == expected);
+      (expected ? inside : outside) += 1;
+    }
+    CHECK(inside > 300);
+    CHECK(outside > 300);
+  }
+}
+
 TEST_CASE("a flat training set gives a hull in the plane it spans", "[domain][hull]") {
   SECTION("collinear points in 3-D: the segment between the extremes") {
     Eigen::MatrixXd X(5, 3);

@@ -53,7 +53,8 @@ void TrainingHull::build_facets(const Eigen::MatrixXd& white) {
     gauge_.resize(2, 1);
     gauge_(0, 0) = 1.0 / hi;
     gauge_(1, 0) = 1.0 / lo;  // lo < 0: the centroid lies strictly between
-    neighbours_ = {{1}, {0}};
+    neighbour_start_ = {0, 1, 2};
+    neighbour_list_ = {1, 0};
     return;
   }
   // Rows are whitened copies; layout (row-major transfer) is qhull_facets' business.
@@ -67,12 +68,17 @@ void TrainingHull::build_facets(const Eigen::MatrixXd& white) {
                            " passes through it); the samples are too close to flat");
     gauge_.row(f) = facets.normals.row(f) / distance;
   }
-  neighbours_ = facets.neighbours;
+  neighbour_start_.assign(1, 0);
+  for (const std::vector<int>& adjacent : facets.neighbours) {
+    neighbour_list_.insert(neighbour_list_.end(), adjacent.begin(), adjacent.end());
+    neighbour_start_.push_back(static_cast<int>(neighbour_list_.size()));
+  }
 }
 
 double TrainingHull::gauge_at(int facet, const double* y) const {
+  const double* row = gauge_.data() + static_cast<Eigen::Index>(facet) * gauge_.cols();
   double g = 0.0;
-  for (Eigen::Index j = 0; j < gauge_.cols(); ++j) g += gauge_(facet, j) * y[j];
+  for (Eigen::Index j = 0; j < gauge_.cols(); ++j) g += row[j] * y[j];
   return g;
 }
 
@@ -95,17 +101,39 @@ bool TrainingHull::contains_whitened(const double* y, double off_plane, int& sta
   if (r2 <= inner_radius2_) return true;
   if (r2 > outer_radius2_) return false;
 
+  switch (frame_.rank) {  // the common dimensions with the gauge's dot product unrolled
+    case 2: return climb<2>(y, start);
+    case 3: return climb<3>(y, start);
+    case 4: return climb<4>(y, start);
+    case 5: return climb<5>(y, start);
+    case 6: return climb<6>(y, start);
+    default: return climb<0>(y, start);
+  }
+}
+
+template <int Rank>
+bool TrainingHull::climb(const double* y, int& start) const {
+  const Eigen::Index rank = Rank > 0 ? Rank : gauge_.cols();
+  const auto gauge = [&](int facet) {  // gauge_at(facet, y), the same sum in the same order
+    const double* row = gauge_.data() + static_cast<Eigen::Index>(facet) * rank;
+    double g = 0.0;
+    for (Eigen::Index j = 0; j < rank; ++j) g += row[j] * y[j];
+    return g;
+  };
   const double limit = 1.0 + tolerance_;
   int at = (start >= 0 && start < gauge_.rows()) ? start : 0;
-  double g = gauge_at(at, y);
+  double g = gauge(at);
   for (;;) {
     int best = at;
-    for (int next : neighbours_[static_cast<std::size_t>(at)]) {
-      const double gn = gauge_at(next, y);
-      if (gn > g) {
-        g = gn;
-        best = next;
-      }
+    const int* adjacent = neighbour_list_.data() + neighbour_start_[static_cast<std::size_t>(at)];
+    const int* adjacent_end = neighbour_list_.data() + neighbour_start_[static_cast<std::size_t>(at) + 1];
+    for (const int* next_facet = adjacent; next_facet != adjacent_end; ++next_facet) {
+      const int next = *next_facet;
+      const double gn = gauge(next);
+      // Selects, not a branch: which neighbour is higher is a coin toss the predictor loses.
+      const bool higher = gn > g;
+      g = higher ? gn : g;
+      best = higher ? next : best;
     }
     if (g > limit + kScanBand) {
       start = best;

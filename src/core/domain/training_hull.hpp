@@ -60,11 +60,16 @@ class TrainingHull {
  private:
   [[nodiscard]] double gauge_at(int facet, const double* y) const;
   [[nodiscard]] double gauge_by_scan(const double* y) const;
+  /// contains_whitened()'s climb over the facets, for whitened coordinates of `Rank` values (0: any).
+  template <int Rank>
+  [[nodiscard]] bool climb(const double* y, int& start) const;
   void build_facets(const Eigen::MatrixXd& white);
 
   WhiteningFrame frame_;
-  Eigen::MatrixXd gauge_;  ///< facets x rank, row f = m_f / s_f
-  std::vector<std::vector<int>> neighbours_;
+  /// facets x rank, row f = m_f / s_f; row-major, so that one facet's gauge reads one cache line.
+  Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> gauge_;
+  /// Facets adjacent to facet f: neighbour_list_[neighbour_start_[f] .. neighbour_start_[f + 1]).
+  std::vector<int> neighbour_start_, neighbour_list_;
   double tolerance_ = 1e-9;
   double inner_radius2_ = 0.0;  ///< squared radius of the accepted ball
   double outer_radius2_ = 0.0;  ///< squared radius beyond which points are rejected
