@@ -149,6 +149,10 @@ TEST_CASE("the bucketed MESS search finds what a binary search finds", "[domain]
   std::lognormal_distribution<double> skewed(0.0, 2.0);
   for (int i = 0; i < 500; ++i) samples[1].push_back(skewed(random));  // crowded low, sparse high
   samples[2] = std::vector<double>(7, 3.0);
+  // Far from zero, where a double's step (2 at 1e16) is wider than a bucket: the bucket edges are
+  // rounded by several buckets, so the bucket's guess at the count is often wrong and must be caught.
+  samples.emplace_back();
+  for (int i = 0; i < 200; ++i) samples.back().push_back(1e16 + 2.0 * static_cast<double>(level(random) * 3));
   for (std::vector<double>& s : samples) {
     std::sort(s.begin(), s.end());
     const habcast::SortedValues index(s);
@@ -157,11 +161,33 @@ TEST_CASE("the bucketed MESS search finds what a binary search finds", "[domain]
     for (double v : s) probes.insert(probes.end(), {v, std::nextafter(v, -1e9), std::nextafter(v, 1e9)});
     std::uniform_real_distribution<double> anywhere(s.front() - 1.0, s.back() + 1.0);
     for (int i = 0; i < 2000; ++i) probes.push_back(anywhere(random));
+    // At and next to the edges of buckets of a few sizes around the index's own (8 per value).
+    for (const double per_value : {2.0, 4.0, 8.0, 16.0}) {
+      const double buckets = std::min(std::max(per_value * static_cast<double>(s.size()), 16.0), 1048576.0);
+      for (int k = 0; k <= 400; ++k) {
+        const double edge = s.front() + static_cast<double>(k) * (s.back() - s.front()) / buckets;
+        probes.insert(probes.end(), {edge, std::nextafter(edge, -1e9), std::nextafter(edge, 1e9)});
+      }
+    }
     for (double p : probes) {
       const auto expected = static_cast<std::size_t>(std::lower_bound(s.begin(), s.end(), p) - s.begin());
       INFO("p = " << p);
       CHECK(index.count_below(p) == expected);
       if (s.front() < s.back()) CHECK(index.mess_similarity(p) == habcast::mess_similarity(s, p));
+    }
+    // The same for all of them at once (the block form predict uses: a vectorised first pass, the
+    // rest one by one), with no value, infinities and the extremes among them.
+    if (s.front() < s.back()) {
+      probes.insert(probes.end(), {std::numeric_limits<double>::quiet_NaN(), std::numeric_limits<double>::infinity(),
+                                   -std::numeric_limits<double>::infinity(), std::numeric_limits<double>::max(),
+                                   -std::numeric_limits<double>::max()});
+      std::vector<double> block(probes.size());
+      index.mess_similarity_columns(probes.data(), probes.size(), block.data());
+      for (std::size_t i = 0; i < probes.size(); ++i) {
+        INFO("p = " << probes[i]);
+        const double expected = habcast::mess_similarity(s, probes[i]);
+        CHECK((block[i] == expected || (std::isnan(block[i]) && std::isnan(expected))));
+      }
     }
   }
 }

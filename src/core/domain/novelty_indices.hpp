@@ -38,7 +38,7 @@ class SortedValues {
   [[nodiscard]] std::size_t count_below_here(double p) const;
   [[nodiscard]] double similarity_here(double p) const;
   std::vector<double> sorted_;
-  std::vector<double> padded_;  ///< sorted_ and kWindow times +inf
+  std::vector<double> padded_;  ///< -inf, sorted_, and kWindow times +inf
   std::vector<double> inner_similarity_;  ///< per count 1 .. size - 1 of values below p: the similarity
   double origin_ = 0.0;
   double buckets_per_unit_ = 0.0;                  ///< 0 when all values are equal
