@@ -167,7 +167,11 @@ void NoveltyModel::build_pairs(const ModelSpec& spec, const TermPlan& plan, cons
           if (p.a == key.first && p.b == key.second) p.terms.push_back(spec.terms[t]);
       }
   }
+  const auto column = [&](int c) {
+    return static_cast<std::size_t>(std::find(covariates_.begin(), covariates_.end(), c) - covariates_.begin());
+  };
   for (const CovariatePair& p : pairs_) {
+    pair_columns_.push_back({column(p.a), column(p.b)});
     std::vector<Eigen::Index> rows;
     for (Eigen::Index i = 0; i < samples.raw.rows(); ++i)
       if (!std::isnan(samples.raw(i, p.a)) && !std::isnan(samples.raw(i, p.b))) rows.push_back(i);
@@ -301,11 +305,12 @@ void NoveltyModel::check_pixels(const Eigen::ArrayXXd& raw, Eigen::Index rows, c
   NoveltyBlock::Slab& slab = out.slab;
   const int joint_rank = frame_ ? frame_->rank : (hull_ ? hull_->rank() : 0);
   slab.z.resize(kSlab * d);
-  slab.y.resize(kSlab * static_cast<std::size_t>(std::max({joint_rank, 2, 1})));
+  slab.y.resize(kSlab * static_cast<std::size_t>(std::max(joint_rank, 2)));
   for (std::vector<double>* v : {&slab.off, &slab.mess, &slab.nt1, &slab.similarity}) v->resize(kSlab);
   slab.least.resize(kSlab);
   slab.use.resize(kSlab);
   slab.point.resize(std::max<std::size_t>(2 * d, 4));
+  slab.columns.resize(std::max<std::size_t>(d, 2));
   if (tally.pair_outside.size() < pairs_.size()) tally.pair_outside.resize(pairs_.size());
   // Climbs start afresh in every block, so a block's result never depends on which blocks a
   // worker handled before it.
@@ -360,9 +365,8 @@ void NoveltyModel::check_slab(std::size_t first, std::size_t m, std::uint8_t* fl
   if (joint && options_.nt2) joint_frame = &*frame_;
   else if (joint && hull_) joint_frame = &hull_->frame();
   if (joint_frame) {
-    std::vector<const double*> columns(d);
-    for (std::size_t j = 0; j < d; ++j) columns[j] = z_column(j);
-    joint_frame->whiten_columns(columns.data(), m, slab.y.data(), kSlab, slab.off.data());
+    for (std::size_t j = 0; j < d; ++j) slab.columns[j] = z_column(j);
+    joint_frame->whiten_columns(slab.columns.data(), m, slab.y.data(), kSlab, slab.off.data());
   }
   const int rank = joint_frame ? joint_frame->rank : 0;
   if (joint && options_.nt2) {
@@ -404,9 +408,7 @@ void NoveltyModel::check_slab(std::size_t first, std::size_t m, std::uint8_t* fl
   for (std::size_t p = 0; p < pairs_.size(); ++p) {
     if (skip_pairs && (*skip_pairs)[p]) continue;
     const TrainingHull& hull = pair_hulls_[p];
-    const std::size_t a = static_cast<std::size_t>(std::find(covariates_.begin(), covariates_.end(), pairs_[p].a) - covariates_.begin());
-    const std::size_t b = static_cast<std::size_t>(std::find(covariates_.begin(), covariates_.end(), pairs_[p].b) - covariates_.begin());
-    const double* columns[2] = {z_column(a), z_column(b)};
+    const double* columns[2] = {z_column(pair_columns_[p][0]), z_column(pair_columns_[p][1])};
     hull.frame().whiten_columns(columns, m, slab.y.data(), kSlab, slab.off.data());
     for (std::size_t i = 0; i < m; ++i) {
       if (!checked(i)) continue;

@@ -5,6 +5,7 @@
 // that share a term. Built once from the training samples; checks blocks of pixels after
 // TrainingDomain has set the range and level bits. Documented in docs/extrapolation-flags.md.
 #include <Eigen/Core>
+#include <array>
 #include <cmath>
 #include <cstdint>
 #include <optional>
@@ -57,6 +58,7 @@ struct NoveltyBlock {
     std::vector<std::int64_t> least;  ///< index (into the model's covariates) of the smallest similarity
     std::vector<std::uint8_t> use;    ///< valid with every model value finite
     std::vector<double> point;        ///< one pixel's coordinates, gathered from the columns
+    std::vector<const double*> columns;  ///< the model value columns a frame whitens
   } slab;
 };
 
@@ -130,6 +132,7 @@ class NoveltyModel {
   std::vector<CovariatePair> pairs_;
   std::vector<TrainingHull> pair_hulls_;
   std::vector<Eigen::MatrixXd> pair_points_;  ///< per pair: the training points of its hull
+  std::vector<std::array<std::size_t, 2>> pair_columns_;  ///< per pair: its covariates' places in covariates_
   std::string hull_method_;
   std::vector<std::string> notes_;
 };
