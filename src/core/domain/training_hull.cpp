@@ -13,6 +13,16 @@ namespace {
 // Gauges closer than this to the limit are settled by a full scan, so that rounding in the
 // order of the climb cannot change an answer (roundoff in g is ~1e-15 for well-scaled facets).
 constexpr double kScanBand = 1e-12;
+
+/// A facet's gauge at y: its row of the gauge matrix (`rank` values) dotted with y, summed from the
+/// first coordinate on. `Rank` > 0 fixes the length at compile time (the climb's unrolled copies).
+template <int Rank>
+double gauge_of(const double* row, const double* y, Eigen::Index rank) {
+  const Eigen::Index r = Rank > 0 ? Rank : rank;
+  double g = 0.0;
+  for (Eigen::Index j = 0; j < r; ++j) g += row[j] * y[j];
+  return g;
+}
 }  // namespace
 
 TrainingHull::TrainingHull(const Eigen::MatrixXd& points, double tolerance)
@@ -76,10 +86,7 @@ void TrainingHull::build_facets(const Eigen::MatrixXd& white) {
 }
 
 double TrainingHull::gauge_at(int facet, const double* y) const {
-  const double* row = gauge_.data() + static_cast<Eigen::Index>(facet) * gauge_.cols();
-  double g = 0.0;
-  for (Eigen::Index j = 0; j < gauge_.cols(); ++j) g += row[j] * y[j];
-  return g;
+  return gauge_of<0>(gauge_.data() + static_cast<Eigen::Index>(facet) * gauge_.cols(), y, gauge_.cols());
 }
 
 double TrainingHull::gauge_by_scan(const double* y) const {
@@ -114,11 +121,8 @@ bool TrainingHull::contains_whitened(const double* y, double off_plane, int& sta
 template <int Rank>
 bool TrainingHull::climb(const double* y, int& start) const {
   const Eigen::Index rank = Rank > 0 ? Rank : gauge_.cols();
-  const auto gauge = [&](int facet) {  // gauge_at(facet, y), the same sum in the same order
-    const double* row = gauge_.data() + static_cast<Eigen::Index>(facet) * rank;
-    double g = 0.0;
-    for (Eigen::Index j = 0; j < rank; ++j) g += row[j] * y[j];
-    return g;
+  const auto gauge = [&](int facet) {
+    return gauge_of<Rank>(gauge_.data() + static_cast<Eigen::Index>(facet) * rank, y, rank);
   };
   const double limit = 1.0 + tolerance_;
   int at = (start >= 0 && start < gauge_.rows()) ? start : 0;
