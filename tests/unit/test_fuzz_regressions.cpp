@@ -3,10 +3,13 @@
 #include <catch2/catch.hpp>
 #include <cstdint>
 #include <limits>
+#include <map>
+#include <cmath>
 #include <string>
 #include <vector>
 
 #include "core/base/error.hpp"
+#include "core/domain/extrapolation_flags.hpp"
 #include "core/domain/training_domain.hpp"
 #include "core/domain/training_samples.hpp"
 #include "core/model/model_values.hpp"
@@ -137,13 +140,18 @@ TEST_CASE("categorical values map to levels as level_code and level_index say", 
   // The model-value loop remembers the last code's level (class rasters come in runs); whatever
   // the run, each raw value must get the level that level_code() and Covariate::level_index() give
   // it, with small and large declared codes, and the same pixels counted.
+  // Codes 1, 2 and 4 make a table of codes 1..4 (CodeTable), codes 1, 2 and 5000 are too far apart
+  // for one and are searched: both must agree, at the table's edges and beyond.
   const std::vector<double> codes = {1.0, 2.0, 2.5, -1.0, -0.0, 0.0, 3.0, 7.0, 1e300, -1e300, 2.0, 1.0,
-                                     1.0000000000000002, 1023.0, 1024.0, 4.0};
+                                     1.0000000000000002, 1023.0, 1024.0, 4.0, 0.9999999999999999, 4.000000000000001,
+                                     5.0, 3.9999999999999996, std::numeric_limits<double>::quiet_NaN(),
+                                     std::numeric_limits<double>::infinity(), -std::numeric_limits<double>::infinity(),
+                                     4999.0, 5000.0, 5001.0, 2147483647.0, -2147483648.0, 4294967297.0};
   for (const std::int64_t far_code : {std::int64_t{4}, std::int64_t{5000}}) {
     habcast::ModelSpec spec = soil_spec();
     spec.covariates[1].levels = {{1, "peat"}, {2, "clay"}, {far_code, "loam"}};
     const habcast::TermPlan plan(spec);
-    const Eigen::Index n = 45;  // vector body and remainder
+    const Eigen::Index n = 61;  // vector body and remainder
     Eigen::ArrayXXd raw(n, 2);
     raw.col(0).setConstant(1.0);
     std::vector<std::uint8_t> valid(static_cast<std::size_t>(n), 1);
@@ -165,5 +173,58 @@ TEST_CASE("categorical values map to levels as level_code and level_index say", 
     }
     CHECK(counts.unknown_level == unknown);
     CHECK(unknown > 10);
+  }
+}
+
+TEST_CASE("categorical range flags and their counts agree with a search of the codes seen", "[fuzz-regression]") {
+  // The range flags look codes up in a table when the codes seen span few whole numbers, a slab of
+  // 256 pixels at a time, and count the unseen ones per code only in slabs that have any; otherwise
+  // they search. Either way every pixel's bit and every count must be what a search gives.
+  const std::vector<double> codes = {1.0, 1.0, 1.0, 2.0, 2.5, -1.0, 0.0, 3.0, 3.0, 3.0, 7.0, 1e300, -1e300,
+                                     4.0, 4.0, 5000.0, 0.9999999999999999, 4.000000000000001, 5.0, 3.5,
+                                     std::numeric_limits<double>::quiet_NaN(), -std::numeric_limits<double>::infinity(),
+                                     std::numeric_limits<double>::infinity(), 2147483647.0, -2147483648.0};
+  for (const std::int64_t far_code : {std::int64_t{4}, std::int64_t{5000}}) {
+    habcast::ModelSpec spec = soil_spec();
+    spec.covariates[1].levels = {{1, "peat"}, {2, "clay"}, {far_code, "loam"}};
+    const std::string code_text = std::to_string(far_code);
+    const habcast::TrainingSamples samples =
+        habcast::parse_training_samples("tmin,soil\n0,1\n2,2\n1," + code_text + "\n", "train.csv", spec);
+    const habcast::TrainingDomain domain(spec, samples);
+    const Eigen::Index n = 1000;  // four slabs, the last one partial
+    Eigen::ArrayXXd raw(n, 2);
+    raw.col(0).setConstant(1.0);
+    std::vector<std::uint8_t> valid(static_cast<std::size_t>(n), 1);
+    for (Eigen::Index i = 0; i < n; ++i) {
+      // Runs of one code in the first slabs (as class rasters have), every code mixed after; the
+      // second slab (256..511) is all seen codes, so its count is skipped.
+      const bool seen_slab = i >= 256 && i < 512;
+      raw(i, 1) = seen_slab ? (i % 7 < 4 ? 1.0 : 2.0) : codes[static_cast<std::size_t>(i < 512 ? i / 9 : i) % codes.size()];
+      valid[static_cast<std::size_t>(i)] = i % 13 == 5 ? 0 : 1;
+    }
+    std::vector<std::uint8_t> flags(static_cast<std::size_t>(n));
+    habcast::DomainTally tally(2);
+    domain.flag(raw, n, valid.data(), flags.data(), tally);
+    std::map<std::int64_t, std::int64_t> by_code;
+    std::int64_t unseen = 0;
+    for (Eigen::Index i = 0; i < n; ++i) {
+      const double v = raw(i, 1);
+      const std::optional<std::int64_t> whole = habcast::level_code(v);
+      const bool is_seen = whole && (*whole == 1 || *whole == 2 || *whole == far_code);
+      INFO("far code " << far_code << ", row " << i << ", raw " << v);
+      if (!valid[static_cast<std::size_t>(i)]) {
+        CHECK(flags[static_cast<std::size_t>(i)] == habcast::flag::nodata);
+        continue;
+      }
+      CHECK(flags[static_cast<std::size_t>(i)] == (is_seen ? 0 : habcast::flag::unseen_level));
+      if (is_seen) continue;
+      ++unseen;
+      const std::optional<std::int64_t> floor_code = habcast::level_code(std::floor(v));
+      ++by_code[floor_code ? *floor_code
+                           : (v < 0 ? std::numeric_limits<std::int64_t>::min() : std::numeric_limits<std::int64_t>::max())];
+    }
+    CHECK(tally.unseen[1] == unseen);
+    CHECK(tally.unseen_codes[1] == by_code);
+    CHECK(unseen > 300);
   }
 }

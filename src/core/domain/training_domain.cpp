@@ -70,6 +70,12 @@ TrainingDomain::TrainingDomain(const ModelSpec& spec, const TrainingSamples& sam
     std::sort(seen_[c].begin(), seen_[c].end());
     seen_[c].erase(std::unique(seen_[c].begin(), seen_[c].end()), seen_[c].end());
   }
+  seen_tables_.resize(spec.covariates.size());
+  for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
+    std::vector<std::pair<std::int64_t, std::int32_t>> seen;
+    for (std::int64_t code : seen_[c]) seen.emplace_back(code, 1);
+    seen_tables_[c] = CodeTable(seen, 0);
+  }
 }
 
 bool TrainingDomain::same_checks(const TrainingDomain& other) const {
@@ -87,6 +93,44 @@ bool TrainingDomain::same_checks(const TrainingDomain& other) const {
   return true;
 }
 
+namespace {
+
+/// Counts the valid pixels whose code `unseen(code)` says the training never saw: per covariate,
+/// and per code (a value that is not whole at its floor; a value beyond any code, such as a float
+/// raster's 1e30, at the nearer end). Class rasters come in runs of one code: the verdict is
+/// taken once per run and the run added to the map once.
+template <class Unseen>
+void count_unseen(std::size_t c, const double* v, Eigen::Index rows, const std::uint8_t* valid, Unseen unseen,
+                  DomainTally& tally) {
+  std::map<std::int64_t, std::int64_t>& by_code = tally.unseen_codes[c];
+  double last_code = std::numeric_limits<double>::quiet_NaN();  // NaN, the start value, equals nothing
+  bool last_unseen = false;
+  std::int64_t last_key = 0;
+  std::int64_t key = 0, run = 0;  // `run` pixels of code `key` not yet in the map
+  for (Eigen::Index r = 0; r < rows; ++r) {
+    if (!valid[r]) continue;
+    const double code = v[r];
+    if (code != last_code) {
+      last_code = code;
+      last_unseen = unseen(code);
+      const std::optional<std::int64_t> floor_code = level_code(std::floor(code));
+      last_key = floor_code ? *floor_code
+                            : (code < 0 ? std::numeric_limits<std::int64_t>::min() : std::numeric_limits<std::int64_t>::max());
+    }
+    if (!last_unseen) continue;
+    ++tally.unseen[c];
+    if (run > 0 && last_key != key) {
+      by_code[key] += run;
+      run = 0;
+    }
+    key = last_key;
+    ++run;
+  }
+  if (run > 0) by_code[key] += run;
+}
+
+}  // namespace
+
 HABCAST_PIXEL_LOOPS void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen::Index rows,
                                               const std::uint8_t* valid, std::uint8_t* flags,
                                               DomainTally& tally) const {
@@ -95,6 +139,37 @@ HABCAST_PIXEL_LOOPS void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen:
     const double* v = raw.col(static_cast<Eigen::Index>(c)).data();
     if (spec_.covariates[c].categorical) {
       const std::vector<std::int64_t>& seen = seen_[c];
+      const CodeTable& table = seen_tables_[c];
+      const auto is_unseen = [&](double code) {
+        const std::optional<std::int64_t> whole = level_code(code);
+        return !whole || !std::binary_search(seen.begin(), seen.end(), *whole);
+      };
+      // Where the codes seen fit a table, the bits are set without branches (the loops vectorise),
+      // a slab of pixels at a time, and the unseen pixels of a slab that has any are counted after.
+      // (GCC 12 vectorises the table's gather only in a loop without bytes: the verdicts go through
+      // a slab of doubles in the first-level cache.) Invalid pixels hold flag::nodata, all bits set,
+      // which OR leaves as it is.
+      if (table.usable()) {
+        const CodeTable::View known = table.view();
+        const auto unseen_code = [&](double code) { return known.entry(code) == 0.0; };
+        constexpr Eigen::Index kSlab = 256;
+        double seen_here[kSlab];
+        for (Eigen::Index first = 0; first < rows; first += kSlab) {
+          const Eigen::Index m = std::min(kSlab, rows - first);
+          const double* code = v + first;
+          for (Eigen::Index r = 0; r < m; ++r) seen_here[r] = known.entry(code[r]);
+          const std::uint8_t* ok = valid + first;
+          std::uint8_t* f = flags + first;
+          unsigned char any = 0;
+          for (Eigen::Index r = 0; r < m; ++r) {
+            const unsigned unseen = static_cast<unsigned>(seen_here[r] == 0.0) & static_cast<unsigned>(ok[r] != 0);
+            f[r] |= static_cast<std::uint8_t>(unseen * flag::unseen_level);
+            any |= static_cast<unsigned char>(unseen);
+          }
+          if (any) count_unseen(c, code, m, ok, unseen_code, tally);
+        }
+        continue;
+      }
       // Class rasters come in runs of one class: the last code's verdict is remembered (NaN, the
       // start value, equals nothing).
       double last_code = std::numeric_limits<double>::quiet_NaN();
@@ -103,20 +178,12 @@ HABCAST_PIXEL_LOOPS void TrainingDomain::flag(const Eigen::ArrayXXd& raw, Eigen:
         if (!valid[r]) continue;
         const double code = v[r];
         if (code != last_code) {
-          const std::optional<std::int64_t> whole = level_code(code);
-          last_unseen = !whole || !std::binary_search(seen.begin(), seen.end(), *whole);
+          last_unseen = is_unseen(code);
           last_code = code;
         }
-        if (last_unseen) {
-          flags[r] |= flag::unseen_level;
-          ++tally.unseen[c];
-          // Values beyond any code (a float raster holding 1e30) are counted at the nearer end.
-          const std::optional<std::int64_t> floor_code = level_code(std::floor(code));
-          ++tally.unseen_codes[c][floor_code ? *floor_code
-                                             : (code < 0 ? std::numeric_limits<std::int64_t>::min()
-                                                         : std::numeric_limits<std::int64_t>::max())];
-        }
+        if (last_unseen) flags[r] |= flag::unseen_level;
       }
+      count_unseen(c, v, rows, valid, is_unseen, tally);
     } else {
       const double lo = flag_limits_[c].first;
       const double hi = flag_limits_[c].second;

@@ -9,6 +9,7 @@
 #include <vector>
 
 #include "core/domain/training_samples.hpp"
+#include "core/model/code_table.hpp"
 #include "core/model/model_spec.hpp"
 
 namespace habcast {
@@ -74,6 +75,7 @@ class TrainingDomain {
   /// narrowed to any spline's boundary knots).
   std::vector<std::pair<double, double>> flag_limits_;
   std::vector<std::vector<std::int64_t>> seen_;
+  std::vector<CodeTable> seen_tables_;  ///< per categorical covariate: 1 for a code seen, else 0
   std::vector<bool> offset_only_;
   std::int64_t samples_ = 0;
 };

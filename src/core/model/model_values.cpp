@@ -4,6 +4,7 @@
 #include <limits>
 
 #include "core/base/pixel_loops.hpp"
+#include "core/model/code_table.hpp"
 
 namespace habcast {
 
@@ -38,9 +39,30 @@ HABCAST_PIXEL_LOOPS void to_model_values(const ModelSpec& spec, const TermPlan& 
     const double* in = raw.col(c).data() + first;
     double* dst = out.col(c).data();
     const bool used = plan.uses_covariate(static_cast<int>(c));
-    if (cov.categorical) {
-      // Class rasters come in runs of one class, so the last code's level is remembered (NaN,
-      // the start value, equals nothing, and nodata pixels never get here).
+    if (cov.categorical && plan.level_table(static_cast<int>(c)).usable()) {
+      // Codes looked up in the plan's table, without branches, so that the loops vectorise (the
+      // same level as level_index(level_code(code))): first the levels alone (GCC 12 vectorises the
+      // table's gather only in a loop without bytes), then the validity. As for continuous
+      // covariates below, lost pixels (an unknown level of a covariate the model uses) are counted
+      // only when there are any.
+      const CodeTable::View levels = plan.level_table(static_cast<int>(c)).view();
+      for (Eigen::Index i = 0; i < rows; ++i) dst[i] = levels.entry(in[i]);
+      const bool lose = used;
+      unsigned char any_lost = 0;
+      for (Eigen::Index i = 0; i < rows; ++i) {
+        const double level = dst[i];
+        const bool valid = predict_valid[i] != 0;
+        dst[i] = valid ? level : 0.0;
+        const bool lost = valid & (level < 0.0) & lose;
+        any_lost |= static_cast<unsigned char>(lost);
+        predict_valid[i] = static_cast<std::uint8_t>(valid & !lost);
+      }
+      if (any_lost)
+        for (Eigen::Index i = 0; i < rows; ++i) counts.unknown_level += dst[i] < 0.0 ? 1 : 0;
+    } else if (cov.categorical) {
+      // Codes spanning too many whole numbers for a table. Class rasters come in runs of one class,
+      // so the last code's level is remembered (NaN, the start value, equals nothing, and nodata
+      // pixels never get here).
       double last_code = std::numeric_limits<double>::quiet_NaN();
       int last_level = -1;
       for (Eigen::Index i = 0; i < rows; ++i) {

@@ -28,8 +28,15 @@ TermPlan::TermPlan(const ModelSpec& spec) : used_(spec.covariates.size(), false)
     terms_.push_back(std::move(term));
   }
   reject_reference_indicators(spec);
-  for (std::size_t c = 0; c < spec.covariates.size(); ++c)
-    if (spec.covariates[c].categorical) categorical_.push_back(static_cast<int>(c));
+  level_tables_.resize(spec.covariates.size());
+  for (std::size_t c = 0; c < spec.covariates.size(); ++c) {
+    const Covariate& cov = spec.covariates[c];
+    if (!cov.categorical) continue;
+    categorical_.push_back(static_cast<int>(c));
+    std::vector<std::pair<std::int64_t, std::int32_t>> index_of;
+    for (std::size_t l = 0; l < cov.levels.size(); ++l) index_of.emplace_back(cov.levels[l].code, static_cast<std::int32_t>(l));
+    level_tables_[c] = CodeTable(index_of, -1);
+  }
   if (spec.offset_term) {
     offset_ = parse_term(*spec.offset_term, spec, spec.path, spec.offset_line, "offset");
     for (const TermFactor& f : offset_->factors)

@@ -7,6 +7,7 @@
 #include <optional>
 #include <vector>
 
+#include "core/model/code_table.hpp"
 #include "core/model/model_spec.hpp"
 #include "core/model/term_syntax.hpp"
 
@@ -33,6 +34,12 @@ class TermPlan {
   /// scale the prediction but are not part of the niche: the joint checks leave them out, describe
   /// holds them, and their range check is reported on its own (docs/extrapolation-flags.md).
   [[nodiscard]] bool offset_only(int covariate) const;
+  /// For a categorical covariate: each level's code to its index in Covariate::levels, every other
+  /// value to -1 (not usable() when the codes span too many whole numbers for a table; empty for a
+  /// continuous covariate).
+  [[nodiscard]] const CodeTable& level_table(int covariate) const {
+    return level_tables_[static_cast<std::size_t>(covariate)];
+  }
 
   /// The spline bases the terms use, one per (covariate, ns or bs), built once from the spec.
   struct SplineUse {
@@ -75,6 +82,7 @@ class TermPlan {
   std::vector<bool> in_terms_;         ///< used by at least one term (not only by the offset)
   std::vector<int> categorical_;       ///< indices of categorical covariates
   std::vector<int> used_categorical_;  ///< ... of those that enter a term or the offset
+  std::vector<CodeTable> level_tables_;  ///< per covariate, see level_table()
 };
 
 }  // namespace habcast
