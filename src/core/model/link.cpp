@@ -11,14 +11,13 @@ namespace habcast {
 namespace {
 
 // Logistic function without overflow: exp() only ever sees a non-positive argument,
-// t = exp(-|eta|); 1 / (1 + t) for eta >= 0, t / (1 + t) below. Both are computed and one is kept,
-// so that a loop of calls has no branch and vectorises.
+// t = exp(-|eta|); 1 / (1 + t) for eta >= 0, t / (1 + t) below. The numerator is selected and one
+// division made, so that a loop of calls has no branch and vectorises (the same quotient, bit for
+// bit, as dividing both and keeping one, which cost a division more per call).
 inline double logistic(double eta) {
   const double t = portable_exp(-std::fabs(eta));
   const double d = 1.0 + t;
-  const double above = 1.0 / d;
-  const double below = t / d;
-  return eta >= 0.0 ? above : below;
+  return (eta >= 0.0 ? 1.0 : t) / d;
 }
 
 // mu (1 - mu) for the logistic, computed from exp(-|eta|) so it does not cancel to 0 in the tails.
@@ -70,9 +69,7 @@ HABCAST_PIXEL_LOOPS void link_inverse_with_derivative(Link link, const double* e
     for (long i = 0; i < n; ++i) {
       const double t = portable_exp(-std::fabs(eta[i]));
       const double d = 1.0 + t;
-      const double above = 1.0 / d;
-      const double below = t / d;
-      mu[i] = eta[i] >= 0.0 ? above : below;
+      mu[i] = (eta[i] >= 0.0 ? 1.0 : t) / d;
       derivative[i] = t / (d * d);
     }
     return;
