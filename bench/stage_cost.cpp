@@ -183,7 +183,7 @@ int main(int argc, char** argv) {
         timer.run("design", [&] {
           plan.size_design(BlockPredictor::kChunk, X);
           plan.fill(values, n, X, chunk_ok);
-          plan.fill_offset(values, n, offset, chunk_ok);
+          if (plan.offset_term()) plan.fill_offset(values, n, offset, chunk_ok);  // as BlockPredictor::chunk
         });
         timer.run("eta+se", [&] { evaluator.linear_predictor(X, n, offset, prediction); });
         timer.run("links", [&] { evaluator.response(n, prediction); });

@@ -15,6 +15,7 @@ Evaluator::Evaluator(const ModelSpec& spec, double level, double quantum)
       V_(spec.covariance),
       link_(spec.link),
       offset_constant_(spec.offset_constant),
+      offset_term_(spec.offset_term.has_value()),
       level_(level),
       z_(normal_quantile(0.5 + level / 2.0)),
       quantum_(quantum) {
@@ -46,7 +47,11 @@ void Evaluator::linear_predictor(const Eigen::MatrixXd& X, Eigen::Index rows, co
   if (V_) out.se_eta.resize(rows);
   linear_quadratic(X.data(), X.outerStride(), rows, beta_, V_ ? packed_V_.data() : nullptr, out.eta.data(),
                    V_ ? out.se_eta.data() : nullptr);
-  out.eta.array() += offset.head(rows).array() + offset_constant_;
+  // Without an offset term the column is all zeros: eta + (0 + c) is added without reading it.
+  if (offset_term_)
+    out.eta.array() += offset.head(rows).array() + offset_constant_;
+  else
+    out.eta.array() += 0.0 + offset_constant_;
   if (V_) out.se_eta = out.se_eta.array().max(0.0).sqrt().matrix();
 }
 

@@ -33,8 +33,9 @@ class Evaluator {
   [[nodiscard]] bool limits() const { return limits_; }
   void set_limits(bool on) { limits_ = on; }
 
-  /// Evaluates the first `rows` rows of X (and of `offset`, the offset term's column). Standard
-  /// errors and limits are computed only when the model has a covariance matrix.
+  /// Evaluates the first `rows` rows of X (and of `offset`, the offset term's column; not read
+  /// when the model has no offset term). Standard errors and limits are computed only when the
+  /// model has a covariance matrix.
   void evaluate(const Eigen::MatrixXd& X, Eigen::Index rows, const Eigen::VectorXd& offset, Prediction& out) const;
 
   // The stages of evaluate(), in its order; public so that bench/stage_cost.cpp can time each one
@@ -52,6 +53,7 @@ class Evaluator {
   std::optional<Eigen::MatrixXd> V_;
   Link link_;
   double offset_constant_;
+  bool offset_term_;  ///< whether the model has an offset term (else its column, all zeros, is not read)
   double level_;
   double z_;
   double quantum_;

@@ -181,7 +181,7 @@ void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& 
 
   plan_.size_design(kChunk, X_);
   tally.undefined_term += plan_.fill(*values, rows, X_, ok);
-  plan_.fill_offset(*values, rows, offset_, ok);
+  if (plan_.offset_term()) plan_.fill_offset(*values, rows, offset_, ok);  // else the evaluator reads no offset
   evaluator_.evaluate(X_, rows, offset_, prediction_);
 
   const bool with_se = evaluator_.has_covariance() && arrays_;
