@@ -186,42 +186,62 @@ void BlockPredictor::chunk(Eigen::Index first, Eigen::Index rows, BlockOutputs& 
 
   const bool with_se = evaluator_.has_covariance() && arrays_;
   const bool with_limits = with_se && evaluator_.limits();
-  const auto no_value = [&](std::size_t o) {
+  // The loop works on local copies of the counts, the sums and the array pointers, written back
+  // after it: `ok` is a byte array, which may alias anything, so every store to it would otherwise
+  // make the compiler store and reload the tally's fields and the vectors' pointers, and the sum
+  // of the responses would wait on memory at every pixel. The same operations in the same order.
+  float* const suitability = arrays_ ? out.suitability.data() + first : nullptr;
+  float* const se = with_se ? out.se.data() + first : nullptr;
+  float* const lower = with_limits ? out.lower.data() + first : nullptr;
+  float* const upper = with_limits ? out.upper.data() + first : nullptr;
+  const double* const mu_of = prediction_.mu.data();
+  const double* const se_mu_of = with_se ? prediction_.se_mu.data() : nullptr;
+  const double* const lower_of = with_limits ? prediction_.lower.data() : nullptr;
+  const double* const upper_of = with_limits ? prediction_.upper.data() : nullptr;
+  std::int64_t not_representable = 0, moved = 0, predicted = tally.predicted, low_certainty = 0;
+  double min_response = tally.min_response, max_response = tally.max_response, sum_response = tally.sum_response;
+  const auto no_value = [&](Eigen::Index i) {
     if (!arrays_) return;
-    out.suitability[o] = kFloatNodata;
-    if (with_se) out.se[o] = kFloatNodata;
-    if (with_limits) out.lower[o] = out.upper[o] = kFloatNodata;
+    suitability[i] = kFloatNodata;
+    if (with_se) se[i] = kFloatNodata;
+    if (with_limits) lower[i] = upper[i] = kFloatNodata;
   };
   for (Eigen::Index i = 0; i < rows; ++i) {
-    const auto o = static_cast<std::size_t>(first + i);
     if (!ok[i]) {
-      no_value(o);
+      no_value(i);
       continue;
     }
-    const double mu = prediction_.mu[i];
+    const double mu = mu_of[i];
     if (!representable(mu)) {
-      ++tally.not_representable;
+      ++not_representable;
       ok[i] = 0;  // so predicted() tells combiners this pixel has no value
-      no_value(o);
+      no_value(i);
       continue;
     }
-    if (arrays_) out.suitability[o] = off_nodata(static_cast<float>(mu), tally.moved_off_nodata);
-    if (tally.predicted == 0) {
-      tally.min_response = mu;
-      tally.max_response = mu;
+    if (arrays_) suitability[i] = off_nodata(static_cast<float>(mu), moved);
+    if (predicted == 0) {
+      min_response = mu;
+      max_response = mu;
     } else {
-      tally.min_response = std::min(tally.min_response, mu);
-      tally.max_response = std::max(tally.max_response, mu);
+      min_response = std::min(min_response, mu);
+      max_response = std::max(max_response, mu);
     }
-    ++tally.predicted;
-    tally.sum_response += mu;
-    if (with_se) out.se[o] = to_output(prediction_.se_mu[i]);
+    ++predicted;
+    sum_response += mu;
+    if (with_se) se[i] = to_output(se_mu_of[i]);
     if (with_limits) {
-      out.lower[o] = to_output_off_nodata(prediction_.lower[i], tally.moved_off_nodata);
-      out.upper[o] = to_output_off_nodata(prediction_.upper[i], tally.moved_off_nodata);
-      if (certainty_.applies(prediction_.lower[i], prediction_.upper[i])) ++tally.low_certainty;
+      lower[i] = to_output_off_nodata(lower_of[i], moved);
+      upper[i] = to_output_off_nodata(upper_of[i], moved);
+      if (certainty_.applies(lower_of[i], upper_of[i])) ++low_certainty;
     }
   }
+  tally.not_representable += not_representable;
+  tally.moved_off_nodata += moved;
+  tally.predicted = predicted;
+  tally.low_certainty += low_certainty;
+  tally.min_response = min_response;
+  tally.max_response = max_response;
+  tally.sum_response = sum_response;
   if (units_) add_to_units(first, rows, out);
 }
 
