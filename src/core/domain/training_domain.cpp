@@ -115,7 +115,8 @@ void count_unseen(std::size_t c, const double* v, Eigen::Index rows, const std::
       last_unseen = unseen(code);
       const std::optional<std::int64_t> floor_code = level_code(std::floor(code));
       last_key = floor_code ? *floor_code
-                            : (code < 0 ? std::numeric_limits<std::int64_t>::min() : std::numeric_limits<std::int64_t>::max());
+                            : (code < 0 ? std::numeric_limits<std::int64_t>::min()
+                                        : std::numeric_limits<std::int64_t>::max());
     }
     if (!last_unseen) continue;
     ++tally.unseen[c];

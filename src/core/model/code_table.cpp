@@ -19,7 +19,8 @@ CodeTable::CodeTable(const std::vector<std::pair<std::int64_t, std::int32_t>>& e
   end_ = static_cast<double>(high + 1);
   table_.assign(static_cast<std::size_t>(high - low + 1), other);
   // Backwards, so that a code listed twice keeps its first entry (as a search from the front finds).
-  for (auto e = entries.rbegin(); e != entries.rend(); ++e) table_[static_cast<std::size_t>(e->first - low)] = e->second;
+  for (auto e = entries.rbegin(); e != entries.rend(); ++e)
+    table_[static_cast<std::size_t>(e->first - low)] = e->second;
 }
 
 }  // namespace habcast

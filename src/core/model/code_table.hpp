@@ -19,15 +19,13 @@ class CodeTable {
   /// whole or not, finite or not, gets `other`.
   CodeTable(const std::vector<std::pair<std::int64_t, std::int32_t>>& entries, std::int32_t other);
 
-  /// Whether the codes fit a table (see kMaxSpan); without one, entry() must not be called.
+  /// Whether the codes fit a table (see kMaxSpan); without one, view() must not be used.
   [[nodiscard]] bool usable() const { return !table_.empty(); }
 
-  /// The entry of raster value `v`: the entry of code c when v is the whole number c, else `other`.
-  /// Inline and without branches, for loops over pixels.
-  [[nodiscard]] double entry(double v) const { return view().entry(v); }
-
-  /// The table's numbers as plain values, for a loop to keep in registers (a loop that reads them
-  /// through `this` reloads them after every store, and does not vectorise).
+  /// The table's numbers as plain values, for a loop over pixels to keep in registers (a loop that
+  /// reads them through `this` reloads them after every store, and does not vectorise).
+  /// View::entry(v): the entry of code c when raster value v is the whole number c, else `other`,
+  /// inline and without branches.
   struct View {
     double low;     ///< the smallest code
     double end;     ///< one past the largest code

@@ -34,7 +34,8 @@ TermPlan::TermPlan(const ModelSpec& spec) : used_(spec.covariates.size(), false)
     if (!cov.categorical) continue;
     categorical_.push_back(static_cast<int>(c));
     std::vector<std::pair<std::int64_t, std::int32_t>> index_of;
-    for (std::size_t l = 0; l < cov.levels.size(); ++l) index_of.emplace_back(cov.levels[l].code, static_cast<std::int32_t>(l));
+    for (std::size_t l = 0; l < cov.levels.size(); ++l)
+      index_of.emplace_back(cov.levels[l].code, static_cast<std::int32_t>(l));
     level_tables_[c] = CodeTable(index_of, -1);
   }
   if (spec.offset_term) {
