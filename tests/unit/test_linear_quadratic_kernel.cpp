@@ -54,6 +54,33 @@ TEST_CASE("the fused kernel's linear predictor equals Eigen's matrix-vector prod
   }
 }
 
+TEST_CASE("the fused kernel adds a constant offset as Eigen's array sum does, bit for bit", "[kernel]") {
+  // Without an offset term, predict hands the kernel 0 + c to add as each eta is stored; the
+  // result must be the product then a separate pass of + (0 + c) (a -0 sum becomes +0, say).
+  for (double constant : {0.0, -0.0, 0.7, -1e-17, 3.25e5}) {
+    const double plus = 0.0 + constant;
+    for (Eigen::Index p : {1, 14}) {
+      for (Eigen::Index rows : {37, 4099}) {
+        Case c = random_case(rows, p, static_cast<unsigned>(p * 7 + rows));
+        if (p == 1) c.X(3, 0) = -0.0;  // x'b = -0 for that row: -0 + 0 is +0
+        Eigen::VectorXd expected = c.X * c.beta;
+        expected.array() += plus;
+        Eigen::VectorXd eta(rows), q(rows);
+        habcast::linear_quadratic(c.X.data(), c.X.outerStride(), rows, c.beta, nullptr, eta.data(), nullptr, &plus);
+        Eigen::VectorXd eta_se(rows);
+        const std::vector<double> packed = habcast::pack_symmetric(c.V);
+        habcast::linear_quadratic(c.X.data(), c.X.outerStride(), rows, c.beta, packed.data(), eta_se.data(), q.data(),
+                                  &plus);
+        int differ = 0;
+        for (Eigen::Index i = 0; i < rows; ++i)
+          differ += same_bits(eta[i], expected[i]) && same_bits(eta_se[i], expected[i]) ? 0 : 1;
+        INFO("constant = " << constant << ", p = " << p << ", rows = " << rows);
+        CHECK(differ == 0);
+      }
+    }
+  }
+}
+
 TEST_CASE("the fused kernel's quadratic form agrees with diag(X V X') from Eigen's products", "[kernel]") {
   for (Eigen::Index p : {1, 2, 14, 23}) {
     const Eigen::Index rows = 1000;

@@ -1,5 +1,6 @@
 // Link functions and the normal distribution against published and reference values.
 #include <catch2/catch.hpp>
+#include <Eigen/Core>
 #include <cmath>
 #include <cstring>
 #include <limits>
@@ -115,6 +116,53 @@ TEST_CASE("the batched link evaluation gives the same bits as one call per value
       CHECK(same(mu[i], habcast::link_inverse(link, eta[i])));
       CHECK(same(only_mu[i], habcast::link_inverse(link, eta[i])));
       CHECK(same(derivative[i], habcast::link_inverse_derivative(link, eta[i])));
+    }
+  }
+}
+
+TEST_CASE("the one-pass response gives the same bits as the separate steps it replaces", "[link]") {
+  // predict forms se(eta), mu, se(mu) and the limits in one pass (link_response); before, they came
+  // from Eigen's sqrt(max(x'Vx, 0)), link_inverse_with_derivative, a product and
+  // link_inverse_interval, one pass each. Variances include what rounding can give near 0 (-0, a
+  // tiny negative) and what a broken model gives (NaN, inf).
+  std::vector<double> eta, variance;
+  const std::vector<double> variances = {0.0, -0.0, -1e-19, 1e-300, 2.5e-7, 0.04, 1.0, 81.0, 1e6,
+                                         std::numeric_limits<double>::infinity(),
+                                         std::numeric_limits<double>::quiet_NaN()};
+  std::size_t k = 0;
+  for (double x = -60.0; x <= 60.0; x += 0.137) {
+    eta.push_back(x);
+    variance.push_back(variances[k++ % variances.size()]);
+  }
+  eta.push_back(-0.0);
+  variance.push_back(0.3);
+  eta.push_back(std::numeric_limits<double>::quiet_NaN());
+  variance.push_back(0.3);
+  const auto n = static_cast<Eigen::Index>(eta.size());
+  const double z = 1.959963984540054;
+  const auto same = [](double a, double b) { return (std::isnan(a) && std::isnan(b)) || std::memcmp(&a, &b, sizeof a) == 0; };
+  for (Link link : {Link::logit, Link::probit, Link::cloglog, Link::log, Link::identity}) {
+    // The steps as Evaluator ran them before.
+    const Eigen::Map<const Eigen::VectorXd> v(variance.data(), n);
+    const Eigen::VectorXd se_eta = v.array().max(0.0).sqrt().matrix();
+    Eigen::VectorXd mu(n), se_mu(n), lower(n), upper(n);
+    habcast::link_inverse_with_derivative(link, eta.data(), mu.data(), se_mu.data(), n);
+    se_mu.array() *= se_eta.array();
+    habcast::link_inverse_interval(link, eta.data(), se_eta.data(), z, lower.data(), upper.data(), n);
+    for (bool limits : {true, false}) {
+      Eigen::VectorXd se1(n), mu1(n), se_mu1(n), lower1 = Eigen::VectorXd::Constant(n, 7.0), upper1 = lower1;
+      habcast::link_response(link, eta.data(), variance.data(), z, se1.data(), mu1.data(), se_mu1.data(),
+                             limits ? lower1.data() : nullptr, limits ? upper1.data() : nullptr, n);
+      int differ = 0;
+      for (Eigen::Index i = 0; i < n; ++i) {
+        differ += same(se1[i], se_eta[i]) && same(mu1[i], mu[i]) && same(se_mu1[i], se_mu[i]) ? 0 : 1;
+        if (limits)
+          differ += same(lower1[i], lower[i]) && same(upper1[i], upper[i]) ? 0 : 1;
+        else
+          differ += lower1[i] == 7.0 && upper1[i] == 7.0 ? 0 : 1;  // not written without limits
+      }
+      INFO("link " << static_cast<int>(link) << ", limits " << limits);
+      CHECK(differ == 0);
     }
   }
 }

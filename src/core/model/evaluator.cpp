@@ -41,18 +41,16 @@ void Evaluator::evaluate(const Eigen::MatrixXd& X, Eigen::Index rows, const Eige
 void Evaluator::linear_predictor(const Eigen::MatrixXd& X, Eigen::Index rows, const Eigen::VectorXd& offset,
                                  Prediction& out) const {
   out.eta.resize(rows);
-  // se^2 = diag(X V X'), one row at a time from V's upper triangle, never the rows x rows
-  // matrix. (The earlier form, row sums of (X V) .* X through Eigen's matrix product, spent three
-  // times the arithmetic and most of predict's model time: bench/stage_cost.cpp measures it.)
-  if (V_) out.se_eta.resize(rows);
+  // x'Vx per row from V's upper triangle, never the rows x rows matrix. (The earlier form, row
+  // sums of (X V) .* X through Eigen's matrix product, spent three times the arithmetic and most
+  // of predict's model time: bench/stage_cost.cpp measures it.)
+  if (V_) out.variance.resize(rows);
+  // Without an offset term the column is all zeros: the kernel adds 0 + c to each eta as it
+  // stores it (the same sum as adding the column, without a pass over it).
+  const double plus = 0.0 + offset_constant_;
   linear_quadratic(X.data(), X.outerStride(), rows, beta_, V_ ? packed_V_.data() : nullptr, out.eta.data(),
-                   V_ ? out.se_eta.data() : nullptr);
-  // Without an offset term the column is all zeros: eta + (0 + c) is added without reading it.
-  if (offset_term_)
-    out.eta.array() += offset.head(rows).array() + offset_constant_;
-  else
-    out.eta.array() += 0.0 + offset_constant_;
-  if (V_) out.se_eta = out.se_eta.array().max(0.0).sqrt().matrix();
+                   V_ ? out.variance.data() : nullptr, offset_term_ ? nullptr : &plus);
+  if (offset_term_) out.eta.array() += offset.head(rows).array() + offset_constant_;
 }
 
 void Evaluator::response(Eigen::Index rows, Prediction& out) const {
@@ -62,17 +60,19 @@ void Evaluator::response(Eigen::Index rows, Prediction& out) const {
     round_all(out.mu, quantum_);
     return;
   }
-  // se_mu first holds d mu / d eta, computed with mu.
+  // The standard errors, the mean and its limits (on the link scale, taken to the response
+  // scale) in one pass over eta; each rounded after, as none depends on another's rounding.
+  out.se_eta.resize(rows);
   out.se_mu.resize(rows);
-  link_inverse_with_derivative(link_, out.eta.data(), out.mu.data(), out.se_mu.data(), rows);
+  if (limits_) {
+    out.lower.resize(rows);
+    out.upper.resize(rows);
+  }
+  link_response(link_, out.eta.data(), out.variance.data(), z_, out.se_eta.data(), out.mu.data(), out.se_mu.data(),
+                limits_ ? out.lower.data() : nullptr, limits_ ? out.upper.data() : nullptr, rows);
   round_all(out.mu, quantum_);
-  out.se_mu.array() *= out.se_eta.array();
   round_all(out.se_mu, quantum_);
   if (!limits_) return;
-  // Limits on the link scale, taken to the response scale.
-  out.lower.resize(rows);
-  out.upper.resize(rows);
-  link_inverse_interval(link_, out.eta.data(), out.se_eta.data(), z_, out.lower.data(), out.upper.data(), rows);
   round_all(out.lower, quantum_);
   round_all(out.upper, quantum_);
 }

@@ -10,8 +10,9 @@
 namespace habcast {
 
 struct Prediction {
-  Eigen::VectorXd eta;     ///< linear predictor (link scale), offset included
-  Eigen::VectorXd se_eta;  ///< sqrt(x' V x)
+  Eigen::VectorXd eta;       ///< linear predictor (link scale), offset included
+  Eigen::VectorXd variance;  ///< x' V x, the variance of eta (negative only by rounding)
+  Eigen::VectorXd se_eta;    ///< sqrt(max(x' V x, 0))
   Eigen::VectorXd mu;      ///< g^-1(eta), response scale
   Eigen::VectorXd se_mu;   ///< |d g^-1/d eta| * se_eta (delta method)
   Eigen::VectorXd lower;   ///< g^-1(eta - z se_eta): formed on the link scale, stays in range
@@ -40,12 +41,12 @@ class Evaluator {
 
   // The stages of evaluate(), in its order; public so that bench/stage_cost.cpp can time each one
   // on the code that predict runs.
-  /// out.eta = X beta + offset + the constant offset and, with a covariance, out.se_eta =
-  /// sqrt(x' V x) per row, in one pass over X (linear_quadratic_kernel.hpp).
+  /// out.eta = X beta + offset + the constant offset and, with a covariance, out.variance =
+  /// x' V x per row, in one pass over X (linear_quadratic_kernel.hpp).
   void linear_predictor(const Eigen::MatrixXd& X, Eigen::Index rows, const Eigen::VectorXd& offset,
                         Prediction& out) const;
-  /// out.mu, and with a covariance out.se_mu, out.lower and out.upper (unless limits are off),
-  /// from out.eta (and out.se_eta).
+  /// out.mu, and with a covariance out.se_eta, out.se_mu, out.lower and out.upper (unless limits
+  /// are off), from out.eta (and out.variance), in one pass (link.hpp, link_response()).
   void response(Eigen::Index rows, Prediction& out) const;
 
  private:

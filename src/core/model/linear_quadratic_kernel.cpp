@@ -35,7 +35,7 @@ __attribute__((always_inline)) inline void store(double* x, const V& v) {
 // on a double, so a pixel's result is the same in any group, alone, and in every kernel below.
 template <typename V, std::size_t G>
 __attribute__((always_inline)) inline void rows(const double* X, Eigen::Index ld, const double* beta, Eigen::Index p,
-                                                const double* packed, double* eta, double* q) {
+                                                const double* packed, double* eta, double* q, const double* plus) {
   constexpr auto step = static_cast<Eigen::Index>(sizeof(V) / sizeof(double));
   const auto at = [](auto* column, std::size_t g) { return column + static_cast<Eigen::Index>(g) * step; };
   V x, e[G], s[G]{}, t[G];  // s starts at the first product (j == 0 below); {} quiets the compiler
@@ -52,6 +52,11 @@ __attribute__((always_inline)) inline void rows(const double* X, Eigen::Index ld
       load(x, at(X + j * ld, g));
       e[g] = x * beta[j] + e[g];
     }
+  }
+  if (plus) {
+    const double c = *plus;
+#pragma GCC unroll 8
+    for (std::size_t g = 0; g < G; ++g) e[g] = e[g] + c;
   }
 #pragma GCC unroll 8
   for (std::size_t g = 0; g < G; ++g) store(at(eta, g), e[g]);
@@ -116,16 +121,16 @@ __attribute__((always_inline)) inline void rows(const double* X, Eigen::Index ld
 template <typename V, std::size_t G>
 __attribute__((always_inline)) inline void all_rows(const double* X, Eigen::Index ld, Eigen::Index n,
                                                     const Eigen::VectorXd& beta, const double* packed, double* eta,
-                                                    double* q) {
+                                                    double* q, const double* plus) {
   const Eigen::Index p = beta.size();
   constexpr auto tile = static_cast<Eigen::Index>(G * sizeof(V) / sizeof(double));
   Eigen::Index i = 0;
-  for (; i + tile <= n; i += tile) rows<V, G>(X + i, ld, beta.data(), p, packed, eta + i, q ? q + i : nullptr);
-  for (; i < n; ++i) rows<double, 1>(X + i, ld, beta.data(), p, packed, eta + i, q ? q + i : nullptr);
+  for (; i + tile <= n; i += tile) rows<V, G>(X + i, ld, beta.data(), p, packed, eta + i, q ? q + i : nullptr, plus);
+  for (; i < n; ++i) rows<double, 1>(X + i, ld, beta.data(), p, packed, eta + i, q ? q + i : nullptr, plus);
 }
 
 using Kernel = void (*)(const double*, Eigen::Index, Eigen::Index, const Eigen::VectorXd&, const double*, double*,
-                        double*);
+                        double*, const double*);
 
 // One kernel per instruction set, each with vectors of its register width, the widest the CPU has
 // chosen once at run time. (GCC's target_clones, used before, compiles one body for every clone,
@@ -136,8 +141,8 @@ using Kernel = void (*)(const double*, Eigen::Index, Eigen::Index, const Eigen::
 using Pair = double __attribute__((vector_size(2 * sizeof(double))));
 
 void kernel_baseline(const double* X, Eigen::Index ld, Eigen::Index n, const Eigen::VectorXd& beta,
-                     const double* packed, double* eta, double* q) {
-  all_rows<Pair, 4>(X, ld, n, beta, packed, eta, q);
+                     const double* packed, double* eta, double* q, const double* plus) {
+  all_rows<Pair, 4>(X, ld, n, beta, packed, eta, q, plus);
 }
 
 #if defined(__GNUC__) && !defined(__clang__) && defined(__x86_64__) && !defined(__SANITIZE_ADDRESS__)
@@ -149,8 +154,8 @@ void kernel_baseline(const double* X, Eigen::Index ld, Eigen::Index n, const Eig
 using Quad = double __attribute__((vector_size(4 * sizeof(double))));
 
 void kernel_avx2(const double* X, Eigen::Index ld, Eigen::Index n, const Eigen::VectorXd& beta, const double* packed,
-                 double* eta, double* q) {
-  all_rows<Quad, 4>(X, ld, n, beta, packed, eta, q);
+                 double* eta, double* q, const double* plus) {
+  all_rows<Quad, 4>(X, ld, n, beta, packed, eta, q, plus);
 }
 #pragma GCC pop_options
 
@@ -159,8 +164,8 @@ void kernel_avx2(const double* X, Eigen::Index ld, Eigen::Index n, const Eigen::
 using Octet = double __attribute__((vector_size(8 * sizeof(double))));
 
 void kernel_avx512(const double* X, Eigen::Index ld, Eigen::Index n, const Eigen::VectorXd& beta, const double* packed,
-                   double* eta, double* q) {
-  all_rows<Octet, 4>(X, ld, n, beta, packed, eta, q);
+                   double* eta, double* q, const double* plus) {
+  all_rows<Octet, 4>(X, ld, n, beta, packed, eta, q, plus);
 }
 #pragma GCC pop_options
 #endif
@@ -176,16 +181,16 @@ Kernel best_kernel() {
 }  // namespace
 
 void linear_quadratic(const double* X, Eigen::Index ld, Eigen::Index n, const Eigen::VectorXd& beta,
-                      const double* packed, double* eta, double* q) {
+                      const double* packed, double* eta, double* q, const double* plus) {
   if (beta.size() == 0) {
     for (Eigen::Index i = 0; i < n; ++i) {
-      eta[i] = 0.0;
+      eta[i] = plus ? 0.0 + *plus : 0.0;
       if (q) q[i] = 0.0;
     }
     return;
   }
   static const Kernel kernel = best_kernel();
-  kernel(X, ld, n, beta, packed, eta, q);
+  kernel(X, ld, n, beta, packed, eta, q, plus);
 }
 
 }  // namespace habcast

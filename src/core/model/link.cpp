@@ -27,6 +27,15 @@ inline double logistic_derivative(double eta) {
   return t / (d * d);
 }
 
+// Both at once, sharing t = exp(-|eta|): the same operations as logistic() and
+// logistic_derivative(), so the same bits as calling them one by one.
+inline void logistic_with_derivative(double eta, double& mu, double& derivative) {
+  const double t = portable_exp(-std::fabs(eta));
+  const double d = 1.0 + t;
+  mu = (eta >= 0.0 ? 1.0 : t) / d;
+  derivative = t / (d * d);
+}
+
 // 1 - exp(-exp(eta)). For very negative eta, -expm1(-exp(eta)) keeps all digits; for large eta
 // exp(eta) becomes +inf and the result is exactly 1, not NaN.
 double complementary_log_log_inverse(double eta) { return -std::expm1(-std::exp(eta)); }
@@ -64,14 +73,7 @@ double link_inverse_derivative(Link link, double eta) {
 HABCAST_PIXEL_LOOPS void link_inverse_with_derivative(Link link, const double* eta, double* mu, double* derivative,
                                                      long n) {
   if (link == Link::logit) {
-    // The same operations as logistic() and logistic_derivative(): t = exp(-|eta|) is what each
-    // of them computes, so the results are identical to calling them one by one.
-    for (long i = 0; i < n; ++i) {
-      const double t = portable_exp(-std::fabs(eta[i]));
-      const double d = 1.0 + t;
-      mu[i] = (eta[i] >= 0.0 ? 1.0 : t) / d;
-      derivative[i] = t / (d * d);
-    }
+    for (long i = 0; i < n; ++i) logistic_with_derivative(eta[i], mu[i], derivative[i]);
     return;
   }
   if (link == Link::log) {
@@ -136,6 +138,63 @@ HABCAST_PIXEL_LOOPS void link_inverse_interval(Link link, const double* __restri
     interval_loop([](double x) { return portable_exp(x); }, eta, se, z, lower, upper, n);
   else
     interval_loop([link](double x) { return link_inverse(link, x); }, eta, se, z, lower, upper, n);
+}
+
+namespace {
+
+/// One pass of the response with its standard error (see link_response() in link.hpp). `both`
+/// gives g^-1 and its derivative at eta, `inverse` g^-1 alone. Always inlined: link_response() is
+/// compiled once per instruction set, and a loop left out of line would get the baseline's.
+template <bool Limits, class Both, class Inverse>
+__attribute__((always_inline)) inline void response_loop(Both both, Inverse inverse, const double* __restrict eta,
+                          const double* __restrict variance, double z, double* __restrict se_eta,
+                          double* __restrict mu, double* __restrict se_mu, double* __restrict lower,
+                          double* __restrict upper, long n) {
+  for (long i = 0; i < n; ++i) {
+    // max(v, 0) as Eigen's array max forms it: v unless v < 0 (a NaN and -0 stay).
+    const double v = variance[i];
+    const double se = std::sqrt(v < 0.0 ? 0.0 : v);
+    se_eta[i] = se;
+    double m, d;
+    both(eta[i], m, d);
+    mu[i] = m;
+    se_mu[i] = d * se;
+    if constexpr (Limits) {
+      const double w = z * se;
+      lower[i] = inverse(eta[i] - w);
+      upper[i] = inverse(eta[i] + w);
+    }
+  }
+}
+
+template <class Both, class Inverse>
+__attribute__((always_inline)) inline void response_loops(Both both, Inverse inverse, const double* eta, const double* variance, double z,
+                           double* se_eta, double* mu, double* se_mu, double* lower, double* upper, long n) {
+  if (lower)
+    response_loop<true>(both, inverse, eta, variance, z, se_eta, mu, se_mu, lower, upper, n);
+  else
+    response_loop<false>(both, inverse, eta, variance, z, se_eta, mu, se_mu, lower, upper, n);
+}
+
+}  // namespace
+
+HABCAST_PIXEL_LOOPS void link_response(Link link, const double* eta, const double* variance, double z, double* se_eta,
+                                       double* mu, double* se_mu, double* lower, double* upper, long n) {
+  if (link == Link::logit) {
+    const auto both = [](double x, double& m, double& d) { logistic_with_derivative(x, m, d); };
+    response_loops(both, [](double x) { return logistic(x); }, eta, variance, z, se_eta, mu, se_mu, lower, upper, n);
+  } else if (link == Link::log) {
+    const auto both = [](double x, double& m, double& d) { m = d = portable_exp(x); };
+    response_loops(both, [](double x) { return portable_exp(x); }, eta, variance, z, se_eta, mu, se_mu, lower, upper,
+                   n);
+  } else {
+    const auto both = [link](double x, double& m, double& d) {
+      m = link_inverse(link, x);
+      d = link_inverse_derivative(link, x);
+    };
+    response_loops(both, [link](double x) { return link_inverse(link, x); }, eta, variance, z, se_eta, mu, se_mu, lower,
+                   upper, n);
+  }
 }
 
 double link_function(Link link, double mu) {

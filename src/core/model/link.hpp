@@ -33,6 +33,14 @@ void link_inverse_all(Link link, const double* eta, double* mu, long n);
 void link_inverse_interval(Link link, const double* eta, const double* se, double z, double* lower, double* upper,
                            long n);
 
+/// A prediction's response side in one pass over n values, from eta and the variance x'Vx of
+/// eta: se_eta[i] = sqrt(max(variance[i], 0)), mu[i] = link_inverse(eta[i]), se_mu[i] =
+/// link_inverse_derivative(eta[i]) * se_eta[i] and, when `lower` is not null, the limits of
+/// link_inverse_interval() with se = se_eta: bit for bit what those calls give one after another
+/// (one pass reads eta once and keeps each value in a register; no array may overlap another).
+void link_response(Link link, const double* eta, const double* variance, double z, double* se_eta, double* mu,
+                   double* se_mu, double* lower, double* upper, long n);
+
 /// g(mu): the link itself, for fitting and for tests. mu must lie in the link's domain.
 double link_function(Link link, double mu);
 
