@@ -189,6 +189,12 @@ def main():
                         help="only the model-set row (one model and the set of 3, taking turns), e.g. with --reps 5")
     parser.add_argument("--work", default=str(BENCH / "data" / "runs-several"))
     args = parser.parse_args()
+    if not args.models_only:
+        try:
+            import scipy.special  # noqa: F401  (the separate way's change step; checked before any run)
+        except ImportError:
+            sys.exit("several.py: the scenario rows need SciPy (Debian's python3-scipy): "
+                     "run scripts/install-deps.sh --with-bench-tools, or pass --models-only")
     build_dir = Path(args.build_dir)
     habcast, floor = ((build_dir / "habcast", build_dir / "bench" / "habcast_io_floor") if args.no_build
                       else build(build_dir))

@@ -2,12 +2,14 @@
 # Installs the Debian 12 packages habcast needs to build and test.
 # Idempotent: packages already present are skipped, so re-running is cheap.
 # Usage: scripts/install-deps.sh [--with-reference-tools] [--with-cluster-tools] [--with-fuzz]
-#                                [--with-packaging-tools]
+#                                [--with-packaging-tools] [--with-bench-tools]
 #   --with-reference-tools also installs R, vegan, MASS and statsmodels, used by the reference
 #   checks and to regenerate reference numbers in tests/reference/.
 #   --with-cluster-tools also installs Slurm and munge, for the test that runs
 #   the example batch job array on a single-node cluster it starts itself.
 #   --with-fuzz also installs clang and its libFuzzer/sanitizer runtime (scripts/fuzz.sh).
+#   --with-bench-tools also installs SciPy, whose normal CDF the separate way's change step of
+#   bench/several.py uses (bench/run.py needs only the base packages).
 #   --with-packaging-tools also installs what scripts/package.sh needs: dpkg-shlibdeps (dpkg-dev),
 #   file (CPack's strip step), lintian, and man-db (the manual-page test).
 set -euo pipefail
@@ -28,6 +30,7 @@ for flag in "$@"; do
     --with-cluster-tools) packages+=(slurm-wlm munge) ;;
     --with-fuzz) packages+=(clang libclang-rt-14-dev) ;;
     --with-packaging-tools) packages+=(dpkg-dev file lintian man-db) ;;
+    --with-bench-tools) packages+=(python3-scipy) ;;
     *) echo "install-deps.sh: unknown option $flag" >&2; exit 2 ;;
   esac
 done
