@@ -13,10 +13,10 @@ struct Prediction {
   Eigen::VectorXd eta;       ///< linear predictor (link scale), offset included
   Eigen::VectorXd variance;  ///< x' V x, the variance of eta (negative only by rounding)
   Eigen::VectorXd se_eta;    ///< sqrt(max(x' V x, 0))
-  Eigen::VectorXd mu;      ///< g^-1(eta), response scale
-  Eigen::VectorXd se_mu;   ///< |d g^-1/d eta| * se_eta (delta method)
-  Eigen::VectorXd lower;   ///< g^-1(eta - z se_eta): formed on the link scale, stays in range
-  Eigen::VectorXd upper;   ///< g^-1(eta + z se_eta)
+  Eigen::VectorXd mu;        ///< g^-1(eta), response scale
+  Eigen::VectorXd se_mu;     ///< |d g^-1/d eta| * se_eta (delta method)
+  Eigen::VectorXd lower;     ///< g^-1(eta - z se_eta): formed on the link scale, stays in range
+  Eigen::VectorXd upper;     ///< g^-1(eta + z se_eta)
 };
 
 class Evaluator {

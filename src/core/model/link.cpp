@@ -147,9 +147,10 @@ namespace {
 /// compiled once per instruction set, and a loop left out of line would get the baseline's.
 template <bool Limits, class Both, class Inverse>
 __attribute__((always_inline)) inline void response_loop(Both both, Inverse inverse, const double* __restrict eta,
-                          const double* __restrict variance, double z, double* __restrict se_eta,
-                          double* __restrict mu, double* __restrict se_mu, double* __restrict lower,
-                          double* __restrict upper, long n) {
+                                                         const double* __restrict variance, double z,
+                                                         double* __restrict se_eta, double* __restrict mu,
+                                                         double* __restrict se_mu, double* __restrict lower,
+                                                         double* __restrict upper, long n) {
   for (long i = 0; i < n; ++i) {
     // max(v, 0) as Eigen's array max forms it: v unless v < 0 (a NaN and -0 stay).
     const double v = variance[i];
@@ -168,8 +169,9 @@ __attribute__((always_inline)) inline void response_loop(Both both, Inverse inve
 }
 
 template <class Both, class Inverse>
-__attribute__((always_inline)) inline void response_loops(Both both, Inverse inverse, const double* eta, const double* variance, double z,
-                           double* se_eta, double* mu, double* se_mu, double* lower, double* upper, long n) {
+__attribute__((always_inline)) inline void response_loops(Both both, Inverse inverse, const double* eta,
+                                                          const double* variance, double z, double* se_eta, double* mu,
+                                                          double* se_mu, double* lower, double* upper, long n) {
   if (lower)
     response_loop<true>(both, inverse, eta, variance, z, se_eta, mu, se_mu, lower, upper, n);
   else
